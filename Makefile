@@ -1,0 +1,33 @@
+# Two commands do all set-up: `make demo` and `make test`. Both create and reuse .venv.
+PYTHON ?= python3
+VENV := .venv
+BIN := $(VENV)/bin
+STAMP := $(VENV)/.installed
+
+.PHONY: demo test lint format bench clean
+
+$(STAMP): pyproject.toml
+	$(PYTHON) -m venv $(VENV)
+	$(BIN)/python -m pip install --quiet --upgrade pip
+	$(BIN)/python -m pip install --quiet -e '.[test,cluster]'
+	touch $(STAMP)
+
+demo: $(STAMP)
+	$(BIN)/workbench demo
+
+lint: $(STAMP)
+	$(BIN)/ruff check workbench tests benchmarks
+	$(BIN)/ruff format --check workbench tests benchmarks
+
+test: lint
+	$(BIN)/python -m pytest -q
+
+format: $(STAMP)
+	$(BIN)/ruff format workbench tests benchmarks
+	$(BIN)/ruff check --fix workbench tests benchmarks
+
+bench: $(STAMP)
+	$(BIN)/python benchmarks/engine.py
+
+clean:
+	rm -rf $(VENV) .pytest_cache .ruff_cache

@@ -1,0 +1,59 @@
+import numpy as np
+import pytest
+from hypothesis import given
+from hypothesis import strategies as st
+
+from workbench.space import Categorical, Continuous, Integer, Space
+from workbench.validation import InputError
+
+
+def test_linear_and_log_parameters_round_trip_through_the_cube():
+    lin = Continuous("temperature", 180, 260, unit="°C")
+    log = Continuous("proving", 20, 240, log=True, unit="min")
+    x = np.array([180.0, 200.0, 260.0])
+    np.testing.assert_allclose(lin.from_unit(lin.to_unit(x)), x)
+    y = np.array([20.0, 69.28, 240.0])
+    np.testing.assert_allclose(log.from_unit(log.to_unit(y)), y)
+    # On a log scale the geometric midpoint sits at the cube's centre.
+    assert log.to_unit(np.sqrt(20 * 240)) == pytest.approx(0.5)
+
+
+def test_integer_and_categorical_values_own_equal_bins_and_encode_at_their_centres():
+    n = Integer("racks", 1, 4)
+    np.testing.assert_allclose(n.to_unit([1, 2, 3, 4]), [0.125, 0.375, 0.625, 0.875])
+    np.testing.assert_array_equal(n.from_unit([0.0, 0.2499, 0.25, 0.999, 1.0]), [1, 1, 2, 4, 4])
+    c = Categorical("flour", ("rye", "wheat", "spelt"))
+    np.testing.assert_allclose(c.to_unit(np.array(["rye", "spelt"])), [1 / 6, 5 / 6])
+    np.testing.assert_array_equal(c.from_unit([0.1, 0.5, 0.9]), [0, 1, 2])
+
+
+@given(st.lists(st.floats(0, 1), min_size=3, max_size=3))
+def test_snap_is_idempotent_and_stays_in_the_cube(u):
+    space = Space((Continuous("a", 0, 1), Integer("b", 0, 9), Categorical("c", ("x", "y"))))
+    once = space.snap(np.array([u]))
+    np.testing.assert_allclose(space.snap(once), once)
+    assert np.all((once >= 0) & (once <= 1))
+
+
+def test_features_expand_categoricals_one_hot():
+    space = Space((Continuous("a", 0, 1), Categorical("c", ("x", "y", "z"))))
+    f = space.features(np.array([[0.3, 0.5], [0.7, 0.95]]))
+    np.testing.assert_allclose(f, [[0.3, 0, 1, 0], [0.7, 0, 0, 1]])
+
+
+@pytest.mark.parametrize(
+    "build, key",
+    [
+        (lambda: Continuous("a", 2, 1), "space.a.upper"),
+        (lambda: Continuous("a", 1, 1), "space.a.upper"),
+        (lambda: Continuous("a", 0, 1, log=True), "space.a.lower"),
+        (lambda: Categorical("c", ()), "space.c.choices"),
+        (lambda: Categorical("c", ("x", "x")), "space.c.choices"),
+        (lambda: Space((Continuous("a", 0, 1), Continuous("a", 0, 2))), "space.a"),
+    ],
+)
+def test_impossible_spaces_are_rejected_naming_the_key(build, key):
+    with pytest.raises(InputError) as err:
+        build()
+    assert err.value.key == key
+    assert "\n" not in str(err.value)

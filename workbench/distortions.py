@@ -1,0 +1,108 @@
+"""Distortions: how a simulated belief is deliberately wrong.
+
+Starting from a belief whose mode sits on the landscape's global minimiser:
+
+- **misplace** puts the mode on the landscape's worst point or on a decoy local optimum
+  (the searches are stated in :mod:`workbench.landscapes`);
+- **shift** moves the mode by a distance (Euclidean, cube units, i.e. fractions of the range)
+  along a direction that is given or drawn from the distortion stream;
+- **scale** multiplies the spread (below 1: narrower, overconfident; above 1: wider).
+
+They compose in that order: misplace, then shift, then scale.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+
+from .validation import InputError, check_choice, check_number, check_string
+
+__all__ = ["EXACT", "MISPLACE", "Distortion", "Severity", "severity"]
+
+MISPLACE = ("worst", "decoy")
+
+# A drawn direction is redrawn up to this many times to keep the shifted mode inside the cube;
+# if every draw leaves it, the last one is clipped into the cube (severity reports the truth).
+_DIRECTION_DRAWS = 100
+
+
+@dataclass(frozen=True)
+class Distortion:
+    """One named level of the ``distortion`` factor."""
+
+    name: str
+    shift: float = 0.0
+    scale: float = 1.0
+    misplace: str | None = None
+    direction: tuple[float, ...] | None = None
+
+    def __post_init__(self):
+        check_string(self.name, "distortion")
+        key = f"distortion.{self.name}"
+        check_number(self.shift, f"{key}.shift", low=0.0)
+        check_number(self.scale, f"{key}.scale", low=0.0, closed="right")
+        if self.misplace is not None:
+            check_choice(self.misplace, f"{key}.misplace", MISPLACE)
+        if self.direction is not None:
+            d = np.asarray(self.direction, dtype=float)
+            if d.ndim != 1 or not np.all(np.isfinite(d)) or np.linalg.norm(d) == 0:
+                raise InputError(f"{key}.direction", "a non-zero vector", self.direction)
+
+    @property
+    def is_exact(self) -> bool:
+        return self.shift == 0 and self.scale == 1 and self.misplace is None
+
+    def apply(self, belief, placement, rng: np.random.Generator):
+        """The distorted belief; ``placement`` is the landscape on the cube (for misplace)."""
+        if self.misplace == "worst":
+            belief = belief.centred(placement.worst()[0])
+        elif self.misplace == "decoy":
+            belief = belief.centred(placement.decoy()[0])
+        if self.shift > 0:
+            mode = np.atleast_1d(np.asarray(belief.mode(), dtype=float))
+            belief = belief.centred(_shifted(mode, self.shift, self.direction, rng))
+        if self.scale != 1:
+            belief = belief.scaled(self.scale)
+        return belief
+
+
+EXACT = Distortion("exact")
+
+
+def _shifted(mode: np.ndarray, distance: float, direction, rng: np.random.Generator) -> np.ndarray:
+    if direction is not None:
+        d = np.asarray(direction, dtype=float)
+        if d.shape != mode.shape:
+            raise InputError("distortion.direction", f"{mode.size} component(s)", direction)
+        return np.clip(mode + distance * d / np.linalg.norm(d), 0.0, 1.0)
+    for _ in range(_DIRECTION_DRAWS):
+        d = rng.standard_normal(mode.size)
+        d /= np.linalg.norm(d)
+        moved = mode + distance * d
+        if np.all((moved >= 0) & (moved <= 1)):
+            return moved
+    return np.clip(moved, 0.0, 1.0)
+
+
+@dataclass(frozen=True)
+class Severity:
+    """How wrong a belief is: its mode's distance to the nearest global minimiser (cube units),
+    and the belief's mass within ``radius`` of that minimiser."""
+
+    distance: float
+    mass_within: float
+    radius: float
+
+
+def severity(
+    belief, placement, *, radius: float = 0.1, draws: int = 4096, seed: int = 0
+) -> Severity:
+    """Severity of ``belief`` on ``placement``; the mass is a Monte-Carlo estimate from ``draws``
+    samples of a fixed stream, so the same belief always reports the same number."""
+    mode = np.atleast_1d(np.asarray(belief.mode(), dtype=float))
+    distance = float(placement.nearest_minimiser_distance(mode))
+    X = np.asarray(belief.sample(draws, np.random.default_rng(seed))).reshape(draws, -1)
+    gaps = np.linalg.norm(X[:, None, :] - placement.minimisers[None, :, :], axis=2).min(axis=1)
+    return Severity(distance, float(np.mean(gaps <= radius)), radius)

@@ -1,0 +1,1 @@
+"""Figures and the HTML report: functions of the grid Dataset and a matplotlib Axes."""

@@ -1,0 +1,254 @@
+"""Search spaces in the user's units and their encoding on the unit cube.
+
+Every parameter owns one coordinate ``u`` in ``[0, 1]``:
+
+- continuous, linear scale: ``u = (x - lower) / (upper - lower)``;
+- continuous, log scale: the same on ``log(x)``, so equal steps in ``u`` are equal ratios in ``x``;
+- integer with ``k = upper - lower + 1`` values: value ``lower + i`` owns the bin
+  ``[i/k, (i+1)/k)`` and is encoded at the bin centre ``(i + 0.5)/k``;
+- categorical with ``k`` choices: choice ``i`` owns the same bin as above, encoded at its centre.
+
+Beliefs are densities on this cube, so a discrete parameter's belief is piecewise constant
+over its bins. The surrogate sees continuous and integer coordinates as they are and
+categorical ones one-hot (:meth:`Space.features`).
+"""
+
+from __future__ import annotations
+
+from collections.abc import Sequence
+from dataclasses import dataclass
+
+import numpy as np
+
+from .validation import InputError, check_number, check_string, raw
+
+__all__ = ["Categorical", "Continuous", "Integer", "Parameter", "Space"]
+
+
+@dataclass(frozen=True)
+class Continuous:
+    """A real parameter on ``[lower, upper]``, on a linear or log scale."""
+
+    name: str
+    lower: float
+    upper: float
+    log: bool = False
+    unit: str = ""
+
+    def __post_init__(self):
+        check_string(self.name, "name")
+        key = f"space.{self.name}"
+        lower = check_number(self.lower, f"{key}.lower")
+        upper = check_number(self.upper, f"{key}.upper")
+        if lower >= upper:
+            raise InputError(f"{key}.upper", f"greater than lower ({lower:g})", upper)
+        if self.log and lower <= 0:
+            raise InputError(f"{key}.lower", "positive on a log scale", lower)
+        object.__setattr__(self, "lower", float(lower))
+        object.__setattr__(self, "upper", float(upper))
+
+    @property
+    def levels(self) -> int:
+        """Number of bins on the cube coordinate (0 for a continuous parameter)."""
+        return 0
+
+    def to_unit(self, x: np.ndarray) -> np.ndarray:
+        x = np.asarray(x, dtype=float)
+        if self.log:
+            return (np.log(x) - np.log(self.lower)) / (np.log(self.upper) - np.log(self.lower))
+        return (x - self.lower) / (self.upper - self.lower)
+
+    def from_unit(self, u: np.ndarray) -> np.ndarray:
+        u = np.clip(np.asarray(u, dtype=float), 0.0, 1.0)
+        if self.log:
+            return np.exp(np.log(self.lower) + u * (np.log(self.upper) - np.log(self.lower)))
+        return self.lower + u * (self.upper - self.lower)
+
+    def snap(self, u: np.ndarray) -> np.ndarray:
+        return np.clip(np.asarray(u, dtype=float), 0.0, 1.0)
+
+    def describe(self) -> str:
+        scale = "log" if self.log else "linear"
+        return f"{self.lower:g} to {self.upper:g} {self.unit}".rstrip() + f" ({scale})"
+
+
+@dataclass(frozen=True)
+class Integer:
+    """An integer parameter taking every value from ``lower`` to ``upper`` inclusive."""
+
+    name: str
+    lower: int
+    upper: int
+    unit: str = ""
+
+    def __post_init__(self):
+        check_string(self.name, "name")
+        key = f"space.{self.name}"
+        lower = check_number(self.lower, f"{key}.lower", integer=True)
+        upper = check_number(self.upper, f"{key}.upper", integer=True)
+        if lower >= upper:
+            raise InputError(f"{key}.upper", f"an integer greater than lower ({lower})", upper)
+        object.__setattr__(self, "lower", lower)
+        object.__setattr__(self, "upper", upper)
+
+    @property
+    def levels(self) -> int:
+        return self.upper - self.lower + 1
+
+    def to_unit(self, x: np.ndarray) -> np.ndarray:
+        return (np.asarray(x, dtype=float) - self.lower + 0.5) / self.levels
+
+    def from_unit(self, u: np.ndarray) -> np.ndarray:
+        index = np.clip(np.floor(np.asarray(u, dtype=float) * self.levels), 0, self.levels - 1)
+        return (self.lower + index).astype(int)
+
+    def snap(self, u: np.ndarray) -> np.ndarray:
+        return self.to_unit(self.from_unit(u))
+
+    def describe(self) -> str:
+        return f"{self.lower} to {self.upper} {self.unit}".rstrip() + " (integer)"
+
+
+@dataclass(frozen=True)
+class Categorical:
+    """A parameter taking one of a list of named choices (no order is implied)."""
+
+    name: str
+    choices: tuple[str, ...]
+    unit: str = ""
+
+    def __post_init__(self):
+        check_string(self.name, "name")
+        key = f"space.{self.name}.choices"
+        choices = tuple(self.choices) if isinstance(self.choices, (list, tuple)) else ()
+        if len(choices) < 2:
+            raise InputError(key, "a list of at least 2 choices", self.choices)
+        for choice in choices:
+            check_string(choice, key)
+        if len(set(choices)) != len(choices):
+            dup = next(c for c in choices if choices.count(c) > 1)
+            raise InputError(key, "a list of distinct choices", raw(f"{dup!r} twice"))
+        object.__setattr__(self, "choices", choices)
+
+    @property
+    def levels(self) -> int:
+        return len(self.choices)
+
+    def index(self, choice: str) -> int:
+        """Position of ``choice``; an unknown choice is an input error."""
+        if choice not in self.choices:
+            raise InputError(
+                f"space.{self.name}", "one of " + ", ".join(map(repr, self.choices)), choice
+            )
+        return self.choices.index(choice)
+
+    def to_unit(self, x: np.ndarray) -> np.ndarray:
+        x = np.asarray(x)
+        if x.dtype.kind in "UO":
+            x = np.vectorize(self.index, otypes=[int])(x)
+        return (np.asarray(x, dtype=float) + 0.5) / self.levels
+
+    def from_unit(self, u: np.ndarray) -> np.ndarray:
+        """The choice index (an integer array); ``choices[i]`` names it."""
+        return np.clip(
+            np.floor(np.asarray(u, dtype=float) * self.levels), 0, self.levels - 1
+        ).astype(int)
+
+    def snap(self, u: np.ndarray) -> np.ndarray:
+        return (self.from_unit(u) + 0.5) / self.levels
+
+    def describe(self) -> str:
+        return "one of " + ", ".join(self.choices)
+
+
+Parameter = Continuous | Integer | Categorical
+
+
+@dataclass(frozen=True)
+class Space:
+    """An ordered set of named parameters; column ``j`` of a cube point is parameter ``j``."""
+
+    parameters: tuple[Parameter, ...]
+
+    def __post_init__(self):
+        params = tuple(self.parameters)
+        if not params:
+            raise InputError("space", "at least one parameter", [])
+        names = [p.name for p in params]
+        for name in names:
+            if names.count(name) > 1:
+                raise InputError(f"space.{name}", "a name used once", raw("a repeated name"))
+        object.__setattr__(self, "parameters", params)
+
+    @classmethod
+    def unit_cube(cls, dim: int, names: Sequence[str] | None = None) -> Space:
+        """``dim`` continuous parameters on ``[0, 1]``."""
+        names = names or [f"x{i + 1}" for i in range(dim)]
+        return cls(tuple(Continuous(n, 0.0, 1.0) for n in names))
+
+    @property
+    def dim(self) -> int:
+        return len(self.parameters)
+
+    @property
+    def names(self) -> list[str]:
+        return [p.name for p in self.parameters]
+
+    @property
+    def levels(self) -> np.ndarray:
+        """Bins per coordinate, 0 for continuous ones."""
+        return np.array([p.levels for p in self.parameters], dtype=int)
+
+    @property
+    def is_discrete(self) -> np.ndarray:
+        return self.levels > 0
+
+    def __getitem__(self, name: str) -> Parameter:
+        for p in self.parameters:
+            if p.name == name:
+                return p
+        raise KeyError(name)
+
+    def to_unit(self, columns: Sequence[np.ndarray]) -> np.ndarray:
+        """Cube points, shape ``(n, dim)``, from one array of user values per parameter."""
+        return np.column_stack(
+            [p.to_unit(c) for p, c in zip(self.parameters, columns, strict=True)]
+        )
+
+    def from_unit(self, U: np.ndarray) -> list[np.ndarray]:
+        """User values, one array per parameter (choice indices for categorical ones)."""
+        U = np.atleast_2d(U)
+        return [p.from_unit(U[:, j]) for j, p in enumerate(self.parameters)]
+
+    def to_user_array(self, U: np.ndarray) -> np.ndarray:
+        """User values as one float array ``(n, dim)``; categorical columns hold choice indices."""
+        return np.column_stack([c.astype(float) for c in self.from_unit(U)])
+
+    def snap(self, U: np.ndarray) -> np.ndarray:
+        """Move discrete coordinates to their bin centres and clip everything into the cube."""
+        U = np.atleast_2d(np.asarray(U, dtype=float))
+        return np.column_stack([p.snap(U[:, j]) for j, p in enumerate(self.parameters)])
+
+    def features(self, U: np.ndarray) -> np.ndarray:
+        """Surrogate inputs: snapped coordinates, each categorical expanded one-hot."""
+        U = self.snap(U)
+        cols = []
+        for j, p in enumerate(self.parameters):
+            if isinstance(p, Categorical):
+                cols.append(np.eye(p.levels)[p.from_unit(U[:, j])])
+            else:
+                cols.append(U[:, j : j + 1])
+        return np.hstack(cols)
+
+    def format_point(self, u: np.ndarray) -> dict[str, float | int | str]:
+        """One cube point as ``{name: value}`` in user units (choice names for categoricals)."""
+        values = self.from_unit(np.atleast_2d(u))
+        out: dict[str, float | int | str] = {}
+        for p, v in zip(self.parameters, values, strict=True):
+            if isinstance(p, Categorical):
+                out[p.name] = p.choices[int(v[0])]
+            elif isinstance(p, Integer):
+                out[p.name] = int(v[0])
+            else:
+                out[p.name] = float(v[0])
+        return out
