@@ -1,0 +1,60 @@
+"""Acquisition formulas (minimisation), as pure functions of the model's mean and sd.
+
+- expected improvement (Jones, Schonlau & Welch 1998):
+  EI = (f_min − μ) Φ(z) + σ φ(z),  z = (f_min − μ) / σ;
+- its logarithm, computed without cancellation for very negative z;
+- the model's log odds of a point being good, log(M_g / M_b), with M_g = Φ((f_γ − μ)/σ)
+  the probability of falling below the γ-quantile f_γ (Kushner 1964's probability of improvement
+  below a threshold).
+"""
+
+from __future__ import annotations
+
+import numpy as np
+from scipy import special
+
+__all__ = ["expected_improvement", "log_expected_improvement", "log_odds_good"]
+
+_LOG_SQRT_2PI = 0.5 * np.log(2 * np.pi)
+_LOG_SQRT_PI_2 = 0.5 * np.log(np.pi / 2)
+
+
+def expected_improvement(mean, sd, best: float) -> np.ndarray:
+    """Closed-form expected improvement below ``best``."""
+    mean, sd = np.asarray(mean, dtype=float), np.asarray(sd, dtype=float)
+    z = (best - mean) / sd
+    return (best - mean) * special.ndtr(z) + sd * np.exp(-0.5 * z**2 - _LOG_SQRT_2PI)
+
+
+def _log_h(z: np.ndarray) -> np.ndarray:
+    """log(z Φ(z) + φ(z)), stable for every z.
+
+    For z > −1 the direct form is accurate. Below, write Φ(z) = ½ erfcx(−z/√2) e^(−z²/2), so
+    z Φ(z) + φ(z) = φ(z) (1 − |z| √(π/2) erfcx(|z|/√2)) and take log1p of the negative term.
+    """
+    z = np.asarray(z, dtype=float)
+    out = np.empty_like(z)
+    upper = z > -1.0
+    zu = z[upper]
+    out[upper] = np.log(zu * special.ndtr(zu) + np.exp(-0.5 * zu**2 - _LOG_SQRT_2PI))
+    zl = z[~upper]
+    inner = np.log(special.erfcx(-zl / np.sqrt(2)) * np.abs(zl)) + _LOG_SQRT_PI_2
+    # log(1 − e^inner) with inner < 0; for huge |z| use the asymptote −2 log|z|.
+    with np.errstate(invalid="ignore", divide="ignore"):
+        tail = np.where(inner > -np.log(2), np.log(-np.expm1(inner)), np.log1p(-np.exp(inner)))
+    far = zl < -1e6
+    tail = np.where(far, -2.0 * np.log(np.abs(zl)), tail)
+    out[~upper] = -0.5 * zl**2 - _LOG_SQRT_2PI + tail
+    return out
+
+
+def log_expected_improvement(mean, sd, best: float) -> np.ndarray:
+    """log EI = log σ + log h(z), h(z) = z Φ(z) + φ(z); finite wherever σ > 0."""
+    mean, sd = np.asarray(mean, dtype=float), np.asarray(sd, dtype=float)
+    return np.log(sd) + _log_h((best - mean) / sd)
+
+
+def log_odds_good(mean, sd, threshold: float) -> np.ndarray:
+    """log(M_g / M_b) with M_g = Φ(z), M_b = 1 − M_g = Φ(−z), z = (f_γ − μ)/σ, via log Φ."""
+    z = (threshold - np.asarray(mean, dtype=float)) / np.asarray(sd, dtype=float)
+    return special.log_ndtr(z) - special.log_ndtr(-z)
