@@ -97,6 +97,10 @@ def _design(kind: str, n: int, space: Space, belief, rng: np.random.Generator) -
     return space.snap(U)
 
 
+def _mode_point(space: Space, belief) -> np.ndarray:
+    return space.snap(np.atleast_1d(np.asarray(belief.mode(), dtype=float))[None, :])
+
+
 def _evaluate(placement, U: np.ndarray) -> np.ndarray:
     try:
         with np.errstate(all="ignore"):
@@ -146,9 +150,9 @@ def _run(campaign: Campaign, streams: dict[str, np.random.Generator]) -> Trace:
     weight = np.full(budget, np.nan)
     threshold = np.full(budget, np.nan)
     seconds = np.zeros(budget)
-    mode = space.snap(np.atleast_1d(np.asarray(belief.mode(), dtype=float))[None, :])
-    mode_value = float(_evaluate(placement, mode)[0])
-    log_belief_max = float(belief.logpdf(mode)[0]) if uses_belief else 0.0
+    # The expert's single best guess is the mode of the belief given, whatever the strategy.
+    mode_value = float(_evaluate(placement, _mode_point(space, c.belief))[0])
+    log_belief_max = float(belief.logpdf(_mode_point(space, belief))[0]) if uses_belief else 0.0
 
     def evaluate(rows: slice, U: np.ndarray) -> None:
         # Random search with k× evaluations: each row keeps the best of k draws, U among them.

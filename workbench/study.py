@@ -143,7 +143,10 @@ class Study:
 
     @property
     def quantile_levels(self) -> tuple[float, ...]:
-        return _union(q for s in self.strategies for q in s.quantile)
+        levels = _union(
+            q for s in self.strategies if s.name == "pseudo-posterior" for q in s.quantile
+        )
+        return levels or StrategyFactors.__dataclass_fields__["quantile"].default
 
     @property
     def exploration_levels(self) -> tuple[float, ...]:

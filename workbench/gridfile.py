@@ -1,0 +1,213 @@
+"""The grid file: every chunk of a study assembled into one NetCDF file, chunk by chunk.
+
+Dimensions: ``strategy`` (the belief-guided strategies), ``landscape``, ``distortion``,
+``decay``, ``quantile``, ``exploration``, ``initial``, ``replicate``, ``evaluation``
+(1 … budget), ``coordinate`` (one per parameter), and ``baseline``.
+
+Variables of the belief-guided strategies, over (strategy, landscape, distortion, decay,
+quantile, exploration, initial, replicate, evaluation): ``best`` (best noise-free value so
+far), ``regret``, ``normalized_regret``, ``observed`` (what the strategy saw), ``value``
+(noise-free), ``failed`` (1 where the evaluation failed), ``weight`` (λ(t)), ``threshold``
+(f_γ(t)); ``point`` (user units; categorical columns hold the choice index) and ``point_cube``
+(unit cube) add the ``coordinate`` dimension. The same names prefixed ``baseline_`` hold the
+baselines over (baseline, landscape, distortion, replicate, evaluation).
+
+Per cell: ``mode_value`` (the landscape's value at the belief's mode, the expert's best guess),
+``severity_distance`` and ``severity_mass`` over (landscape, distortion, replicate); per
+placement ``minimum`` and ``gap`` over (landscape, replicate).
+
+Repeats, by design: prior-weighted ignores the quantile, so its values repeat across the
+``quantile`` levels; no-belief and random ignore the belief, so theirs repeat across
+``distortion``. NaN marks a combination the study does not run (a decay level of one strategy
+only, for example).
+
+The file is written with netCDF4 directly, one chunk at a time, so memory stays flat however
+large the grid; it is written to a temporary name and renamed at the end.
+"""
+
+from __future__ import annotations
+
+import json
+from pathlib import Path
+
+import numpy as np
+
+from . import __version__
+from .grid import Chunk, settings
+from .storage import atomic_path
+from .study import Study
+
+__all__ = ["assemble"]
+
+_SERIES = (
+    "best",
+    "regret",
+    "normalized_regret",
+    "observed",
+    "value",
+    "failed",
+    "weight",
+    "threshold",
+)
+_GUIDED = (
+    "strategy",
+    "landscape",
+    "distortion",
+    "decay",
+    "quantile",
+    "exploration",
+    "initial",
+    "replicate",
+)
+_BASE = ("baseline", "landscape", "distortion", "replicate")
+
+
+def _coordinate_names(study: Study) -> list[str]:
+    if study.space is not None:
+        return study.space.names
+    return [f"x{j + 1}" for j in range(max(e.dim for e in study.landscapes))]
+
+
+def _strings(ds, name: str, values, dim: str | None = None) -> None:
+    var = ds.createVariable(name, str, (dim or name,))
+    var[:] = np.array(list(values), dtype=object)
+
+
+def _define(ds, study: Study) -> None:
+    guided, baseline = settings(study)
+    strategies = list(dict.fromkeys(s.strategy for s in guided))
+    sizes = {
+        "strategy": len(strategies),
+        "landscape": len(study.landscapes),
+        "distortion": len(study.distortions),
+        "decay": len(study.decay_levels),
+        "quantile": len(study.quantile_levels),
+        "exploration": len(study.exploration_levels),
+        "initial": len(study.initial),
+        "replicate": study.replicates,
+        "evaluation": study.budget,
+        "coordinate": len(_coordinate_names(study)),
+        "baseline": len(baseline),
+    }
+    for name, size in sizes.items():
+        ds.createDimension(name, size)
+    _strings(ds, "strategy", strategies)
+    _strings(ds, "landscape", [e.label for e in study.landscapes])
+    _strings(ds, "distortion", [d.name for d in study.distortions])
+    _strings(ds, "decay", study.decay_levels)
+    _strings(ds, "initial", study.initial)
+    _strings(ds, "coordinate", _coordinate_names(study))
+    _strings(ds, "baseline", [b.strategy for b in baseline])
+    for name, values in (
+        ("quantile", study.quantile_levels),
+        ("exploration", study.exploration_levels),
+        ("replicate", range(study.replicates)),
+        ("evaluation", range(1, study.budget + 1)),
+    ):
+        var = ds.createVariable(
+            name, "f8" if name in ("quantile", "exploration") else "i4", (name,)
+        )
+        var[:] = np.array(list(values))
+    for name, values in (
+        ("distortion_shift", [d.shift for d in study.distortions]),
+        ("distortion_scale", [d.scale for d in study.distortions]),
+    ):
+        ds.createVariable(name, "f8", ("distortion",))[:] = np.array(values, dtype=float)
+    _strings(ds, "distortion_misplace", [d.misplace or "" for d in study.distortions], "distortion")
+    ds.createVariable("landscape_noise", "f8", ("landscape",))[:] = np.array(
+        [e.noise for e in study.landscapes]
+    )
+
+    for prefix, dims in (("", _GUIDED), ("baseline_", _BASE)):
+        for name in _SERIES:
+            kind = "i1" if name == "failed" else "f8"
+            fill = -1 if name == "failed" else np.nan
+            ds.createVariable(prefix + name, kind, (*dims, "evaluation"), fill_value=fill)
+        for name in ("point", "point_cube"):
+            ds.createVariable(
+                prefix + name, "f8", (*dims, "evaluation", "coordinate"), fill_value=np.nan
+            )
+    for name in ("mode_value", "severity_distance", "severity_mass"):
+        ds.createVariable(name, "f8", ("landscape", "distortion", "replicate"), fill_value=np.nan)
+    for name in ("minimum", "gap"):
+        ds.createVariable(name, "f8", ("landscape", "replicate"), fill_value=np.nan)
+
+    ds.title = study.title
+    ds.study_name = study.name
+    ds.study = study.text
+    ds.root_seed = study.seed
+    ds.version = __version__
+    ds.budget = study.budget
+    ds.target = study.target
+    ds.severity_radius = 0.1
+    ds.units = json.dumps(
+        {p.name: p.unit for p in study.space.parameters} if study.space is not None else {}
+    )
+    ds.repeats = (
+        "prior-weighted ignores the quantile: its values repeat across quantile levels; "
+        "no-belief and random ignore the belief: theirs repeat across distortions"
+    )
+
+
+def _write_chunk(ds, study: Study, chunk: Chunk, data) -> None:
+    guided, baseline = settings(study)
+    strategies = list(dict.fromkeys(s.strategy for s in guided))
+    decay_index = {d: i for i, d in enumerate(study.decay_levels)}
+    quantiles = list(study.quantile_levels)
+    explorations = list(study.exploration_levels)
+    initials = list(study.initial)
+    bases = [b.strategy for b in baseline]
+    li, d, r = chunk.landscape, chunk.distortion, chunk.replicate
+    width = data["points"].shape[-1]
+    for k, s in enumerate(chunk.settings):
+        series = {name: data[name][k] for name in _SERIES}
+        series["failed"] = series["failed"].astype("i1")
+        pts = {"point": data["user_points"][k], "point_cube": data["points"][k]}
+        if s.strategy in strategies:
+            qs = (
+                [quantiles.index(s.quantile)]
+                if s.strategy == "pseudo-posterior"
+                else range(len(quantiles))
+            )
+            for q in qs:
+                at = (
+                    strategies.index(s.strategy),
+                    li,
+                    d,
+                    decay_index[str(s.decay)],
+                    q,
+                    explorations.index(s.exploration),
+                    initials.index(s.initial),
+                    r,
+                )
+                for name, v in series.items():
+                    ds[name][at] = v
+                for name, v in pts.items():
+                    ds[name][(*at, slice(None), slice(0, width))] = v
+        else:
+            targets = (
+                range(len(study.distortions)) if s.strategy in ("no-belief", "random") else [d]
+            )
+            for dd in targets:
+                at = (bases.index(s.strategy), li, dd, r)
+                for name, v in series.items():
+                    ds["baseline_" + name][at] = v
+                for name, v in pts.items():
+                    ds["baseline_" + name][(*at, slice(None), slice(0, width))] = v
+    for name in ("mode_value", "severity_distance", "severity_mass"):
+        ds[name][li, d, r] = data[name][0]
+    for name in ("minimum", "gap"):
+        ds[name][li, r] = data[name][0]
+
+
+def assemble(study: Study, chunk_dir: Path, path: Path, every: list[Chunk]) -> Path:
+    """Write ``path`` from the chunk files in ``chunk_dir`` (all of ``every`` must be there)."""
+    import netCDF4
+
+    with atomic_path(path) as tmp:
+        with netCDF4.Dataset(tmp, "w", format="NETCDF4") as ds:
+            _define(ds, study)
+            for chunk in every:
+                with np.load(chunk_dir / f"{chunk.key}.npz") as data:
+                    _write_chunk(ds, study, chunk, data)
+    return path

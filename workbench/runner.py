@@ -1,0 +1,179 @@
+"""Running a study: chunks in parallel, each written to disk as it finishes; then one grid.nc.
+
+Layout of an output folder::
+
+    manifest.json     study name, digest (SHA-256 of the study text), package version,
+                      and each finished chunk's compute seconds
+    chunks/*.npz      one file per finished chunk (written to a temporary name, then renamed)
+    grid.nc           the assembled grid (see :mod:`workbench.gridfile`)
+
+Running again resumes: chunks already on disk are skipped. A folder holding another study's
+chunks is refused unless ``fresh`` is set, which clears it first. Parallel work goes through
+joblib: its process backend on one machine, or its Dask backend given a scheduler address.
+"""
+
+from __future__ import annotations
+
+import contextlib
+import json
+import logging
+import os
+import shutil
+import time
+from collections.abc import Callable, Iterator
+from dataclasses import dataclass
+from pathlib import Path
+
+import numpy as np
+
+from . import __version__
+from .grid import Chunk, chunks, run_chunk
+from .storage import atomic_path, write_text
+from .study import Study
+from .validation import InputError, raw
+
+__all__ = ["RunSummary", "run_study"]
+
+log = logging.getLogger(__name__)
+
+MANIFEST = "manifest.json"
+CHUNKS = "chunks"
+GRID = "grid.nc"
+
+
+@dataclass(frozen=True)
+class RunSummary:
+    """What a run did: chunks and campaigns in all, how many were already on disk, the grid
+    file, and the wall time of this run."""
+
+    chunks: int
+    campaigns: int
+    resumed: int
+    grid: Path
+    seconds: float
+
+
+def _manifest(out: Path) -> dict | None:
+    path = out / MANIFEST
+    if not path.exists():
+        return None
+    try:
+        return json.loads(path.read_text(encoding="utf-8"))
+    except (OSError, json.JSONDecodeError):
+        return None
+
+
+def prepare(study: Study, out: Path, fresh: bool) -> dict:
+    """Check (or create) the output folder for ``study``; returns the manifest."""
+    manifest = _manifest(out)
+    if manifest is not None and manifest.get("digest") != study.digest:
+        if not fresh:
+            raise InputError(
+                "--out",
+                "a folder of this study (its study file changed; use --fresh to start over)",
+                raw(f"{out} holding results of another version of study '{manifest.get('study')}'"),
+                study.path,
+            )
+    if fresh and out.exists():
+        for name in (CHUNKS, GRID, MANIFEST):
+            target = out / name
+            if target.is_dir():
+                shutil.rmtree(target)
+            elif target.exists():
+                target.unlink()
+        manifest = None
+    if manifest is None:
+        manifest = {
+            "study": study.name,
+            "digest": study.digest,
+            "version": __version__,
+            "chunk_seconds": {},
+        }
+    (out / CHUNKS).mkdir(parents=True, exist_ok=True)
+    write_text(out / MANIFEST, json.dumps(manifest, indent=1))
+    return manifest
+
+
+def _chunk_path(out: Path, chunk: Chunk) -> Path:
+    return out / CHUNKS / f"{chunk.key}.npz"
+
+
+def _work(study: Study, chunk: Chunk) -> tuple[Chunk, dict, float]:
+    start = time.perf_counter()
+    result = run_chunk(study, chunk)
+    return chunk, result, time.perf_counter() - start
+
+
+@contextlib.contextmanager
+def _backend(scheduler: str | None) -> Iterator[None]:
+    if scheduler is None:
+        yield
+        return
+    try:
+        from dask.distributed import Client
+    except ImportError:
+        raise InputError(
+            "--scheduler",
+            "dask.distributed installed (pip install 'workbench[cluster]')",
+            raw("no dask.distributed"),
+        ) from None
+    import joblib
+
+    try:
+        client = Client(scheduler, timeout="10s")
+    except OSError as err:
+        raise InputError("--scheduler", "a reachable Dask scheduler", raw(str(err))) from None
+    try:
+        with joblib.parallel_config(backend="dask"):
+            yield
+    finally:
+        client.close()
+
+
+def run_study(
+    study: Study,
+    out: str | Path,
+    *,
+    jobs: int | None = None,
+    scheduler: str | None = None,
+    fresh: bool = False,
+    progress: Callable[[int, int], None] | None = None,
+) -> RunSummary:
+    """Run every chunk not yet on disk, then assemble ``grid.nc``.
+
+    ``progress(done, total)`` is called with campaign counts as chunks finish.
+    """
+    import joblib
+
+    from .gridfile import assemble
+
+    start = time.perf_counter()
+    out = Path(out)
+    manifest = prepare(study, out, fresh)
+    every = chunks(study)
+    todo = [c for c in every if not _chunk_path(out, c).exists()]
+    total = sum(len(c.settings) for c in every)
+    done = resumed = total - sum(len(c.settings) for c in todo)
+    if progress:
+        progress(done, total)
+    if todo:
+        n_jobs = jobs or os.cpu_count() or 1
+        with _backend(scheduler):
+            parallel = joblib.Parallel(
+                n_jobs=-1 if scheduler else n_jobs,
+                return_as="generator_unordered",
+                batch_size=1,
+                pre_dispatch="2*n_jobs",
+            )
+            calls = (joblib.delayed(_work)(study, c) for c in todo)
+            for chunk, result, seconds in parallel(calls):
+                with atomic_path(_chunk_path(out, chunk)) as tmp:
+                    with open(tmp, "wb") as fh:
+                        np.savez(fh, **result)
+                manifest["chunk_seconds"][chunk.key] = round(seconds, 4)
+                write_text(out / MANIFEST, json.dumps(manifest, indent=1))
+                done += len(chunk.settings)
+                if progress:
+                    progress(done, total)
+    grid = assemble(study, out / CHUNKS, out / GRID, every)
+    return RunSummary(len(every), total, resumed, grid, time.perf_counter() - start)
