@@ -33,8 +33,11 @@ def _log_h(z: np.ndarray) -> np.ndarray:
     z Φ(z) + φ(z) = φ(z) (1 − |z| √(π/2) erfcx(|z|/√2)) and take log1p of the negative term.
     """
     z = np.asarray(z, dtype=float)
-    out = np.empty_like(z)
     upper = z > -1.0
+    if upper.all():
+        # The common case near the incumbent: one pass, no masking.
+        return np.log(z * special.ndtr(z) + np.exp(-0.5 * z**2 - _LOG_SQRT_2PI))
+    out = np.empty_like(z)
     zu = z[upper]
     out[upper] = np.log(zu * special.ndtr(zu) + np.exp(-0.5 * zu**2 - _LOG_SQRT_2PI))
     zl = z[~upper]

@@ -99,6 +99,237 @@ def _write_belief_figure(s, path: Path) -> Path:
     return path
 
 
+# --------------------------------------------------------------------------- simulate
+
+
+def _simulation_study(args):
+    """A one-cell study built from the command line (every value validated, keys = options)."""
+    from . import landscapes as ls
+    from .decay import parse
+    from .distortions import EXACT, MISPLACE, Distortion
+    from .strategies import STRATEGIES
+    from .study import BELIEF_STRATEGIES, Decision, LandscapeEntry, StrategyFactors, Study
+    from .validation import check_choice, check_number
+
+    where = "command line"
+    try:
+        name = check_choice(args.strategy, "--strategy", list(STRATEGIES))
+        land = ls.get(args.landscape, args.dim)
+        budget = check_number(args.budget, "--budget", low=2, integer=True)
+        replicates = check_number(args.replicates, "--replicates", low=1, integer=True)
+        seed = check_number(args.seed, "--seed", low=0, integer=True)
+        spread = check_number(args.belief_spread, "--belief-spread", low=0, closed="right")
+        quantile = check_number(args.quantile, "--quantile", low=0, high=1, closed="neither")
+        exploration = check_number(args.exploration, "--exploration", low=0, high=1)
+        target = check_number(args.target, "--target", low=0, high=1, closed="right")
+        noise = check_number(args.noise, "--noise", low=0)
+        multiple = check_number(args.random_multiple, "--random-multiple", low=1, integer=True)
+        decay = parse(args.decay, "--decay")
+        kind, _, size = args.initial.partition(":")
+        kind = check_choice(kind, "--initial", ("belief", "sobol", "lhs"))
+        n0 = None
+        if size:
+            if not size.isdigit():
+                raise InputError(
+                    "--initial", "'kind' or 'kind:N' with a whole number N", args.initial
+                )
+            n0 = check_number(int(size), "--initial", low=1, integer=True)
+        if budget <= (n0 if n0 is not None else land.dim + 1):
+            raise InputError(
+                "--budget", f"larger than the initial design ({n0 or land.dim + 1})", budget
+            )
+        shift = check_number(args.shift, "--shift", low=0)
+        scale = check_number(args.scale, "--scale", low=0, closed="right")
+        if args.misplace is not None:
+            check_choice(args.misplace, "--misplace", MISPLACE)
+        distortion = Distortion("distorted", shift, scale, args.misplace)
+        if distortion.is_exact:
+            distortion = EXACT
+    except InputError as err:
+        raise err.located(where) from None
+    guided = name in BELIEF_STRATEGIES
+    entry = LandscapeEntry(land.name, land.dim, noise, land.name)
+    study = Study(
+        name="simulate",
+        title=f"{name} on {land.name}",
+        text=" ".join(sys.argv),
+        budget=budget,
+        replicates=replicates,
+        seed=seed,
+        target=target,
+        initial=(kind,),
+        initial_size=n0,
+        landscapes=(entry,),
+        space=None,
+        belief=None,
+        spread=spread,
+        distortions=(distortion,),
+        strategies=(StrategyFactors(name, (decay,), (quantile,), (exploration,)),)
+        if guided
+        else (),
+        baselines=() if guided else (name,),
+        placement=args.placement,
+        questions=(),
+        decision=Decision(),
+        path=where,
+        random_multiple=multiple,
+    )
+    settings = {
+        "strategy": name,
+        "landscape": land.name,
+        "dim": land.dim,
+        "budget": budget,
+        "replicates": replicates,
+        "seed": seed,
+        "belief_spread": spread,
+        "shift": shift,
+        "scale": scale,
+        "misplace": args.misplace,
+        "decay": str(decay),
+        "quantile": quantile,
+        "exploration": exploration,
+        "initial": kind,
+        "initial_size": n0 if n0 is not None else land.dim + 1,
+        "target": target,
+        "noise": noise,
+        "placement": args.placement,
+        "random_multiple": multiple,
+    }
+    return study, settings
+
+
+def cmd_simulate(args) -> int:
+    import numpy as np
+
+    from .grid import chunks
+    from .metrics import evaluations_to_target
+    from .runner import execute
+
+    study, settings = _simulation_study(args)
+    rows = []
+    for chunk, result, _ in execute(study, chunks(study), jobs=args.jobs):
+        regret = result["regret"][0]
+        nr = result["normalized_regret"][0]
+        ett, reached = evaluations_to_target(nr, study.target)
+        rows.append(
+            {
+                "replicate": chunk.replicate,
+                "final_regret": float(regret[-1]),
+                "final_normalized_regret": float(nr[-1]),
+                "evaluations_to_target": int(ett) if reached else None,
+                "mode_value_regret": float(result["mode_value"][0] - result["minimum"][0]),
+            }
+        )
+    rows.sort(key=lambda r: r["replicate"])
+    if args.json:
+        print(json.dumps({"settings": settings, "replicates": rows}, indent=2))
+        return 0
+    print(
+        f"{settings['strategy']} on {settings['landscape']} ({settings['dim']}-D), "
+        f"budget {settings['budget']}, target normalized regret {settings['target']:g}"
+    )
+    print(f"{'replicate':>9} {'final regret':>14} {'normalized':>12} {'evals to target':>16}")
+    for r in rows:
+        ett = r["evaluations_to_target"]
+        print(
+            f"{r['replicate']:>9} {r['final_regret']:>14.4g} {r['final_normalized_regret']:>12.4g} "
+            f"{'not reached' if ett is None else ett:>16}"
+        )
+    finals = np.array([r["final_normalized_regret"] for r in rows])
+    print(
+        f"median final normalized regret {np.median(finals):.4g}; "
+        f"reached the target in {sum(r['evaluations_to_target'] is not None for r in rows)}"
+        f" of {len(rows)}"
+    )
+    return 0
+
+
+# --------------------------------------------------------------------------- studies
+
+
+def _progress(quiet: bool):
+    from tqdm import tqdm
+
+    if quiet or not sys.stderr.isatty():
+        return None, None
+    bar = tqdm(total=0, unit="campaign", desc="campaigns", dynamic_ncols=True)
+
+    def update(done: int, total: int) -> None:
+        bar.total = total
+        bar.n = done
+        bar.refresh()
+
+    return bar, update
+
+
+def cmd_check(args) -> int:
+    from .estimate import probe
+    from .study import load
+
+    s = load(args.study)
+    est = probe(s, jobs=args.jobs)
+    print(f"study '{s.name}': {s.title}")
+    print(f"grid cells: {est.cells} (landscapes x distortions x strategy settings)")
+    print(f"campaigns: {est.campaigns} ({s.replicates} replicates per cell, baselines included)")
+    print(f"evaluations in total: {est.evaluations}")
+    print(
+        f"estimated wall time on {est.jobs} worker(s): {_duration(est.seconds)} "
+        f"(timing probe: {est.probe_campaigns} campaigns, {est.per_campaign:.3f} s each)"
+    )
+    return 0
+
+
+def _duration(seconds: float) -> str:
+    if seconds < 90:
+        return f"{seconds:.0f} s"
+    if seconds < 5400:
+        return f"{seconds / 60:.1f} min"
+    return f"{seconds / 3600:.1f} h"
+
+
+def _run(study, out: Path, args) -> object:
+    from .runner import run_study
+
+    bar, update = _progress(args.quiet)
+    try:
+        return run_study(
+            study, out, jobs=args.jobs, scheduler=args.scheduler, fresh=args.fresh, progress=update
+        )
+    finally:
+        if bar is not None:
+            bar.close()
+
+
+def cmd_run(args) -> int:
+    from .study import load
+
+    study = load(args.study)
+    summary = _run(study, _out_dir(args, study.name), args)
+    print(
+        f"{summary.campaigns} campaigns ({summary.resumed} already done) in "
+        f"{_duration(summary.seconds)}; grid: {summary.grid}"
+    )
+    return 0
+
+
+def _demo_study() -> Path:
+    here = Path(__file__).resolve().parents[1] / "studies" / "demo.toml"
+    return here if here.exists() else Path("studies") / "demo.toml"
+
+
+def cmd_demo(args) -> int:
+    from .study import load
+
+    study = load(_demo_study())
+    out = Path(args.out) if args.out else Path("results") / "demo"
+    summary = _run(study, out, args)
+    print(
+        f"demo: {summary.campaigns} campaigns ({summary.resumed} already done) in "
+        f"{summary.seconds:.1f} s wall time; grid: {summary.grid}"
+    )
+    return 0
+
+
 # --------------------------------------------------------------------------- parser
 
 
@@ -118,6 +349,50 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("study", help="study file (TOML)")
     p.add_argument("--out", help="output folder (default results/<study-name>/)")
     p.set_defaults(func=cmd_belief)
+
+    p = sub.add_parser("simulate", help="run one grid cell from the command line")
+    p.add_argument("--landscape", required=True)
+    p.add_argument("--dim", type=int, default=None, help="dimension of a generic landscape")
+    p.add_argument("--strategy", required=True)
+    p.add_argument("--budget", type=int, default=30)
+    p.add_argument("--replicates", type=int, default=4)
+    p.add_argument("--seed", type=int, default=0)
+    p.add_argument("--jobs", type=int, default=None, help="parallel workers (default: all cores)")
+    p.add_argument("--belief-spread", type=float, default=0.1, help="sd as a fraction of the range")
+    p.add_argument("--shift", type=float, default=0.0, help="move the belief by this distance")
+    p.add_argument("--scale", type=float, default=1.0, help="multiply the belief's spread")
+    p.add_argument("--misplace", default=None, help="centre the belief on 'worst' or 'decoy'")
+    p.add_argument("--decay", default="hyperbolic:10", help="family:value")
+    p.add_argument("--quantile", type=float, default=0.25, help="threshold quantile γ")
+    p.add_argument("--exploration", type=float, default=0.0, help="share of uniform proposals")
+    p.add_argument("--initial", default="belief", help="belief|sobol|lhs[:N]")
+    p.add_argument("--target", type=float, default=0.05, help="normalized regret to reach")
+    p.add_argument("--noise", type=float, default=0.0, help="noise sd as a fraction of the gap")
+    p.add_argument("--placement", choices=("random", "native"), default="random")
+    p.add_argument("--random-multiple", type=int, default=1, help="random: k draws per evaluation")
+    p.add_argument("--json", action="store_true")
+    p.set_defaults(func=cmd_simulate)
+
+    p = sub.add_parser("check", help="validate a study and estimate its cost")
+    p.add_argument("study")
+    p.add_argument("--jobs", type=int, default=None)
+    p.set_defaults(func=cmd_check)
+
+    for name, func, helptext in (
+        ("run", cmd_run, "run a study's grid (resumes where it stopped)"),
+        ("demo", cmd_demo, "run the built-in demo study"),
+    ):
+        p = sub.add_parser(name, help=helptext)
+        if name == "run":
+            p.add_argument("study")
+        p.add_argument("--out", help="output folder (default results/<study-name>/)")
+        p.add_argument(
+            "--jobs", type=int, default=None, help="parallel workers (default: all cores)"
+        )
+        p.add_argument("--scheduler", default=None, help="Dask scheduler address")
+        p.add_argument("--fresh", action="store_true", help="discard earlier results in --out")
+        p.add_argument("--quiet", action="store_true", help="no progress bar")
+        p.set_defaults(func=func)
     return parser
 
 

@@ -68,7 +68,10 @@ class Setting:
 def settings(study: Study) -> tuple[list[Setting], list[Setting]]:
     """The belief-guided settings and the baseline settings of a study."""
     guided = [Setting(s, d, q, e, i) for s, d, q, e, i in study.settings()]
-    baseline = [Setting(b, initial=study.initial[0]) for b in study.baselines]
+    baseline = [
+        Setting(b, initial=study.initial[0], multiple=study.random_multiple if b == "random" else 1)
+        for b in study.baselines
+    ]
     return guided, baseline
 
 

@@ -32,7 +32,7 @@ from .storage import atomic_path, write_text
 from .study import Study
 from .validation import InputError, raw
 
-__all__ = ["RunSummary", "run_study"]
+__all__ = ["RunSummary", "execute", "run_study"]
 
 log = logging.getLogger(__name__)
 
@@ -130,6 +130,22 @@ def _backend(scheduler: str | None) -> Iterator[None]:
         client.close()
 
 
+def execute(
+    study: Study, todo: list[Chunk], *, jobs: int | None = None, scheduler: str | None = None
+) -> Iterator[tuple[Chunk, dict, float]]:
+    """Run ``todo`` in parallel; yield (chunk, arrays, seconds) as each chunk finishes."""
+    import joblib
+
+    if not todo:
+        return
+    n_jobs = -1 if scheduler else (jobs or os.cpu_count() or 1)
+    with _backend(scheduler):
+        parallel = joblib.Parallel(
+            n_jobs=n_jobs, return_as="generator_unordered", batch_size=1, pre_dispatch="2*n_jobs"
+        )
+        yield from parallel(joblib.delayed(_work)(study, c) for c in todo)
+
+
 def run_study(
     study: Study,
     out: str | Path,
@@ -143,8 +159,6 @@ def run_study(
 
     ``progress(done, total)`` is called with campaign counts as chunks finish.
     """
-    import joblib
-
     from .gridfile import assemble
 
     start = time.perf_counter()
@@ -156,24 +170,14 @@ def run_study(
     done = resumed = total - sum(len(c.settings) for c in todo)
     if progress:
         progress(done, total)
-    if todo:
-        n_jobs = jobs or os.cpu_count() or 1
-        with _backend(scheduler):
-            parallel = joblib.Parallel(
-                n_jobs=-1 if scheduler else n_jobs,
-                return_as="generator_unordered",
-                batch_size=1,
-                pre_dispatch="2*n_jobs",
-            )
-            calls = (joblib.delayed(_work)(study, c) for c in todo)
-            for chunk, result, seconds in parallel(calls):
-                with atomic_path(_chunk_path(out, chunk)) as tmp:
-                    with open(tmp, "wb") as fh:
-                        np.savez(fh, **result)
-                manifest["chunk_seconds"][chunk.key] = round(seconds, 4)
-                write_text(out / MANIFEST, json.dumps(manifest, indent=1))
-                done += len(chunk.settings)
-                if progress:
-                    progress(done, total)
+    for chunk, result, seconds in execute(study, todo, jobs=jobs, scheduler=scheduler):
+        with atomic_path(_chunk_path(out, chunk)) as tmp:
+            with open(tmp, "wb") as fh:
+                np.savez(fh, **result)
+        manifest["chunk_seconds"][chunk.key] = round(seconds, 4)
+        write_text(out / MANIFEST, json.dumps(manifest, indent=1))
+        done += len(chunk.settings)
+        if progress:
+            progress(done, total)
     grid = assemble(study, out / CHUNKS, out / GRID, every)
     return RunSummary(len(every), total, resumed, grid, time.perf_counter() - start)

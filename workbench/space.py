@@ -17,6 +17,7 @@ from __future__ import annotations
 
 from collections.abc import Sequence
 from dataclasses import dataclass
+from functools import cached_property
 
 import numpy as np
 
@@ -224,14 +225,22 @@ class Space:
         """User values as one float array ``(n, dim)``; categorical columns hold choice indices."""
         return np.column_stack([c.astype(float) for c in self.from_unit(U)])
 
+    @cached_property
+    def _continuous(self) -> bool:
+        return not any(p.levels for p in self.parameters)
+
     def snap(self, U: np.ndarray) -> np.ndarray:
         """Move discrete coordinates to their bin centres and clip everything into the cube."""
         U = np.atleast_2d(np.asarray(U, dtype=float))
+        if self._continuous:
+            return np.clip(U, 0.0, 1.0)
         return np.column_stack([p.snap(U[:, j]) for j, p in enumerate(self.parameters)])
 
     def features(self, U: np.ndarray) -> np.ndarray:
         """Surrogate inputs: snapped coordinates, each categorical expanded one-hot."""
         U = self.snap(U)
+        if self._continuous:
+            return U
         cols = []
         for j, p in enumerate(self.parameters):
             if isinstance(p, Categorical):

@@ -61,6 +61,7 @@ _TOP_KEYS = (
     "distortion",
     "strategy",
     "decision",
+    "random_multiple",
 )
 _RULES = ("expected", "minimax", "cvar")
 
@@ -128,6 +129,7 @@ class Study:
     questions: tuple[str, ...]
     decision: Decision
     path: str = "<study>"
+    random_multiple: int = 1
 
     @property
     def digest(self) -> str:
@@ -248,6 +250,7 @@ def _parse(doc: dict, text: str, name: str, where: str) -> Study:
         for b in check_sequence(baselines, "baselines", min_length=0, unique=True)
     )
     decision = _decision(doc.get("decision", {}), distortions)
+    multiple = check_number(doc.get("random_multiple", 1), "random_multiple", low=1, integer=True)
     return Study(
         name=name,
         title=title,
@@ -269,6 +272,7 @@ def _parse(doc: dict, text: str, name: str, where: str) -> Study:
         questions=questions,
         decision=decision,
         path=where,
+        random_multiple=multiple,
     )
 
 

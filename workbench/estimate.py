@@ -1,0 +1,60 @@
+"""Cost of a study: counts of cells, campaigns and evaluations, and a wall-time estimate from a
+short timing probe run for real on this machine."""
+
+from __future__ import annotations
+
+import os
+import time
+from dataclasses import dataclass
+
+from .grid import Cell, chunks, settings
+from .study import Study
+
+__all__ = ["Estimate", "probe"]
+
+
+@dataclass(frozen=True)
+class Estimate:
+    cells: int
+    campaigns: int
+    evaluations: int
+    probe_campaigns: int
+    per_campaign: float
+    jobs: int
+
+    @property
+    def seconds(self) -> float:
+        """Estimated wall time: campaigns × seconds per campaign / workers."""
+        return self.campaigns * self.per_campaign / self.jobs
+
+
+def probe(study: Study, jobs: int | None = None) -> Estimate:
+    """Time one campaign of every strategy (first landscape, exact belief, replicate 0) and
+    weight them by how often each strategy runs in the grid."""
+    every = chunks(study)
+    guided, baseline = settings(study)
+    campaigns = sum(len(c.settings) for c in every)
+    cell = Cell(study, 0, 0, 0)
+    cell.placement  # noqa: B018 - placement work is shared by a chunk, so keep it out of the timing
+    cell.severity  # noqa: B018
+    seconds: dict[str, float] = {}
+    for setting in guided + baseline:
+        if setting.strategy in seconds:
+            continue
+        start = time.perf_counter()
+        cell.run(setting)
+        seconds[setting.strategy] = time.perf_counter() - start
+    counts: dict[str, int] = {}
+    for c in every:
+        for s in c.settings:
+            counts[s.strategy] = counts.get(s.strategy, 0) + 1
+    per = sum(seconds[k] * n for k, n in counts.items()) / max(campaigns, 1)
+    n_cells = len(study.landscapes) * len(study.distortions) * (len(guided) + len(baseline))
+    return Estimate(
+        cells=n_cells,
+        campaigns=campaigns,
+        evaluations=campaigns * study.budget,
+        probe_campaigns=len(seconds),
+        per_campaign=per,
+        jobs=jobs or os.cpu_count() or 1,
+    )
