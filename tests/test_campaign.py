@@ -2,6 +2,7 @@
 
 import numpy as np
 import pytest
+from helpers import make_study
 
 from workbench import landscapes as ls
 from workbench.beliefs import gaussian_at
@@ -10,8 +11,6 @@ from workbench.grid import chunks
 from workbench.runner import execute
 from workbench.seeding import campaign_streams, derive
 from workbench.space import Space
-
-from helpers import make_study
 
 
 def final_regrets(study, evaluation=-1):
