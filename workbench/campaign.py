@@ -183,7 +183,7 @@ def _run(campaign: Campaign, streams: dict[str, np.random.Generator]) -> Trace:
             F = space.features(points[rows])
             if gp is None or surrogate.refit_due(len(rows), last_fit):
                 previous = None if gp is None else gp.hyperparameters
-                gp = surrogate.fit(F, y, previous=previous, rng=rng, restarts=2, maxiter=30)
+                gp = surrogate.fit(F, y, previous=previous, rng=rng, restarts=1, maxiter=16)
                 last_fit = len(rows)
             else:
                 gp = surrogate.condition(gp, F, y)

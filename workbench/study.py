@@ -319,10 +319,15 @@ def _landscapes(entries, space: Space | None) -> tuple[LandscapeEntry, ...]:
         check_keys(entry, key, ("name", "dim", "noise"), required=("name",))
         name = check_choice(entry["name"], f"{key}.name", ls.catalogue())
         dim = entry.get("dim")
-        if dim is None and space is not None:
-            dim = space.dim if ls.get(name).dim != space.dim else None
         try:
-            landscape = ls.get(name, dim)
+            if dim is None and space is not None:
+                # A generic landscape takes the space's dimension; a fixed one keeps its own.
+                try:
+                    landscape = ls.get(name, space.dim)
+                except InputError:
+                    landscape = ls.get(name)
+            else:
+                landscape = ls.get(name, dim)
         except InputError as err:
             raise InputError(f"{key}.dim", err.expected, err.got) from None
         if space is not None and landscape.dim != space.dim:

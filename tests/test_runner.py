@@ -1,0 +1,156 @@
+"""The grid runner: identical results whatever the workers, resume after a hard kill, storage."""
+
+import os
+import signal
+import subprocess
+import sys
+import textwrap
+import time
+
+import numpy as np
+import pytest
+import xarray as xr
+
+from workbench import grid
+from workbench.runner import run_study
+from workbench.study import load
+
+STUDY = """
+title = "runner check"
+budget = 8
+replicates = 3
+seed = 7
+baselines = ["no-belief", "belief-sampling"]
+[[landscape]]
+name = "branin"
+[belief]
+spread = 0.15
+[distortion]
+shifted = { shift = 0.3 }
+[strategy.pseudo-posterior]
+decay = ["hyperbolic:3", "constant:1"]
+quantile = [0.2, 0.5]
+[strategy.prior-weighted]
+decay = ["hyperbolic:3"]
+"""
+
+
+@pytest.fixture
+def study_file(tmp_path):
+    path = tmp_path / "check.toml"
+    path.write_text(textwrap.dedent(STUDY), encoding="utf-8")
+    return path
+
+
+def _grid(path):
+    with xr.open_dataset(path) as ds:
+        return ds.load()
+
+
+def test_grid_has_the_named_dimensions_and_attributes(study_file, tmp_path):
+    summary = run_study(load(study_file), tmp_path / "out", jobs=1)
+    ds = _grid(summary.grid)
+    for dim in (
+        "landscape",
+        "distortion",
+        "decay",
+        "quantile",
+        "replicate",
+        "evaluation",
+        "exploration",
+        "initial",
+        "strategy",
+        "baseline",
+    ):
+        assert dim in ds.dims
+    assert list(ds.decay.values) == ["hyperbolic:3", "constant:1"]
+    assert ds.attrs["root_seed"] == 7 and "runner check" in ds.attrs["study"]
+    nr = ds.normalized_regret.sel(strategy="pseudo-posterior", decay="hyperbolic:3", quantile=0.2)
+    assert np.isfinite(nr).all()
+    # Prior-weighted ignores the quantile: repeated across levels; it has no constant:1 level.
+    pw = ds.normalized_regret.sel(strategy="prior-weighted")
+    np.testing.assert_array_equal(pw.sel(quantile=0.2), pw.sel(quantile=0.5))
+    assert np.isnan(pw.sel(decay="constant:1")).all()
+    # no-belief ignores the belief: the same campaign stands for every distortion.
+    nb = ds.baseline_best.sel(baseline="no-belief")
+    np.testing.assert_array_equal(nb.sel(distortion="exact"), nb.sel(distortion="shifted"))
+
+
+def test_one_and_two_workers_give_identical_grids(study_file, tmp_path):
+    one = _grid(run_study(load(study_file), tmp_path / "one", jobs=1).grid)
+    two = _grid(run_study(load(study_file), tmp_path / "two", jobs=2).grid)
+    xr.testing.assert_identical(one, two)
+
+
+def test_a_dask_cluster_gives_the_same_grid(study_file, tmp_path):
+    distributed = pytest.importorskip("dask.distributed")
+    one = _grid(run_study(load(study_file), tmp_path / "one", jobs=1).grid)
+    with distributed.LocalCluster(
+        n_workers=2, threads_per_worker=1, processes=True, dashboard_address=None
+    ) as cluster:
+        dask = _grid(
+            run_study(load(study_file), tmp_path / "dask", scheduler=cluster.scheduler_address).grid
+        )
+    xr.testing.assert_identical(one, dask)
+
+
+def test_a_killed_run_resumes_and_ends_with_the_same_grid(study_file, tmp_path):
+    reference = _grid(run_study(load(study_file), tmp_path / "ref", jobs=1).grid)
+    out = tmp_path / "killed"
+    cmd = [
+        sys.executable,
+        "-m",
+        "workbench.cli",
+        "run",
+        str(study_file),
+        "--out",
+        str(out),
+        "--jobs",
+        "1",
+        "--quiet",
+    ]
+    proc = subprocess.Popen(cmd, start_new_session=True)
+    deadline = time.time() + 120
+    while time.time() < deadline and len(list((out / "chunks").glob("*.npz"))) < 2:
+        time.sleep(0.05)
+    os.killpg(proc.pid, signal.SIGKILL)
+    proc.wait()
+    done = len(list((out / "chunks").glob("*.npz")))
+    assert 2 <= done < len(grid.chunks(load(study_file))), "the kill should land midway"
+    assert not (out / "grid.nc").exists()
+    summary = run_study(load(study_file), out, jobs=2)
+    assert summary.resumed > 0
+    xr.testing.assert_identical(_grid(summary.grid), reference)
+
+
+def test_a_changed_study_is_refused_unless_fresh(study_file, tmp_path):
+    from workbench.validation import InputError
+
+    run_study(load(study_file), tmp_path / "out", jobs=1)
+    study_file.write_text(textwrap.dedent(STUDY).replace("seed = 7", "seed = 8"), encoding="utf-8")
+    with pytest.raises(InputError, match="--fresh"):
+        run_study(load(study_file), tmp_path / "out", jobs=1)
+    ds = _grid(run_study(load(study_file), tmp_path / "out", jobs=1, fresh=True).grid)
+    assert ds.attrs["root_seed"] == 8
+
+
+def test_a_campaign_that_raises_keeps_the_finished_chunks_and_names_the_cell(
+    study_file, tmp_path, monkeypatch
+):
+    study = load(study_file)
+    original = grid.Cell.run
+
+    def failing(self, setting):
+        if self.distortion == 1 and self.replicate == 1 and setting.strategy == "prior-weighted":
+            raise RuntimeError("landscape server down")
+        return original(self, setting)
+
+    monkeypatch.setattr(grid.Cell, "run", failing)
+    with pytest.raises(grid.CampaignError) as err:
+        run_study(study, tmp_path / "out", jobs=1)
+    message = str(err.value)
+    assert "distortion shifted" in message and "replicate 1" in message
+    assert "prior-weighted" in message
+    kept = list((tmp_path / "out" / "chunks").glob("*.npz"))
+    assert len(kept) >= 3  # the chunks before the failing one are on disk
+    assert not (tmp_path / "out" / "grid.nc").exists()

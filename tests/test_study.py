@@ -1,0 +1,166 @@
+import json
+
+import numpy as np
+import pytest
+from helpers import make_study
+
+from workbench.beliefs import Discrete, Mixture, Product, TruncatedGaussian
+from workbench.cli import main
+from workbench.grid import Cell, chunks
+from workbench.study import load
+from workbench.validation import InputError
+
+USER = """
+title = "Coating line: cure temperature, line speed, primer"
+budget = 12
+[space.cure]
+lower = 120
+upper = 200
+unit = "°C"
+[space.speed]
+lower = 0.5
+upper = 8
+scale = "log"
+unit = "m/min"
+[space.passes]
+lower = 1
+upper = 4
+type = "integer"
+[space.primer]
+choices = ["epoxy", "acrylic", "none"]
+[belief.cure]
+centre = 165
+within = 10
+[belief.speed]
+centre = 2
+factor = 2
+[belief.passes]
+probabilities = [0.1, 0.6, 0.2, 0.1]
+[belief.primer]
+probabilities = { epoxy = 0.7, acrylic = 0.3 }
+[[landscape]]
+name = "shekel5"
+[strategy.pseudo-posterior]
+decay = ["hyperbolic:5"]
+"""
+
+
+def test_a_user_space_study_reads_units_scales_and_beliefs():
+    s = make_study(USER)
+    assert s.space.names == ["cure", "speed", "passes", "primer"]
+    assert s.space["speed"].log and s.space["cure"].unit == "°C"
+    assert isinstance(s.belief, Product)
+    cure, speed, passes, primer = s.belief.marginals
+    assert isinstance(cure, TruncatedGaussian) and isinstance(passes, Discrete)
+    assert isinstance(speed, TruncatedGaussian)
+    assert primer.probabilities == pytest.approx((0.7, 0.3, 0.0))
+    mode = s.space.format_point(s.belief.mode())
+    assert mode["cure"] == pytest.approx(165) and mode["speed"] == pytest.approx(2)
+    assert mode["passes"] == 2 and mode["primer"] == "epoxy"
+
+
+def test_the_truth_is_placed_at_the_belief_mode_on_a_user_space():
+    s = make_study(USER)
+    cell = Cell(s, 0, 0, 0)
+    mode = s.space.snap(np.atleast_2d(s.belief.mode()))[0]
+    assert cell.placement.nearest_minimiser_distance(mode) == pytest.approx(0.0, abs=1e-9)
+    assert cell.mode_value == pytest.approx(cell.placement.minimum, abs=1e-9)
+
+
+def test_a_belief_from_earlier_good_points_is_a_density_estimate():
+    s = make_study(
+        """
+        title = "points"
+        [space.t]
+        lower = 0
+        upper = 10
+        [space.flour]
+        choices = ["rye", "wheat"]
+        [belief]
+        points = [
+          { t = 2.0, flour = "rye" },
+          { t = 2.5, flour = "rye" },
+          { t = 3.0, flour = "wheat" },
+        ]
+        [[landscape]]
+        name = "branin"
+        [strategy.prior-weighted]
+        decay = ["hyperbolic:5"]
+        """
+    )
+    assert isinstance(s.belief, Mixture) and len(s.belief.components) == 3
+    assert s.space.format_point(s.belief.mode())["flour"] == "rye"
+
+
+def test_per_parameter_mixtures_and_beta_beliefs_are_read():
+    s = make_study(
+        """
+        title = "shapes"
+        [space.a]
+        lower = 0
+        upper = 1
+        [space.b]
+        lower = 0
+        upper = 1
+        [belief.a]
+        mixture = [
+          { centre = 0.2, spread = 0.05, weight = 1 },
+          { centre = 0.7, spread = 0.1, weight = 3 },
+        ]
+        [belief.b]
+        beta = [2, 5]
+        [[landscape]]
+        name = "branin"
+        [strategy.prior-weighted]
+        decay = ["hyperbolic:5"]
+        """
+    )
+    a, b = s.belief.marginals
+    assert isinstance(a, Mixture) and a.weights == pytest.approx((0.25, 0.75))
+    assert b.mode() == pytest.approx(0.2)
+
+
+def test_distortion_levels_come_named_and_from_a_factorial():
+    s = make_study(
+        """
+        title = "factorial"
+        [[landscape]]
+        name = "branin"
+        [distortion]
+        misplaced = { misplace = "worst" }
+        factorial = { shift = [0.1, 0.3], scale = [0.5, 2.0] }
+        [strategy.pseudo-posterior]
+        decay = ["hyperbolic:5", "exponential:10"]
+        quantile = [0.1, 0.3]
+        """
+    )
+    names = [d.name for d in s.distortions]
+    assert names[:2] == ["exact", "misplaced"] and len(names) == 6
+    assert "shift 0.3 scale 2" in names
+    assert len(chunks(s)) == 6 * s.replicates
+
+
+def test_a_dimension_mismatch_between_space_and_landscape_is_refused():
+    with pytest.raises(InputError, match="dimension 4"):
+        make_study(USER.replace('name = "shekel5"', 'name = "branin"'))
+
+
+def test_the_demo_study_reads_and_its_belief_command_writes_the_figure(tmp_path, capsys):
+    s = load("studies/demo.toml")
+    assert {d.name for d in s.distortions} >= {"exact", "shifted", "overconfident", "misplaced"}
+    assert len(s.decay_levels) >= 3 and len(s.quantile_levels) >= 3 and len(s.landscapes) >= 2
+    assert main(["belief", "studies/demo.toml", "--out", str(tmp_path)]) == 0
+    out = capsys.readouterr().out
+    assert "temperature" in out and "central 90 %" in out and "truncation" in out
+    png = tmp_path / "belief.png"
+    assert png.read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"
+
+
+def test_the_landscape_catalogue_prints_as_json(capsys):
+    assert main(["landscapes", "--json"]) == 0
+    rows = json.loads(capsys.readouterr().out)
+    assert len(rows) >= 12
+    assert {"name", "dimension", "domain", "minimum", "minimisers"} <= set(rows[0])
+    branin = next(r for r in rows if r["name"] == "branin")
+    # Dixon & Szegő (1978); Surjanovic & Bingham (2013): Branin f* = 0.397887.
+    assert branin["minimum"] == pytest.approx(0.397887, rel=1e-4)
