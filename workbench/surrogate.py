@@ -22,6 +22,7 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass, field
+from functools import cached_property
 
 import numpy as np
 from scipy.linalg import LinAlgError
@@ -358,6 +359,13 @@ class GP:
         """Number of observations."""
         return self.X.shape[0]
 
+    @cached_property
+    def _scaled_data(self) -> tuple[np.ndarray, np.ndarray]:
+        """The training inputs scaled by the length scales, and their squared norms: the same
+        for every prediction, so computed once."""
+        b = _scaled(self.X, self.hyperparameters.lengthscales)
+        return b, np.einsum("ij,ij->i", b, b)
+
     def predict(self, Xc: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
         """Posterior mean and latent sd (without the noise) at the rows of ``Xc``, in the
         original output units.
@@ -375,8 +383,7 @@ class GP:
         hp = self.hyperparameters
         signal = hp.signal_variance
         a = _scaled(Xc, hp.lengthscales)
-        b = _scaled(self.X, hp.lengthscales)
-        bb = np.einsum("ij,ij->i", b, b)
+        b, bb = self._scaled_data
         m, n = Xc.shape[0], self.X.shape[0]
         mean = np.empty(m)
         var = np.empty(m)
@@ -401,7 +408,8 @@ class GP:
         sd *= self.y_scale
         mean *= self.y_scale
         mean += self.y_mean
-        if not (np.all(np.isfinite(mean)) and np.all(np.isfinite(sd))):
+        # One reduction: the sum is finite only if every value is.
+        if not math.isfinite(float(mean.sum() + sd.sum())):
             bad = int(np.count_nonzero(~(np.isfinite(mean) & np.isfinite(sd))))
             raise FloatingPointError(
                 f"GP prediction is not finite at {bad} of {Xc.shape[0]} points "
