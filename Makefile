@@ -4,7 +4,7 @@ VENV := .venv
 BIN := $(VENV)/bin
 STAMP := $(VENV)/.installed
 
-.PHONY: demo test lint format bench clean
+.PHONY: demo test lint format bench clean chromium
 
 $(STAMP): pyproject.toml
 	$(PYTHON) -m venv $(VENV)
@@ -19,8 +19,15 @@ lint: $(STAMP)
 	$(BIN)/ruff check workbench tests benchmarks
 	$(BIN)/ruff format --check workbench tests benchmarks
 
-test: lint
+test: lint chromium
 	$(BIN)/python -m pytest -q
+
+# Headless Chromium renders the HTML report in tests/test_report.py (Debian's package).
+chromium:
+	@command -v chromium >/dev/null || { \
+	  if [ "$$(id -u)" = 0 ]; then SUDO=; else SUDO=sudo; fi; \
+	  $$SUDO apt-get update -qq && $$SUDO apt-get install -y -qq chromium; \
+	} || echo "chromium could not be installed: the report rendering test will be skipped"
 
 format: $(STAMP)
 	$(BIN)/ruff format workbench tests benchmarks

@@ -58,7 +58,16 @@ def child(replicates: int, mode: str, out: str) -> None:
 
 def measure(replicates: int, mode: str) -> dict:
     with tempfile.TemporaryDirectory() as out:
-        cmd = [sys.executable, __file__, "--child", mode, "--replicates", str(replicates), "--out", out]
+        cmd = [
+            sys.executable,
+            __file__,
+            "--child",
+            mode,
+            "--replicates",
+            str(replicates),
+            "--out",
+            out,
+        ]
         done = subprocess.run(cmd, capture_output=True, text=True, check=True)
     return json.loads(done.stdout.strip().splitlines()[-1])
 
@@ -82,18 +91,26 @@ def main() -> None:
     small = measure(reps, "joblib")
     rate = small["campaigns"] / small["seconds"]
     full_campaigns = small["campaigns"] * full.replicates / reps
-    print(f"reference study: {full_campaigns:.0f} campaigns; measured {small['campaigns']} "
-          f"({reps} of {full.replicates} replicates)")
-    print(f"joblib, 2 workers: {rate:.2f} campaigns/s; projected full study "
-          f"{full_campaigns / rate / 60:.1f} min (goal: 30 min)")
+    print(
+        f"reference study: {full_campaigns:.0f} campaigns; measured {small['campaigns']} "
+        f"({reps} of {full.replicates} replicates)"
+    )
+    print(
+        f"joblib, 2 workers: {rate:.2f} campaigns/s; projected full study "
+        f"{full_campaigns / rate / 60:.1f} min (goal: 30 min)"
+    )
     large = measure(2 * reps, "joblib")
-    print(f"peak memory: {small['peak_kib'] / 1024:.0f} MiB at {small['campaigns']} campaigns, "
-          f"{large['peak_kib'] / 1024:.0f} MiB at {large['campaigns']}; "
-          f"ratio {large['peak_kib'] / small['peak_kib']:.2f} for twice the grid")
+    print(
+        f"peak memory: {small['peak_kib'] / 1024:.0f} MiB at {small['campaigns']} campaigns, "
+        f"{large['peak_kib'] / 1024:.0f} MiB at {large['campaigns']}; "
+        f"ratio {large['peak_kib'] / small['peak_kib']:.2f} for twice the grid"
+    )
     if not args.no_dask:
         one, two = measure(reps, "dask1"), measure(reps, "dask2")
-        print(f"Dask LocalCluster: 1 worker {one['seconds']:.1f} s, 2 workers {two['seconds']:.1f} s;"
-              f" speed-up {one['seconds'] / two['seconds']:.2f} with 2 workers")
+        print(
+            f"Dask LocalCluster: 1 worker {one['seconds']:.1f} s, 2 workers {two['seconds']:.1f} s;"
+            f" speed-up {one['seconds'] / two['seconds']:.2f} with 2 workers"
+        )
 
 
 if __name__ == "__main__":

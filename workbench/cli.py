@@ -13,6 +13,7 @@ import sys
 import warnings
 from pathlib import Path
 
+from .grid import CampaignError
 from .validation import InputError
 
 __all__ = ["main"]
@@ -318,6 +319,7 @@ def _demo_study() -> Path:
 
 
 def cmd_demo(args) -> int:
+    from .report.document import write_report
     from .study import load
 
     study = load(_demo_study())
@@ -327,6 +329,125 @@ def cmd_demo(args) -> int:
         f"demo: {summary.campaigns} campaigns ({summary.resumed} already done) in "
         f"{summary.seconds:.1f} s wall time; grid: {summary.grid}"
     )
+    files, rec = write_report(out)
+    print(f"report: {files.html}")
+    _print_recommendation(rec)
+    return 0
+
+
+def cmd_plan(args) -> int:
+    from .plan import PlanOptions, build_plan, duration, reasons, run_pilot, size, write_plan
+    from .study import load
+
+    options = PlanOptions.from_text(
+        half_width=args.half_width,
+        power=args.power,
+        difference=args.difference,
+        confidence=args.confidence,
+        pilot_replicates=args.pilot_replicates,
+        cap=args.cap,
+        workers=args.workers,
+        jobs=args.jobs,
+    )
+    study = load(args.study)
+    out = _out_dir(args, study.name)
+    pilot = run_pilot(study, options)
+    plan = build_plan(study, pilot, options, out)
+    md, page = write_plan(plan)
+    r, c = plan.replicates, plan.compute
+    print(f"study plan of '{study.name}': {study.title}")
+    print(
+        f"pilot: {pilot.campaigns} campaigns ({pilot.design.replicates} replicates of every "
+        f"landscape x distortion, {len(pilot.design.settings)} settings) in {pilot.wall:.1f} s"
+    )
+    print(f"replicates: {r.chosen}")
+    for line in reasons(plan):
+        print(f"  {line}")
+    if plan.warning:
+        print(f"  warning: {plan.warning}")
+        print(f"workbench: warning: {plan.warning}", file=sys.stderr)
+    print(
+        f"time: {c.estimate.campaigns} campaigns, {c.estimate.evaluations} evaluations: about "
+        f"{duration(c.local)} here ({c.estimate.jobs} processes), {duration(c.cluster)} on "
+        f"{c.workers} Dask workers; disk about {size(c.disk_bytes)}"
+    )
+    old, new = plan.edit
+    if r.chosen == study.replicates:
+        print(f"the study already says replicates = {r.chosen}")
+    elif old is None:
+        print(f"add this line at the top of {study.path}: {new}")
+    else:
+        print(f"first, in {study.path}: change '{old.strip()}' to '{new.strip()}'")
+    print(f"command: {plan.command}")
+    print(f"plan: {md}, {page}")
+    return 0
+
+
+# --------------------------------------------------------------------------- analysis
+
+
+def _decision(args):
+    """The grid of DIR and the decision rule and resampling the options ask for."""
+    from .analysis import Resampling, decision_rule, open_grid
+
+    where = "command line"
+    try:
+        ds = open_grid(args.dir)
+        rule = decision_rule(ds, args.rule, args.weights, args.level, args.metric)
+        resampling = Resampling(args.draws, args.confidence, args.seed)
+    except InputError as err:
+        raise err.located(where) from None
+    return ds, rule, resampling
+
+
+def _print_recommendation(rec) -> None:
+    from .analysis import METRIC_NAMES
+
+    name, unit = METRIC_NAMES[rec.rule.metric]
+    level = f"{rec.resampling.level:.0%}"
+    print(f"recommendation: {rec.setting}")
+    print(f"  rule ({rec.rule.rule}): {rec.rule.describe()}")
+    print(
+        f"  {name}: {_format_value(rec.value)} {unit} "
+        f"({level} interval {_format_value(rec.interval[0])} to {_format_value(rec.interval[1])})"
+    )
+    if rec.runner_up is not None:
+        ru = rec.runner_up
+        lo, hi = ru["interval"]
+        print(
+            f"  runner-up: {ru['setting']}: {_format_value(ru['value'])} "
+            f"({_format_value(lo)} to {_format_value(hi)})"
+        )
+    print(
+        f"  stability: {rec.stability:.0%} of {rec.resampling.draws} bootstrap resamples of the "
+        f"replicates pick the same setting"
+    )
+    for landscape, choice in rec.leave_one_landscape_out.items():
+        same = "the same" if choice == rec.setting else choice
+        print(f"  without landscape {landscape}: {same}")
+
+
+def cmd_recommend(args) -> int:
+    from .analysis import recommend
+
+    ds, rule, resampling = _decision(args)
+    rec = recommend(ds, rule, resampling)
+    if args.json:
+        print(json.dumps(rec.to_dict(), indent=2, ensure_ascii=False))
+        return 0
+    _print_recommendation(rec)
+    return 0
+
+
+def cmd_report(args) -> int:
+    from .report.document import write_report
+
+    ds, rule, resampling = _decision(args)
+    files, rec = write_report(args.dir, rule, resampling, ds=ds)
+    print(f"report: {files.html}")
+    print(f"summary: {files.summary}")
+    print(f"figures: {', '.join(str(p) for p in files.figures)}")
+    _print_recommendation(rec)
     return 0
 
 
@@ -378,6 +499,22 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("--jobs", type=int, default=None)
     p.set_defaults(func=cmd_check)
 
+    p = sub.add_parser("plan", help="write the study plan: replicates and why, cost, analysis")
+    p.add_argument("study")
+    p.add_argument("--out", help="output folder (default results/<study-name>/)")
+    for option, helptext in (
+        ("--half-width", "half-width of the recovery interval (default 0.1)"),
+        ("--power", "power to tell apart two settings (default 0.8)"),
+        ("--difference", "difference in evaluations to target to detect (default 5)"),
+        ("--confidence", "confidence level; the test's level is 1 - confidence (default 0.95)"),
+        ("--pilot-replicates", "replicates per pilot cell (default 4)"),
+        ("--cap", "most replicates to plan for (default 64)"),
+        ("--workers", "Dask workers for the cluster estimate (default 4)"),
+        ("--jobs", "parallel workers here (default: all cores)"),
+    ):
+        p.add_argument(option, default=None, help=helptext)
+    p.set_defaults(func=cmd_plan)
+
     for name, func, helptext in (
         ("run", cmd_run, "run a study's grid (resumes where it stopped)"),
         ("demo", cmd_demo, "run the built-in demo study"),
@@ -392,6 +529,31 @@ def build_parser() -> argparse.ArgumentParser:
         p.add_argument("--scheduler", default=None, help="Dask scheduler address")
         p.add_argument("--fresh", action="store_true", help="discard earlier results in --out")
         p.add_argument("--quiet", action="store_true", help="no progress bar")
+        p.set_defaults(func=func)
+
+    for name, func, helptext in (
+        ("recommend", cmd_recommend, "pick the setting of a grid under a decision rule"),
+        ("report", cmd_report, "write the HTML report, its figures and a Markdown summary"),
+    ):
+        p = sub.add_parser(name, help=helptext)
+        p.add_argument("dir", metavar="DIR", help="results folder holding grid.nc")
+        p.add_argument(
+            "--rule", default=None, help="expected, minimax or cvar (default: the study's)"
+        )
+        p.add_argument(
+            "--weights", default=None, help="distortion weights, e.g. exact=0.5,shifted=0.5"
+        )
+        p.add_argument("--level", type=float, default=None, help="cvar: worst share of weight")
+        p.add_argument(
+            "--metric",
+            default=None,
+            help="evaluations_to_target, final_normalized_regret or log_regret_area",
+        )
+        p.add_argument("--confidence", type=float, default=0.95, help="interval level")
+        p.add_argument("--draws", type=int, default=1000, help="bootstrap draws")
+        p.add_argument("--seed", type=int, default=0, help="bootstrap seed")
+        if name == "recommend":
+            p.add_argument("--json", action="store_true", help="print one JSON object")
         p.set_defaults(func=func)
     return parser
 
@@ -409,6 +571,11 @@ def main(argv: list[str] | None = None) -> int:
             raise
         print(f"workbench: {err}", file=sys.stderr)
         return 2
+    except CampaignError as err:
+        if args.debug:
+            raise
+        print(f"workbench: {err}; finished chunks are kept, a rerun resumes", file=sys.stderr)
+        return 1
     except KeyboardInterrupt:
         print("workbench: interrupted; finished work is kept and a rerun resumes", file=sys.stderr)
         return 130

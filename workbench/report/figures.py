@@ -12,7 +12,7 @@ import numpy as np
 
 from ..space import Categorical, Continuous, Space
 
-__all__ = ["belief_marginals"]
+__all__ = ["belief_marginals", "regret_curves", "robustness_frontier", "sensitivity_heatmap"]
 
 _STYLES = ("-", "--", "-.", ":")
 
@@ -21,7 +21,18 @@ def _colours(n: int):
     import matplotlib
 
     cmap = matplotlib.colormaps["cividis"]
-    return [cmap(x) for x in np.linspace(0.05, 0.85, max(n, 1))]
+    # The bright end of cividis is hard to see on white: stop short of it.
+    return [cmap(x) for x in np.linspace(0.0, 0.75, max(n, 1))]
+
+
+def _log_axis(ax) -> None:
+    """A log x axis labelled with plain numbers at 1, 2, 5 × 10^k."""
+    from matplotlib import ticker
+
+    ax.set_xscale("log")
+    ax.xaxis.set_major_locator(ticker.LogLocator(subs=(1.0, 2.0, 5.0)))
+    ax.xaxis.set_major_formatter(ticker.FuncFormatter(lambda v, _: f"{v:g}"))
+    ax.xaxis.set_minor_formatter(ticker.NullFormatter())
 
 
 def belief_marginals(
@@ -75,7 +86,7 @@ def belief_marginals(
                     linewidth=1.6,
                 )
             if isinstance(p, Continuous) and p.log:
-                ax.set_xscale("log")
+                _log_axis(ax)
             ax.set_ylabel("density (per unit of range)")
             if optimum is not None:
                 ax.axvline(
@@ -85,3 +96,244 @@ def belief_marginals(
         ax.set_ylim(bottom=0)
         ax.grid(alpha=0.3, linewidth=0.5)
     axes[0].legend(frameon=False, fontsize="small")
+
+
+def _luminance(rgba) -> float:
+    r, g, b = rgba[:3]
+    return 0.2126 * r + 0.7152 * g + 0.0722 * b
+
+
+def _short_number(v: float) -> str:
+    if not np.isfinite(v):
+        return "∞" if v > 0 else "−∞"
+    return f"{v:.3g}" if abs(v) < 100 else f"{v:.0f}"
+
+
+def sensitivity_heatmap(axes: Sequence, data, metric_label: str, panel_titles=None) -> None:
+    """One heatmap per panel of ``data`` (an :func:`workbench.analysis.sensitivity` Dataset):
+    the metric over decay (rows) × quantile (columns), each cell annotated with its value and
+    interval; hatched cells cannot be told apart from the panel's best (outlined in black).
+
+    Colours are per panel (cividis, darker is lower) so that differences within a panel show;
+    the annotated numbers compare across panels.
+    """
+    import matplotlib
+    from matplotlib.patches import Patch, Rectangle
+
+    cmap = matplotlib.colormaps["cividis"]
+    decays = [str(d) for d in data["decay"].values]
+    quantiles = [float(q) for q in data["quantile"].values]
+    panels = [str(p) for p in data["panel"].values]
+    titles = panel_titles or {}
+    for ax, panel in zip(axes, panels, strict=True):
+        est = data["estimate"].sel(panel=panel).values
+        lo = data["low"].sel(panel=panel).values
+        hi = data["high"].sel(panel=panel).values
+        tied = data["tied"].sel(panel=panel).values
+        best = data["best"].sel(panel=panel).values
+        finite = est[np.isfinite(est)]
+        vmin, vmax = (finite.min(), finite.max()) if finite.size else (0.0, 1.0)
+        flat = vmax - vmin < 1e-12
+        if flat:
+            vmin, vmax = vmin - 0.5, vmax + 0.5
+        image = ax.imshow(est, cmap=cmap, vmin=vmin, vmax=vmax, aspect="auto", origin="upper")
+        for i in range(len(decays)):
+            for j in range(len(quantiles)):
+                if not np.isfinite(est[i, j]):
+                    ax.text(j, i, "not run", ha="center", va="center", fontsize="x-small")
+                    continue
+                colour = image.cmap(image.norm(est[i, j]))
+                ink = "black" if _luminance(colour) > 0.45 else "white"
+                # a backing in the cell's colour keeps the hatching off the digits
+                backing = {"boxstyle": "square,pad=0.1", "facecolor": colour, "linewidth": 0}
+                ax.text(
+                    j,
+                    i - 0.13,
+                    _short_number(est[i, j]),
+                    ha="center",
+                    va="center",
+                    fontsize="small",
+                    color=ink,
+                    fontweight="bold" if best[i, j] else "normal",
+                    bbox=backing,
+                    zorder=4,
+                )
+                ax.text(
+                    j,
+                    i + 0.2,
+                    f"[{_short_number(lo[i, j])}, {_short_number(hi[i, j])}]",
+                    ha="center",
+                    va="center",
+                    fontsize="x-small",
+                    color=ink,
+                    bbox=backing,
+                    zorder=4,
+                )
+                if tied[i, j] and not best[i, j]:
+                    ax.add_patch(
+                        Rectangle(
+                            (j - 0.5, i - 0.5),
+                            1,
+                            1,
+                            fill=False,
+                            hatch="//",
+                            edgecolor="0.55" if ink == "black" else "0.8",
+                            linewidth=0,
+                        )
+                    )
+                if best[i, j]:
+                    ax.add_patch(
+                        Rectangle(
+                            (j - 0.47, i - 0.47), 0.94, 0.94, fill=False, edgecolor="black", lw=2.5
+                        )
+                    )
+        ax.set_xticks(range(len(quantiles)), [f"{q:g}" for q in quantiles])
+        ax.set_yticks(range(len(decays)), decays)
+        ax.set_xlabel("threshold quantile γ")
+        ax.set_ylabel("decay schedule")
+        ax.set_title(titles.get(panel, panel), fontsize="medium")
+        bar = ax.figure.colorbar(image, ax=ax, fraction=0.046, pad=0.04)
+        if flat:  # one value everywhere: a single tick says so
+            bar.set_ticks([vmin + 0.5])
+        bar.set_label(metric_label, fontsize="small")
+    handles = [
+        Patch(facecolor="white", edgecolor="black", linewidth=2.5, label="lowest in the panel"),
+        Patch(
+            facecolor="white",
+            edgecolor="0.45",
+            hatch="//",
+            label="cannot be told apart from the lowest",
+        ),
+    ]
+    axes[0].figure.legend(
+        handles=handles, loc="outside lower center", ncol=2, frameon=False, fontsize="small"
+    )
+
+
+def regret_curves(
+    axes: Sequence, bands, roles: Mapping[str, str] | None = None, target: float | None = None
+) -> None:
+    """One panel per distortion: median normalized regret (log scale) against evaluations
+    spent, with the bootstrap band, for every setting of ``bands`` (an
+    :func:`workbench.analysis.regret_bands` Dataset). ``roles`` adds a word to a setting's
+    legend label ("recommended"); ``target`` draws the target level.
+    """
+    from ..metrics import LOG_FLOOR
+
+    roles = roles or {}
+    settings = [str(s) for s in bands["setting"].values]
+    colours = _colours(len(settings))
+    markers = ("o", "s", "^", "D", "v", "P", "X")
+    t = bands["evaluation"].values
+    every = max(1, len(t) // 8)
+    for ax, distortion in zip(axes, [str(d) for d in bands["distortion"].values], strict=True):
+        for k, s in enumerate(settings):
+            one = bands.sel(setting=s, distortion=distortion)
+            mid = np.maximum(one["estimate"].values, LOG_FLOOR)
+            lo = np.maximum(one["low"].values, LOG_FLOOR)
+            hi = np.maximum(one["high"].values, LOG_FLOOR)
+            label = f"{s} ({roles[s]})" if s in roles else s
+            ax.fill_between(t, lo, hi, color=colours[k], alpha=0.18, linewidth=0)
+            ax.plot(
+                t,
+                mid,
+                _STYLES[k % len(_STYLES)],
+                color=colours[k],
+                marker=markers[k % len(markers)],
+                markevery=(k % every, every),
+                markersize=4,
+                linewidth=2.0 if s in roles else 1.4,
+                label=label,
+            )
+        if target is not None:
+            ax.axhline(target, color="black", linewidth=0.8, linestyle=(0, (1, 3)))
+            ax.annotate(
+                "target",
+                (t[-1], target),
+                xytext=(0, 3),
+                textcoords="offset points",
+                ha="right",
+                fontsize="x-small",
+            )
+        ax.set_yscale("log")
+        ax.set_title(f"distortion: {distortion}", fontsize="medium")
+        ax.set_xlabel("evaluations spent (initial design included)")
+        ax.set_ylabel("median normalized regret")
+        ax.grid(alpha=0.3, linewidth=0.5, which="both")
+    handles, labels = axes[0].get_legend_handles_labels()
+    axes[0].figure.legend(
+        handles, labels, loc="outside lower center", ncol=2, frameon=False, fontsize="small"
+    )
+
+
+def robustness_frontier(
+    ax, data, units: str = "evaluations", roles: Mapping[str, str] | None = None
+) -> None:
+    """Each belief-guided setting at (benefit when the belief is exact, cost at its worst
+    distortion), both against no belief, with bootstrap intervals as error bars (an
+    :func:`workbench.analysis.frontier` Dataset). Settings no other beats on both axes are
+    filled and labelled; better is to the right and down."""
+    roles = roles or {}
+    settings = [str(s) for s in data["setting"].values]
+    b = data["estimate"].sel(axis="benefit").values
+    c = data["estimate"].sel(axis="cost").values
+    blo, bhi = data["low"].sel(axis="benefit").values, data["high"].sel(axis="benefit").values
+    clo, chi = data["low"].sel(axis="cost").values, data["high"].sel(axis="cost").values
+    efficient = data["efficient"].values
+    dark = _colours(2)[0]
+    ax.axhline(0, color="0.4", linewidth=0.8)
+    ax.axvline(0, color="0.4", linewidth=0.8)
+    for k in range(len(settings)):
+        on = bool(efficient[k])
+        ax.errorbar(
+            b[k],
+            c[k],
+            xerr=[[b[k] - blo[k]], [bhi[k] - b[k]]],
+            yerr=[[c[k] - clo[k]], [chi[k] - c[k]]],
+            fmt="o" if on else "s",
+            markersize=7 if on else 5,
+            color=dark if on else "0.55",
+            markerfacecolor=dark if on else "white",
+            elinewidth=0.8,
+            capsize=2,
+            zorder=3 if on else 2,
+        )
+    placed: list[tuple[float, float]] = []
+    span = max(np.ptp(c), 1.0)
+    for k in np.flatnonzero(efficient):
+        label = settings[k] + (f" ({roles[settings[k]]})" if settings[k] in roles else "")
+        dy = 8
+        for px, py in placed:
+            if abs(px - b[k]) < 0.1 * max(np.ptp(b), 1.0) and abs(py - c[k]) < 0.08 * span:
+                dy += 12
+        placed.append((b[k], c[k]))
+        ax.annotate(
+            label,
+            (b[k], c[k]),
+            xytext=(6, dy),
+            textcoords="offset points",
+            fontsize="small",
+            arrowprops={"arrowstyle": "-", "color": "0.5", "linewidth": 0.6},
+        )
+    from matplotlib.lines import Line2D
+
+    ax.legend(
+        handles=[
+            Line2D([], [], marker="o", color=dark, linestyle="", label="not beaten on both axes"),
+            Line2D(
+                [],
+                [],
+                marker="s",
+                color="0.55",
+                markerfacecolor="white",
+                linestyle="",
+                label="beaten by another setting",
+            ),
+        ],
+        loc="upper left",
+        frameon=False,
+        fontsize="small",
+    )
+    ax.set_xlabel(f"saving when the belief is exact [{units}] (right is better)")
+    ax.set_ylabel(f"extra cost at the worst distortion [{units}] (down is better)")
+    ax.grid(alpha=0.3, linewidth=0.5)

@@ -1,0 +1,201 @@
+"""The study plan: the pilot, the compute estimate against a real run, the command and its files."""
+
+import contextlib
+import dataclasses
+import io
+import re
+import textwrap
+from pathlib import Path
+
+import numpy as np
+import pytest
+
+from workbench import grid
+from workbench import plan as pl
+from workbench.cli import main
+from workbench.runner import run_study
+from workbench.study import load, parse_text
+from workbench.validation import InputError
+
+DEMO = Path(__file__).resolve().parents[1] / "studies" / "demo.toml"
+
+TINY = """
+title = "Tiny <script>alert('x')</script> & co"
+budget = 8
+replicates = 3
+seed = 11
+baselines = ["no-belief"]
+[[landscape]]
+name = "branin"
+[belief]
+spread = 0.15
+[distortion]
+shifted = { shift = 0.3 }
+[strategy.pseudo-posterior]
+decay = ["hyperbolic:3", "hyperbolic:9"]
+quantile = [0.25]
+"""
+
+
+def _run(argv, capsys):
+    code = main(argv)
+    captured = capsys.readouterr()
+    return code, captured.out, captured.err
+
+
+@pytest.fixture(scope="module")
+def demo_pilot():
+    study = load(DEMO)
+    return study, pl.run_pilot(study, pl.PlanOptions(pilot_replicates=2))
+
+
+@pytest.fixture(scope="module")
+def tiny(tmp_path_factory):
+    folder = tmp_path_factory.mktemp("tiny")
+    path = folder / "tiny.toml"
+    path.write_text(textwrap.dedent(TINY), encoding="utf-8")
+    return path
+
+
+@pytest.fixture(scope="module")
+def tiny_capped(tiny, tmp_path_factory):
+    """`workbench plan tiny.toml --cap 2`, run once: stdout, stderr and the output folder."""
+    out = tmp_path_factory.mktemp("tiny-plan")
+    stdout, stderr = io.StringIO(), io.StringIO()
+    argv = ["plan", str(tiny), "--out", str(out), "--cap", "2", "--pilot-replicates", "2"]
+    with contextlib.redirect_stdout(stdout), contextlib.redirect_stderr(stderr):
+        code = main(argv)
+    return code, stdout.getvalue(), stderr.getvalue(), out
+
+
+def test_pilot_uses_first_middle_and_last_settings_and_every_baseline():
+    study = load(DEMO)
+    guided, _ = grid.settings(study)
+    design = pl.pilot_design(study, 4)
+    n = len(guided)
+    assert [s.label for s in design.guided] == [guided[i].label for i in (0, n // 2, n - 1)]
+    assert [s.strategy for s in design.baselines] == list(study.baselines)
+    pilot, todo = pl.pilot_chunks(study, design)
+    assert pilot.replicates == 4 and study.replicates == 8
+    assert len(todo) == len(study.landscapes) * len(study.distortions) * 4
+    assert {s.label for c in todo for s in c.settings} == {s.label for s in design.settings}
+
+
+def test_pilot_campaigns_are_the_studys_first_replicates(tiny):
+    study = load(tiny)
+    pilot, todo = pl.pilot_chunks(study, pl.pilot_design(study, 2))
+    full = {c.key: c for c in grid.chunks(study)}
+    chunk = todo[-1]
+    small = grid.run_chunk(pilot, chunk)
+    whole = grid.run_chunk(study, full[chunk.key])
+    labels = [s.label for s in full[chunk.key].settings]
+    for k, s in enumerate(chunk.settings):
+        j = labels.index(s.label)
+        np.testing.assert_array_equal(small["value"][k], whole["value"][j])
+
+
+def test_compute_estimate_is_within_a_factor_of_two_of_a_real_run(demo_pilot, tmp_path):
+    study, pilot = demo_pilot
+    # One replicate keeps the suite fast: 8 chunks, 108 campaigns, run for real.
+    small = dataclasses.replace(study, replicates=1)
+    estimate = pl.compute_estimate(small, pilot, 1)
+    summary = run_study(small, tmp_path / "run")
+    assert estimate.estimate.campaigns == summary.campaigns
+    assert 0.5 <= estimate.local / summary.seconds <= 2.0, (estimate.local, summary.seconds)
+    on_disk = sum(p.stat().st_size for p in (tmp_path / "run" / "chunks").glob("*.npz"))
+    grid_file = (tmp_path / "run" / "grid.nc").stat().st_size
+    assert 0.5 <= estimate.chunk_bytes / on_disk <= 2.0
+    assert 0.5 <= estimate.grid_bytes / grid_file <= 2.0
+
+
+def test_more_replicates_cost_proportionally_more(demo_pilot):
+    study, pilot = demo_pilot
+    two = pl.compute_estimate(study, pilot, 2)
+    eight = pl.compute_estimate(study, pilot, 8)
+    assert eight.estimate.campaigns == 4 * two.estimate.campaigns
+    assert eight.cpu == pytest.approx(4 * two.cpu)
+    assert eight.cluster < eight.local or eight.workers <= eight.estimate.jobs
+
+
+def test_plan_of_the_demo_writes_both_files_with_replicates_reasons_time_and_command(
+    tmp_path, capsys
+):
+    out = tmp_path / "tmp"
+    code, stdout, err = _run(["plan", str(DEMO), "--out", str(out)], capsys)
+    assert code == 0, err
+    md, page = out / "plan.md", out / "plan.html"
+    assert md.is_file() and page.is_file()
+    chosen = int(re.search(r"^replicates: (\d+)$", stdout, re.M).group(1))
+    text = md.read_text(encoding="utf-8")
+    for needle in (
+        f"Replicates: {chosen}",
+        "n = z² p(1 − p) / h²",
+        "Wilson",
+        "Wilcoxon signed-rank",
+        "(a) recovery interval",
+        "(b) power",
+        "wall time here",
+        "Dask workers",
+        f"workbench run {DEMO} --out {out}",
+        f"replicates = {chosen}",
+        "common random numbers",
+    ):
+        assert needle.lower() in text.lower(), needle
+    assert "(a) recovery interval" in stdout and "(b) power" in stdout
+    assert "time:" in stdout and f"command: workbench run {DEMO} --out {out}" in stdout
+    assert str(md) in stdout and str(page) in stdout
+
+
+def test_a_binding_cap_prints_a_warning_and_the_plan_says_so(tiny_capped):
+    code, out, err, folder = tiny_capped
+    assert code == 0, err
+    assert "replicates: 2" in out
+    assert "warning: the cap binds" in out and "the cap binds" in err
+    assert "Warning: the cap binds" in (folder / "plan.md").read_text(encoding="utf-8")
+
+
+def test_plan_page_is_self_contained_and_escapes_user_strings(tiny_capped):
+    *_, folder = tiny_capped
+    page = (folder / "plan.html").read_text(encoding="utf-8")
+    assert "<script" not in page.lower()
+    assert "&lt;script&gt;alert(&#x27;x&#x27;)&lt;/script&gt; &amp; co" in page
+    assert not re.search(r"(href|src)\s*=|https?://|@import", page)
+
+
+@pytest.mark.parametrize(
+    "option, value, key",
+    [
+        ("--half-width", "0", "'--half-width'"),
+        ("--half-width", "abc", "'--half-width'"),
+        ("--power", "1.5", "'--power'"),
+        ("--confidence", "1", "'--confidence'"),
+        ("--difference", "0", "'--difference'"),
+        ("--difference", "500", "'--difference'"),
+        ("--pilot-replicates", "1", "'--pilot-replicates'"),
+        ("--cap", "0", "'--cap'"),
+        ("--workers", "2.5", "'--workers'"),
+        ("--jobs", "0", "'--jobs'"),
+    ],
+)
+def test_bad_options_give_one_line_and_exit_2(option, value, key, tiny, tmp_path, capsys):
+    out = tmp_path / "out"
+    code, _, err = _run(["plan", str(tiny), "--out", str(out), option, value], capsys)
+    assert code == 2
+    lines = err.strip().splitlines()
+    assert len(lines) == 1 and key in lines[0] and "command line" in lines[0], err
+    assert not out.exists()
+
+
+def test_options_are_read_from_text_and_checked():
+    options = pl.PlanOptions.from_text(half_width="0.05", cap="10", jobs=None)
+    assert options.half_width == 0.05 and options.cap == 10 and options.jobs is None
+    with pytest.raises(InputError, match="'--power' must be a number in \\(0, 1\\)"):
+        pl.PlanOptions(power=0)
+
+
+def test_the_replicates_line_is_edited_in_place_or_added():
+    study = parse_text(textwrap.dedent(TINY), name="tiny")
+    old, new = pl.replicates_edit(study, 12)
+    assert old == "replicates = 3" and new == "replicates = 12"
+    bare = parse_text(textwrap.dedent(TINY).replace("replicates = 3\n", ""), name="tiny")
+    assert pl.replicates_edit(bare, 12) == (None, "replicates = 12")

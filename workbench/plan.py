@@ -1,0 +1,1177 @@
+"""The study plan: written from a study before it runs, for a methodologist to file.
+
+It states the questions, the factors and their levels, the responses and the decision rule,
+the design and its seeding, the number of replicates and why (from a small pilot run for
+real), the compute the study will take and how it will be analysed, and the command that
+runs it. :func:`run_pilot` runs the pilot through :func:`workbench.runner.execute`;
+:func:`build_plan` is pure; :func:`write_plan` writes ``plan.md`` and ``plan.html``.
+"""
+
+from __future__ import annotations
+
+import html
+import io
+import math
+import os
+import re
+import shlex
+import time
+from collections.abc import Iterable
+from dataclasses import dataclass, field, replace
+from datetime import date
+from pathlib import Path
+
+import numpy as np
+
+from . import __version__, planning
+from .estimate import Estimate
+from .grid import BELIEF_FREE, Chunk, Setting, chunks, settings
+from .metrics import evaluations_to_target
+from .seeding import derive
+from .storage import write_text
+from .study import Study
+from .validation import check_number
+
+__all__ = [
+    "Compute",
+    "Pilot",
+    "PilotDesign",
+    "Plan",
+    "PlanOptions",
+    "Replicates",
+    "build_plan",
+    "compute_estimate",
+    "duration",
+    "grid_bytes",
+    "pilot_chunks",
+    "pilot_design",
+    "reasons",
+    "replicates_edit",
+    "replicates_needed",
+    "run_pilot",
+    "size",
+    "write_plan",
+]
+
+PLAN_MD = "plan.md"
+PLAN_HTML = "plan.html"
+WHERE = "command line"
+# Resampled studies per candidate replicate count in the power search.
+RESAMPLES = 1000
+DEFAULT_QUESTIONS = (
+    "Which decay schedule and threshold quantile should be used?",
+    "How many evaluations does a misleading belief cost against using no belief at all?",
+)
+# The report pools recovery, and averages every metric, over these before comparing settings
+# in each distortion (see workbench.analysis), so each of its intervals rests on
+# landscapes × replicates campaigns.
+POOLED = ("landscape", "replicate")
+# The per-setting arrays of a chunk (the rest are one value per chunk), as run_chunk stacks them.
+_PER_CAMPAIGN = (
+    "points",
+    "observed",
+    "value",
+    "failed",
+    "best",
+    "regret",
+    "normalized_regret",
+    "weight",
+    "threshold",
+    "seconds",
+    "user_points",
+)
+# The grid file's per-evaluation series (gridfile._SERIES): seven 8-byte ones and 'failed' (1).
+_GRID_SERIES_BYTES = 7 * 8 + 1
+# The grid file's per-cell and per-placement variables, and a margin for its header.
+_GRID_CELL_VALUES = 3
+_GRID_PLACEMENT_VALUES = 2
+_GRID_HEADER_BYTES = 64 * 1024
+
+
+# --------------------------------------------------------------------------- options
+
+
+@dataclass(frozen=True)
+class PlanOptions:
+    """What the plan aims for; every value is checked with the one validation helper.
+
+    ``half_width`` of the recovery interval, ``power`` to tell apart two settings whose
+    evaluations to target differ by ``difference`` evaluations, at ``confidence`` (the test's
+    level is 1 − confidence); ``pilot_replicates`` per pilot cell; ``cap`` on the replicates;
+    ``workers`` Dask workers for the cluster estimate; ``jobs`` local workers (None: all cores).
+    """
+
+    half_width: float = 0.1
+    power: float = 0.8
+    difference: float = 5.0
+    confidence: float = 0.95
+    pilot_replicates: int = 4
+    cap: int = 64
+    workers: int = 4
+    jobs: int | None = None
+    resamples: int = RESAMPLES
+
+    def __post_init__(self):
+        check_number(self.half_width, "--half-width", low=0, high=0.5, closed="right", where=WHERE)
+        check_number(self.power, "--power", low=0, high=1, closed="neither", where=WHERE)
+        check_number(self.difference, "--difference", low=0, closed="right", where=WHERE)
+        check_number(self.confidence, "--confidence", low=0, high=1, closed="neither", where=WHERE)
+        check_number(self.pilot_replicates, "--pilot-replicates", low=2, integer=True, where=WHERE)
+        check_number(self.cap, "--cap", low=1, integer=True, where=WHERE)
+        check_number(self.workers, "--workers", low=1, integer=True, where=WHERE)
+        if self.jobs is not None:
+            check_number(self.jobs, "--jobs", low=1, integer=True, where=WHERE)
+        check_number(self.resamples, "resamples", low=10, integer=True, where=WHERE)
+
+    @classmethod
+    def from_text(cls, **values: str | None) -> PlanOptions:
+        """Options from command-line text: numbers are read here, checked in ``__init__``
+        (text that is no number is passed on as is, so the message names it)."""
+        return cls(**{k: _number(v) for k, v in values.items() if v is not None})
+
+    def check(self, study: Study) -> None:
+        """The checks that need the study: a difference the budget can show."""
+        check_number(
+            self.difference,
+            "--difference",
+            low=0,
+            high=study.budget - 1,
+            closed="right",
+            where=WHERE,
+        )
+
+    @property
+    def alpha(self) -> float:
+        return 1 - self.confidence
+
+
+def _number(text):
+    if not isinstance(text, str):
+        return text
+    for kind in (int, float):
+        try:
+            return kind(text)
+        except ValueError:
+            continue
+    return text
+
+
+def _parallel(jobs: int | None, cores: int | None = None) -> int:
+    """Processes that run at once: the jobs asked for, at most the cores."""
+    cores = cores or os.cpu_count() or 1
+    return max(1, min(jobs or cores, cores))
+
+
+# --------------------------------------------------------------------------- the pilot
+
+
+@dataclass(frozen=True)
+class PilotDesign:
+    """The pilot's subset: every landscape × every distortion × replicates 0 … k − 1, at the
+    first, middle and last belief-guided settings (and the first of any strategy they miss)
+    plus every baseline, so that every strategy of the study is timed."""
+
+    replicates: int
+    guided: tuple[Setting, ...]
+    baselines: tuple[Setting, ...]
+
+    @property
+    def settings(self) -> tuple[Setting, ...]:
+        return self.guided + self.baselines
+
+    def describe(self, study: Study) -> str:
+        n_l, n_d = len(study.landscapes), len(study.distortions)
+        guided = "; ".join(s.label for s in self.guided) or "none"
+        base = ", ".join(s.strategy for s in self.baselines) or "none"
+        return (
+            f"every landscape × every distortion ({n_l} × {n_d} cells), replicates 0 to "
+            f"{self.replicates - 1} ({self.replicates} per cell), at the first, middle and last "
+            f"belief-guided settings of the study ({guided}) and every baseline ({base})"
+        )
+
+
+def pilot_design(study: Study, replicates: int) -> PilotDesign:
+    """The pilot's settings (see :class:`PilotDesign`)."""
+    guided, baseline = settings(study)
+    picks = sorted({0, len(guided) // 2, len(guided) - 1}) if guided else []
+    chosen = [guided[i] for i in picks]
+    for s in guided:
+        if all(c.strategy != s.strategy for c in chosen):
+            chosen.append(s)
+    return PilotDesign(replicates, tuple(chosen), tuple(baseline))
+
+
+def pilot_chunks(study: Study, design: PilotDesign) -> tuple[Study, list[Chunk]]:
+    """The pilot as a study with fewer replicates, and its chunks with the pilot's settings
+    only. Seeds are the study's own: the pilot's campaigns are the study's first replicates."""
+    pilot = replace(study, replicates=design.replicates)
+    keep = {s.label for s in design.settings}
+    out = []
+    for c in chunks(pilot):
+        picked = tuple(s for s in c.settings if s.label in keep)
+        if picked:
+            out.append(Chunk(c.landscape, c.distortion, c.replicate, picked))
+    return pilot, out
+
+
+@dataclass(frozen=True, eq=False)
+class Pilot:
+    """What the pilot measured, over (setting, landscape, distortion, replicate).
+
+    ``evaluations`` to target (censored at the budget) and ``reached``: the belief-free
+    baselines run in the exact distortion only and are repeated across distortions, as in the
+    grid. ``seconds`` per campaign (NaN where a campaign did not run); ``overhead`` per chunk
+    (its seconds beyond its campaigns') over (landscape, distortion, replicate); ``wall`` the
+    pilot's wall time on ``jobs`` processes; ``campaign_bytes`` per campaign in a chunk file,
+    per landscape, and ``chunk_bytes`` the rest of a chunk file.
+    """
+
+    design: PilotDesign
+    evaluations: np.ndarray
+    reached: np.ndarray
+    seconds: np.ndarray
+    overhead: np.ndarray
+    wall: float
+    jobs: int
+    campaign_bytes: np.ndarray
+    chunk_bytes: float
+
+    @property
+    def campaigns(self) -> int:
+        return int(np.isfinite(self.seconds).sum())
+
+    @property
+    def cpu(self) -> float:
+        return float(np.nansum(self.seconds) + np.nansum(self.overhead))
+
+
+def run_pilot(study: Study, options: PlanOptions) -> Pilot:
+    """Run the pilot for real (through the runner's process pool) and time it."""
+    from .runner import execute
+
+    options.check(study)
+    design = pilot_design(study, options.pilot_replicates)
+    pilot, todo = pilot_chunks(study, design)
+    jobs = _parallel(options.jobs)
+    start = time.perf_counter()
+    results = [(c, arrays, seconds) for c, arrays, seconds in execute(pilot, todo, jobs=jobs)]
+    wall = time.perf_counter() - start
+    return _collect(study, design, results, wall, jobs)
+
+
+def _collect(study: Study, design: PilotDesign, results, wall: float, jobs: int) -> Pilot:
+    """The pilot's arrays from the runner's (chunk, arrays, seconds) results."""
+    labels = [s.label for s in design.settings]
+    shape = (len(labels), len(study.landscapes), len(study.distortions), design.replicates)
+    ett = np.full(shape, np.nan)
+    reached = np.zeros(shape, bool)
+    secs = np.full(shape, np.nan)
+    overhead = np.full(shape[1:], np.nan)
+    sizes: dict[int, list[float]] = {}
+    fixed = []
+    for chunk, arrays, seconds in results:
+        at = (chunk.landscape, chunk.distortion, chunk.replicate)
+        t, hit = evaluations_to_target(arrays["normalized_regret"], study.target)
+        spent = arrays["seconds"].sum(axis=-1)
+        for k, s in enumerate(chunk.settings):
+            i = labels.index(s.label)
+            ett[(i, *at)], reached[(i, *at)], secs[(i, *at)] = t[k], hit[k], spent[k]
+        overhead[at] = max(seconds - float(spent.sum()), 0.0)
+        total, payload = _npz_bytes(arrays)
+        m = len(chunk.settings)
+        sizes.setdefault(chunk.landscape, []).append(payload / m)
+        fixed.append(total - payload)
+    exact = next(i for i, d in enumerate(study.distortions) if d.is_exact)
+    for i, s in enumerate(design.settings):
+        if s.strategy in BELIEF_FREE:
+            ett[i] = ett[i, :, exact : exact + 1]
+            reached[i] = reached[i, :, exact : exact + 1]
+    per_landscape = np.array(
+        [np.mean(sizes.get(li, [np.nan])) for li in range(len(study.landscapes))]
+    )
+    return Pilot(
+        design, ett, reached, secs, overhead, wall, jobs, per_landscape, float(np.mean(fixed))
+    )
+
+
+def _npz_bytes(arrays: dict) -> tuple[int, int]:
+    """Bytes of the chunk file the runner would write (np.savez, in memory) and of its
+    per-campaign arrays."""
+    buffer = io.BytesIO()
+    np.savez(buffer, **arrays)
+    payload = sum(arrays[k].nbytes for k in _PER_CAMPAIGN if k in arrays)
+    return buffer.getbuffer().nbytes, payload
+
+
+# --------------------------------------------------------------------------- replicates
+
+
+@dataclass(frozen=True)
+class Replicates:
+    """The replicate count and its two reasons.
+
+    (a) recovery interval: ``p`` planned for (``worst_case``: ½ because the pilot cannot tell),
+    ``normal`` = z² p(1 − p)/h² before rounding, ``campaigns`` after the Wilson check,
+    ``wilson`` the Wilson half-width there, ``per_replicate`` campaigns each replicate adds to
+    an interval (the landscapes), ``interval`` the replicates; (b) ``search`` of the power
+    (None when the pilot has no two settings to compare), ``comparisons`` it pooled.
+    """
+
+    p: float
+    worst_case: bool
+    z: float
+    normal: float
+    normal_campaigns: int
+    campaigns: int
+    wilson: float
+    per_replicate: int
+    interval: int
+    search: planning.PowerSearch | None
+    comparisons: tuple[str, ...]
+    needed: int
+    chosen: int
+    cap: int
+
+    @property
+    def power(self) -> int | None:
+        return None if self.search is None else self.search.replicates
+
+    @property
+    def capped(self) -> bool:
+        return self.needed > self.cap
+
+    @property
+    def driver(self) -> str:
+        if self.search is None or self.interval >= self.search.replicates:
+            return "the recovery interval"
+        return "the power"
+
+
+def _comparisons(design: PilotDesign) -> list[tuple[int, int, str]]:
+    """Pairs of pilot settings to difference: every two guided ones, and each against
+    no-belief when the study has it."""
+    guided = list(range(len(design.guided)))
+    out = [
+        (i, j, f"{design.guided[i].label} vs {design.guided[j].label}")
+        for a, i in enumerate(guided)
+        for j in guided[a + 1 :]
+    ]
+    labels = [s.strategy for s in design.settings]
+    if "no-belief" in labels:
+        nb = labels.index("no-belief")
+        out += [(i, nb, f"{design.guided[i].label} vs no-belief") for i in guided]
+    return out
+
+
+def replicates_needed(study: Study, pilot: Pilot, options: PlanOptions) -> Replicates:
+    """The replicates for (a) the recovery interval and (b) the power, the larger of the two,
+    and that capped at ``options.cap``."""
+    landscapes = len(study.landscapes)
+    # (a) recovery: one interval per setting and distortion, pooled as the report pools it.
+    k = pilot.reached.sum(axis=(1, 3))
+    n = np.isfinite(pilot.evaluations).sum(axis=(1, 3))
+    p, worst = planning.recovery_guess(k.ravel(), n.ravel(), options.confidence)
+    normal_n, campaigns = planning.campaigns_for_interval(p, options.half_width, options.confidence)
+    interval = math.ceil(campaigns / landscapes)
+    wilson = float(planning.wilson_half_width(p, interval * landscapes, options.confidence))
+    # (b) power: paired differences between pilot settings, per landscape.
+    pairs = _comparisons(pilot.design)
+    search = None
+    if pairs:
+        diffs = np.stack([pilot.evaluations[i] - pilot.evaluations[j] for i, j, _ in pairs])
+        resid = planning.centred(diffs, axis=-1)
+        strata = [resid[:, li].ravel() for li in range(landscapes)]
+        search = planning.replicates_for_power(
+            strata,
+            options.difference,
+            power=options.power,
+            alpha=options.alpha,
+            resamples=options.resamples,
+            seed=derive(study.seed, "plan"),
+        )
+    needed = max(interval, search.replicates if search is not None else 1)
+    return Replicates(
+        p=p,
+        worst_case=worst,
+        z=planning.z_value(options.confidence),
+        normal=planning.interval_campaigns(p, options.half_width, options.confidence),
+        normal_campaigns=normal_n,
+        campaigns=campaigns,
+        wilson=wilson,
+        per_replicate=landscapes,
+        interval=interval,
+        search=search,
+        comparisons=tuple(label for _, _, label in pairs),
+        needed=needed,
+        chosen=min(needed, options.cap),
+        cap=options.cap,
+    )
+
+
+# --------------------------------------------------------------------------- compute
+
+
+@dataclass(frozen=True)
+class Compute:
+    """The study's cost at a replicate count: counts and seconds per campaign (an
+    :class:`~workbench.estimate.Estimate`), chunks, the longest chunk, the start-up time the
+    pilot measured, wall time here (``local``) and on ``workers`` Dask workers, and bytes."""
+
+    estimate: Estimate
+    replicates: int
+    chunks: int
+    longest: float
+    startup: float
+    local: float
+    workers: int
+    cluster: float
+    chunk_bytes: int
+    grid_bytes: int
+
+    @property
+    def cpu(self) -> float:
+        return self.estimate.campaigns * self.estimate.per_campaign
+
+    @property
+    def disk_bytes(self) -> int:
+        return self.chunk_bytes + self.grid_bytes
+
+
+def _mean_seconds(pilot: Pilot) -> dict:
+    """Seconds per campaign from the pilot, by (strategy, landscape, distortion), with
+    fall-backs by (strategy, landscape) and strategy."""
+    names = [s.strategy for s in pilot.design.settings]
+    out: dict = {}
+    for strategy in dict.fromkeys(names):
+        rows = pilot.seconds[[i for i, n in enumerate(names) if n == strategy]]
+        with np.errstate(invalid="ignore"):
+            out[strategy] = float(np.nanmean(rows))
+            for li in range(rows.shape[1]):
+                by_l = rows[:, li]
+                if np.isfinite(by_l).any():
+                    out[strategy, li] = float(np.nanmean(by_l))
+                for di in range(rows.shape[2]):
+                    cell = by_l[:, di]
+                    if np.isfinite(cell).any():
+                        out[strategy, li, di] = float(np.nanmean(cell))
+    return out
+
+
+def _lookup(table: dict, strategy: str, li: int, di: int) -> float:
+    for key in ((strategy, li, di), (strategy, li), strategy):
+        if key in table:
+            return table[key]
+    return float(np.nanmean([v for k, v in table.items() if isinstance(k, str)]))
+
+
+def compute_estimate(
+    study: Study,
+    pilot: Pilot,
+    replicates: int,
+    *,
+    jobs: int | None = None,
+    workers: int = 4,
+    cores: int | None = None,
+) -> Compute:
+    """The cost of ``study`` at ``replicates`` replicates, from the pilot's timings.
+
+    Each chunk takes its cell's overhead plus, for each of its campaigns, the pilot's mean
+    seconds per campaign of that strategy in that landscape and distortion. Wall time is
+    max(Σ chunk seconds / processes, longest chunk) plus the pilot's start-up time (its wall
+    time beyond that same bound). Dask workers are taken as fast as one core here, without
+    the start-up. Disk: the chunk files as the pilot's arrays measured, plus grid.nc as its
+    dense arrays (repeats and unrun combinations included): values × 8 bytes.
+    """
+    full = replace(study, replicates=replicates)
+    every = chunks(full)
+    guided, baseline = settings(full)
+    per = _mean_seconds(pilot)
+    with np.errstate(invalid="ignore"):
+        overhead = np.nan_to_num(np.nanmean(pilot.overhead, axis=-1), nan=0.0)
+    chunk_seconds = np.array(
+        [
+            overhead[c.landscape, c.distortion]
+            + sum(_lookup(per, s.strategy, c.landscape, c.distortion) for s in c.settings)
+            for c in every
+        ]
+    )
+    campaigns = sum(len(c.settings) for c in every)
+    cpu = float(chunk_seconds.sum())
+    longest = float(chunk_seconds.max()) if every else 0.0
+    parallel = _parallel(jobs, cores)
+    pilot_chunks_seconds = np.nansum(pilot.seconds, axis=0) + np.nan_to_num(pilot.overhead)
+    pilot_bound = max(pilot.cpu / pilot.jobs, float(pilot_chunks_seconds.max()))
+    startup = max(pilot.wall - pilot_bound, 0.0)
+    local = max(cpu / parallel, longest) + startup
+    cluster = max(cpu / workers, longest)
+    estimate = Estimate(
+        cells=len(study.landscapes) * len(study.distortions) * (len(guided) + len(baseline)),
+        campaigns=campaigns,
+        evaluations=campaigns * study.budget,
+        probe_campaigns=pilot.campaigns,
+        per_campaign=cpu / max(campaigns, 1),
+        jobs=parallel,
+    )
+    chunk_bytes = sum(
+        pilot.chunk_bytes + len(c.settings) * float(pilot.campaign_bytes[c.landscape])
+        for c in every
+    )
+    return Compute(
+        estimate=estimate,
+        replicates=replicates,
+        chunks=len(every),
+        longest=longest,
+        startup=startup,
+        local=local,
+        workers=workers,
+        cluster=cluster,
+        chunk_bytes=int(chunk_bytes),
+        grid_bytes=grid_bytes(full),
+    )
+
+
+def grid_bytes(study: Study) -> int:
+    """Bytes of grid.nc: its dense arrays as :mod:`workbench.gridfile` lays them out."""
+    guided, baseline = settings(study)
+    coords = study.space.dim if study.space is not None else max(e.dim for e in study.landscapes)
+    per_campaign = study.budget * (_GRID_SERIES_BYTES + 2 * coords * 8)
+    n_l, n_d, n_r = len(study.landscapes), len(study.distortions), study.replicates
+    positions = 0
+    if guided:
+        positions = (
+            len({s.strategy for s in guided})
+            * len(study.decay_levels)
+            * len(study.quantile_levels)
+            * len(study.exploration_levels)
+            * len(study.initial)
+        )
+    positions = (positions + len(baseline)) * n_l * n_d * n_r
+    cells = (_GRID_CELL_VALUES * n_d + _GRID_PLACEMENT_VALUES) * n_l * n_r * 8
+    return int(positions * per_campaign + cells + _GRID_HEADER_BYTES)
+
+
+# --------------------------------------------------------------------------- the document
+
+
+@dataclass(frozen=True)
+class Block:
+    """One piece of the document: ``kind`` p (paragraph), ul (list), table, code or warning."""
+
+    kind: str
+    text: str = ""
+    items: tuple[str, ...] = ()
+    header: tuple[str, ...] = ()
+    rows: tuple[tuple[str, ...], ...] = ()
+
+
+@dataclass(frozen=True)
+class Section:
+    title: str
+    blocks: tuple[Block, ...]
+
+
+def _p(text: str) -> Block:
+    return Block("p", text)
+
+
+def _ul(items: Iterable[str]) -> Block:
+    return Block("ul", items=tuple(items))
+
+
+def _table(header: Iterable[str], rows: Iterable[Iterable]) -> Block:
+    return Block("table", header=tuple(header), rows=tuple(tuple(str(v) for v in r) for r in rows))
+
+
+@dataclass(frozen=True, eq=False)
+class Plan:
+    """The study plan: its parts, ready to print or write."""
+
+    study: Study
+    options: PlanOptions
+    pilot: Pilot
+    replicates: Replicates
+    compute: Compute
+    out: Path
+    command: str
+    edit: tuple[str | None, str]
+    written: str
+    sections: tuple[Section, ...] = field(default=())
+
+    @property
+    def warning(self) -> str | None:
+        r = self.replicates
+        if not r.capped:
+            return None
+        return (
+            f"the cap binds: {r.needed} replicates are needed but --cap is {r.cap}, so the plan "
+            f"uses {r.cap}; the recovery interval and the power will fall short of their aims"
+        )
+
+    @property
+    def title(self) -> str:
+        return f"Study plan: {self.study.title}"
+
+    def markdown(self) -> str:
+        return _markdown(self)
+
+    def html(self) -> str:
+        return _html(self)
+
+
+def build_plan(
+    study: Study,
+    pilot: Pilot,
+    options: PlanOptions,
+    out: str | Path,
+    *,
+    cores: int | None = None,
+    written: str | None = None,
+) -> Plan:
+    """The plan of ``study`` from its ``pilot``; ``out`` is where the study's results will go."""
+    options.check(study)
+    out = Path(out)
+    reps = replicates_needed(study, pilot, options)
+    comp = compute_estimate(
+        study, pilot, reps.chosen, jobs=options.jobs, workers=options.workers, cores=cores
+    )
+    command = f"workbench run {shlex.quote(study.path)} --out {shlex.quote(str(out))}"
+    if options.jobs:
+        command += f" --jobs {options.jobs}"
+    plan = Plan(
+        study=study,
+        options=options,
+        pilot=pilot,
+        replicates=reps,
+        compute=comp,
+        out=out,
+        command=command,
+        edit=replicates_edit(study, reps.chosen),
+        written=written or date.today().isoformat(),
+    )
+    return replace(plan, sections=_sections(plan))
+
+
+def replicates_edit(study: Study, replicates: int) -> tuple[str | None, str]:
+    """The study's top-level ``replicates`` line (None if it has none) and its new text."""
+    head = re.split(r"(?m)^\s*\[", study.text, maxsplit=1)[0]
+    match = re.search(r"(?m)^[ \t]*replicates[ \t]*=[ \t]*([0-9_]+)(.*)$", head)
+    if match is None:
+        return None, f"replicates = {replicates}"
+    line = match.group(0)
+    start, end = match.span(1)
+    offset = match.start(0)
+    return line, line[: start - offset] + str(replicates) + line[end - offset :]
+
+
+def write_plan(plan: Plan, out: str | Path | None = None) -> tuple[Path, Path]:
+    """Write ``plan.md`` and ``plan.html`` into ``out`` (default: the plan's results folder),
+    each atomically; returns their paths."""
+    folder = Path(out) if out is not None else plan.out
+    md = write_text(folder / PLAN_MD, plan.markdown())
+    page = write_text(folder / PLAN_HTML, plan.html())
+    return md, page
+
+
+# --------------------------------------------------------------------------- words
+
+
+def duration(seconds: float) -> str:
+    """Seconds in words: s below 90 s, min below 90 min, else h."""
+    if seconds < 90:
+        return f"{seconds:.0f} s"
+    if seconds < 5400:
+        return f"{seconds / 60:.1f} min"
+    return f"{seconds / 3600:.1f} h"
+
+
+def size(n: float) -> str:
+    """Bytes in words (powers of 1000)."""
+    for unit, scale in (("GB", 1e9), ("MB", 1e6), ("kB", 1e3)):
+        if n >= scale:
+            return f"{n / scale:.1f} {unit}"
+    return f"{n:.0f} B"
+
+
+def _pct(v: float) -> str:
+    return f"{100 * v:g} %"
+
+
+def reasons(plan: Plan) -> list[str]:
+    """The replicate count's reasons, one line each (the CLI prints these)."""
+    r, o = plan.replicates, plan.options
+    why = (
+        "p = 0.5, the worst case: the pilot cannot tell"
+        if r.worst_case
+        else f"p = {r.p:.3g}, the end nearest 0.5 of the pilot's Wilson intervals"
+    )
+    wilson = f", {r.campaigns} after the Wilson check" if r.campaigns != r.normal_campaigns else ""
+    lines = [
+        f"(a) recovery interval ±{o.half_width:g} at {_pct(o.confidence)} ({why}): "
+        f"n = z² p(1 − p)/h² = {r.z:.4g}² × {r.p:.3g} × {1 - r.p:.3g} / {o.half_width:g}² "
+        f"= {r.normal:.2f} → {r.normal_campaigns} campaigns per setting and distortion{wilson}; "
+        f"over {r.per_replicate} landscape(s): {r.interval} replicate(s) "
+        f"(Wilson half-width there {r.wilson:.3f})"
+    ]
+    if r.search is None:
+        lines.append("(b) power: the pilot has no two settings to compare; not used")
+    else:
+        s = r.search
+        count = (
+            f"{s.replicates} replicate(s), power {s.achieved:.2f}"
+            if s.reached
+            else f"more than {s.replicates} replicates (power {s.achieved:.2f} there)"
+        )
+        lines.append(
+            f"(b) power {o.power:g} to tell apart settings {o.difference:g} evaluations apart "
+            f"(paired Wilcoxon signed-rank, two-sided, α = {o.alpha:.3g}, {s.resamples} "
+            f"resampled studies of the pilot's centred paired differences): {count}"
+        )
+    lines.append(
+        f"chosen: {r.chosen} replicates, the larger of the two ({plan.replicates.driver})"
+        + (f", capped at --cap {r.cap}" if r.capped else "")
+    )
+    return lines
+
+
+def _questions(study: Study) -> tuple[str, ...]:
+    return study.questions or DEFAULT_QUESTIONS
+
+
+def _rule_words(study: Study) -> str:
+    """The decision rule as the report words it (weights normalised; none given: equal)."""
+    from .analysis import Rule
+
+    d = study.decision
+    names = [x.name for x in study.distortions]
+    weights = dict(d.weights) or dict.fromkeys(names, 1.0)
+    total = float(sum(weights.values())) or 1.0
+    full = {n: float(weights.get(n, 0.0)) / total for n in names}
+    return Rule(d.rule, full, float(d.level), d.metric).describe()
+
+
+def _placement_words(s: Study) -> str:
+    if s.space is not None:
+        return "each landscape's optimum at the belief's mode, on the study's space"
+    if s.placement == "native":
+        return "native (the landscape's own optimum)"
+    return "random per replicate, at least 0.1 from the cube's faces"
+
+
+def _questions_section(plan: Plan) -> Section:
+    s = plan.study
+    whose = (
+        "The questions are the study's own."
+        if s.questions
+        else "The study states no questions; these are the workbench's defaults."
+    )
+    return Section("1. Questions", (_ul(_questions(s)), _p(whose)))
+
+
+def _factors_section(plan: Plan) -> Section:
+    s = plan.study
+    blocks = [
+        _p(
+            f"Budget: {s.budget} evaluations per campaign, initial design included. Target: "
+            f"normalized regret {s.target:g}. Landscape placement: {_placement_words(s)}."
+        ),
+        _table(
+            ("landscape", "dimension", "noise (sd / gap)"),
+            ((e.label, e.dim, f"{e.noise:g}") for e in s.landscapes),
+        ),
+    ]
+    if s.space is not None:
+        blocks.append(
+            _table(("parameter", "range"), ((p.name, p.describe()) for p in s.space.parameters))
+        )
+    else:
+        blocks.append(_p(f"Belief: a Gaussian of spread {s.spread:g} (cube units)."))
+    size_words = f"{s.initial_size} evaluations" if s.initial_size is not None else "dimension + 1"
+    blocks += [
+        _table(
+            ("distortion", "shift", "scale", "misplace"),
+            ((d.name, f"{d.shift:g}", f"{d.scale:g}", d.misplace or "–") for d in s.distortions),
+        ),
+        _table(
+            ("strategy", "decay schedules", "threshold quantiles", "exploration"),
+            (
+                (
+                    f.name,
+                    ", ".join(str(d) for d in f.decay),
+                    ", ".join(f"{q:g}" for q in f.quantile)
+                    if f.name == "pseudo-posterior"
+                    else "– (does not use it)",
+                    ", ".join(f"{e:g}" for e in f.exploration),
+                )
+                for f in s.strategies
+            ),
+        ),
+        _p(
+            f"Initial designs: {', '.join(s.initial)} ({size_words}). "
+            f"Baselines: {', '.join(s.baselines) or 'none'}."
+        ),
+        _p("Responses, per campaign:"),
+        _ul(
+            (
+                f"evaluations to target: the first evaluation at which normalized regret falls "
+                f"to {s.target:g}, censored at the budget ({s.budget}) when it never does",
+                "recovery probability: the share of campaigns that reach the target within the "
+                "budget, under each distortion",
+                "final normalized regret: best value found minus the optimum, divided by the "
+                "landscape's reference gap, after the whole budget",
+                "belief cost: evaluations to target with the belief minus without it "
+                "(no-belief), paired by replicate; negative is a saving",
+                "speedup: evaluations to target without a belief divided by those with it",
+            )
+        ),
+        _p(f"Decision rule: {_rule_words(s)}."),
+    ]
+    return Section("2. Factors, levels and responses", tuple(blocks))
+
+
+def _design_section(plan: Plan) -> Section:
+    s = plan.study
+    guided, baseline = settings(s)
+    n_settings = len(guided) + len(baseline)
+    n_cells = len(s.landscapes) * len(s.distortions) * n_settings
+    return Section(
+        "3. Design",
+        (
+            _p(
+                f"Full factorial: {len(s.landscapes)} landscape(s) × {len(s.distortions)} "
+                f"distortion(s) × {n_settings} strategy settings ({len(guided)} "
+                f"belief-guided, {len(baseline)} baselines) = {n_cells} grid cells, each run "
+                "for every replicate."
+            ),
+            _p(
+                "Common random numbers: replicate k of every setting shares its landscape "
+                "placement and random streams, so settings are compared on the same draws and "
+                "every comparison is paired by replicate (a variance-reduction device for "
+                "comparing simulated systems; A. M. Law, Simulation Modeling and Analysis)."
+            ),
+            _p(
+                f"Seeds: every stream derives from the root seed {s.seed} through numpy's "
+                "SeedSequence, keyed by names (CRC-32) rather than positions. The placement "
+                "comes from (root, landscape, 'placement', replicate), shared by every "
+                "distortion and setting of that replicate; the distortion direction, initial "
+                "design, strategy and noise streams from (root, landscape, distortion, "
+                "replicate), shared by every strategy setting. The baselines that ignore the "
+                "belief (no-belief, random) run once per landscape and replicate with the exact "
+                "distortion's streams and are repeated across distortions."
+            ),
+            _p(
+                "Work is split into chunks, one per landscape, distortion and replicate; each "
+                "is written to disk as it finishes, and a stopped run resumes."
+            ),
+        ),
+    )
+
+
+def _interval_words(plan: Plan) -> str:
+    r, o = plan.replicates, plan.options
+    if r.worst_case:
+        p = (
+            "p = 0.5, the worst case: some setting's pilot Wilson interval contains 0.5, so the "
+            "pilot cannot tell the recovery probability away from it."
+        )
+    else:
+        p = (
+            f"p = {r.p:.3g}: no pilot Wilson interval contains 0.5, and this is the end nearest "
+            "0.5 of any setting's interval (the widest interval to come)."
+        )
+    at = float(planning.wilson_half_width(r.p, r.campaigns, o.confidence))
+    if r.campaigns != r.normal_campaigns:
+        check = (
+            f"at {r.normal_campaigns} campaigns it is wider than {o.half_width:g}, so the count "
+            f"was raised to {r.campaigns}, where it is {at:.4f}"
+        )
+    else:
+        check = f"at {r.campaigns} campaigns its half-width is {at:.4f} ≤ {o.half_width:g}"
+    return (
+        f"{p} Check with the Wilson score interval (Wilson 1927): {check}. The report pools "
+        "each recovery interval over landscapes and replicates, per setting and distortion, so "
+        f"each replicate adds {r.per_replicate} campaign(s): ⌈{r.campaigns} / "
+        f"{r.per_replicate}⌉ = {r.interval} replicate(s), where the Wilson half-width is "
+        f"{r.wilson:.4f}."
+    )
+
+
+def _power_words(plan: Plan) -> str:
+    r, o = plan.replicates, plan.options
+    sr = r.search
+    if sr is None:
+        return "(b) Power: the pilot has no two settings to compare; not used."
+    found = (
+        f"R = {sr.replicates}, power {sr.achieved:.3f}"
+        if sr.reached
+        else f"more than R = {sr.replicates} (the search stopped there, power {sr.achieved:.3f})"
+    )
+    return (
+        f"(b) Power {o.power:g} to tell apart two settings whose evaluations to target differ "
+        f"by {o.difference:g} evaluations, paired by replicate, estimated by resampling the "
+        "pilot. The paired differences of evaluations to target between pilot settings "
+        f"({len(r.comparisons)} comparisons: {'; '.join(r.comparisons)}), in every landscape "
+        "and distortion, are centred on their median over the pilot's replicates and scaled "
+        f"by √(k/(k − 1)) for the spread centring takes away (k = {o.pilot_replicates}); the "
+        f"stated difference is then added. For a candidate count R, {sr.resamples} resampled "
+        f"studies each draw R differences per landscape ({sr.pairs_per_replicate} pairs per "
+        "replicate, as the report pools landscapes) and apply the two-sided Wilcoxon "
+        "signed-rank test (normal approximation, zeros split) at α = 1 − confidence = "
+        f"{o.alpha:.3g}; the power is the share that reject. The smallest R reaching the power "
+        "is found by doubling then bisection, with a fixed seed derived from the root seed "
+        f"under the key 'plan': {found}. Censored campaigns enter at the budget, as in the "
+        "report's restricted means; the report's own comparison is a paired bootstrap "
+        "interval, for which the signed-rank test stands in here."
+    )
+
+
+def _replicates_section(plan: Plan) -> Section:
+    s, o, r, pilot = plan.study, plan.options, plan.replicates, plan.pilot
+    blocks = [
+        _p(
+            f"Pilot, run for real before this plan was written: {pilot.design.describe(s)}; "
+            f"{pilot.campaigns} campaigns in {pilot.wall:.1f} s on {pilot.jobs} process(es). "
+            "Its seeds are the study's own, so its campaigns are the study's first replicates "
+            "of those cells."
+        ),
+        _p(
+            f"(a) Recovery interval of half-width h = {o.half_width:g} at {_pct(o.confidence)} "
+            "confidence, by the normal approximation (common practice, any statistics "
+            "textbook):"
+        ),
+        Block(
+            "code",
+            f"n = z² p(1 − p) / h² = {r.z:.4f}² × {r.p:.3g} × {1 - r.p:.3g} / {o.half_width:g}²"
+            f" = {r.normal:.2f}  →  {r.normal_campaigns} campaigns",
+        ),
+        _p(_interval_words(plan)),
+        _p(_power_words(plan)),
+        _table(
+            ("reason", "replicates"),
+            (
+                (f"(a) recovery interval ±{o.half_width:g}", r.interval),
+                (
+                    f"(b) power {o.power:g} for a difference of {o.difference:g}",
+                    "–" if r.search is None else r.search.replicates,
+                ),
+                ("chosen: the larger" + (f", capped at {r.cap}" if r.capped else ""), r.chosen),
+            ),
+        ),
+    ]
+    if plan.warning:
+        blocks.append(Block("warning", f"Warning: {plan.warning}."))
+    return Section("4. Replicates and why", tuple(blocks))
+
+
+def _compute_section(plan: Plan) -> Section:
+    c = plan.compute
+    e = c.estimate
+    rows = (
+        ("replicates", c.replicates),
+        ("grid cells", e.cells),
+        ("campaigns", e.campaigns),
+        ("evaluations", e.evaluations),
+        ("chunks", c.chunks),
+        ("CPU time", duration(c.cpu)),
+        (f"wall time here ({e.jobs} process(es))", duration(c.local)),
+        (f"wall time on {c.workers} Dask workers", duration(c.cluster)),
+        ("chunk files", size(c.chunk_bytes)),
+        ("grid.nc", size(c.grid_bytes)),
+        ("disk in all", size(c.disk_bytes)),
+    )
+    return Section(
+        "5. Compute estimate",
+        (
+            _table(("quantity", "estimate"), rows),
+            _p(
+                "Time: each chunk takes its cell's overhead plus, for each campaign, the "
+                "pilot's measured seconds per campaign of that strategy in that landscape and "
+                f"distortion ({e.per_campaign:.3f} s per campaign on average); wall time is "
+                f"max(CPU time / {e.jobs}, longest chunk {c.longest:.1f} s) plus the pilot's "
+                f"start-up time ({c.startup:.1f} s). Dask workers are taken as fast as one "
+                "core of this machine, with the same chunks. The timings are this machine's "
+                "while the pilot ran: other work running then, or during the study, scales "
+                "them."
+            ),
+            _p(
+                "Disk: the chunk files as the pilot's arrays measured (values per campaign × "
+                "8 bytes × variables), and grid.nc as its dense arrays (values per campaign × "
+                "8 bytes × variables × every grid position, including the repeats: "
+                "prior-weighted across quantile levels, no-belief and random across "
+                "distortions)."
+            ),
+        ),
+    )
+
+
+def _analysis_section(plan: Plan) -> Section:
+    s, o = plan.study, plan.options
+    return Section(
+        "6. Analysis plan",
+        (
+            _ul(
+                (
+                    "Metrics: evaluations to target (censored at the budget; the mean shown is "
+                    "restricted to the budget), recovery probability, final normalized regret, "
+                    "belief cost against no-belief, speedup.",
+                    f"Intervals: {_pct(o.confidence)} percentile bootstrap intervals over "
+                    "replicates with a fixed seed, each draw resampling the replicate index "
+                    "once for every setting and baseline alike, so differences are paired "
+                    "(Efron and Tibshirani 1993); Wilson score intervals for recovery (Wilson "
+                    "1927); the Kaplan–Meier median for censored evaluations to target (Kaplan "
+                    "and Meier 1958).",
+                    "Figures: sensitivity heatmap (the metric over decay × quantile, per "
+                    "distortion and under the rule), regret curves (median normalized regret "
+                    "with bootstrap bands), robustness frontier (benefit with the exact belief "
+                    "against cost at the worst distortion), belief marginals, and the "
+                    "main-effects table (shares of variance of the factors and their two-way "
+                    "interactions).",
+                    f"Decision rule: {_rule_words(s)}. The metric is averaged over landscapes "
+                    "and replicates in each distortion before the rule combines the "
+                    "distortions; settings whose paired interval of the difference with the "
+                    "best includes 0 are reported as tied with it.",
+                )
+            ),
+        ),
+    )
+
+
+def _run_section(plan: Plan) -> Section:
+    s, r = plan.study, plan.replicates
+    old, new = plan.edit
+    if r.chosen == s.replicates:
+        edit = f"The study already says replicates = {s.replicates}: nothing to edit."
+    elif old is None:
+        edit = (
+            f"Add this line at the top level of {s.path} (before the first table), so the "
+            f"study runs {r.chosen} replicates: {new}"
+        )
+    else:
+        edit = (
+            f"Write the replicate count into the study's replicates key first: in {s.path}, "
+            f"change '{old.strip()}' to '{new.strip()}'."
+        )
+    return Section(
+        "7. Running the study",
+        (
+            _p(edit),
+            Block("code", plan.command),
+            _p(
+                f"Results land in {plan.out}: chunks/ (one file per chunk), manifest.json, and "
+                "grid.nc, the assembled grid the report reads. A changed study file is a "
+                "different grid: the run refuses a folder of another version unless --fresh "
+                "is given."
+            ),
+        ),
+    )
+
+
+_REFERENCES = (
+    "E. B. Wilson (1927), Probable inference, the law of succession, and statistical "
+    "inference, JASA 22.",
+    "E. L. Kaplan and P. Meier (1958), Nonparametric estimation from incomplete observations, "
+    "JASA 53.",
+    "B. Efron and R. Tibshirani (1993), An Introduction to the Bootstrap.",
+    "A. M. Law, Simulation Modeling and Analysis (common random numbers).",
+    "Sample size for a proportion's interval: common practice, any statistics textbook.",
+)
+
+
+def _sections(plan: Plan) -> tuple[Section, ...]:
+    return (
+        _questions_section(plan),
+        _factors_section(plan),
+        _design_section(plan),
+        _replicates_section(plan),
+        _compute_section(plan),
+        _analysis_section(plan),
+        _run_section(plan),
+        Section("References", (_ul(_REFERENCES),)),
+    )
+
+
+def _head(plan: Plan) -> list[str]:
+    s = plan.study
+    return [
+        f"Study '{s.name}' ({s.path}), SHA-256 of the study text {s.digest[:16]}…; "
+        f"plan written {plan.written} by workbench {__version__}.",
+        f"Replicates: {plan.replicates.chosen}. Estimated wall time: "
+        f"{duration(plan.compute.local)} here, {duration(plan.compute.cluster)} on "
+        f"{plan.compute.workers} Dask workers. Command: {plan.command}",
+    ]
+
+
+# --------------------------------------------------------------------------- rendering
+
+
+def _md_cell(text: str) -> str:
+    return text.replace("\\", "\\\\").replace("|", "\\|").replace("\n", " ")
+
+
+def _markdown(plan: Plan) -> str:
+    lines = [f"# {plan.title}", ""]
+    for para in _head(plan):
+        lines += [para, ""]
+    for sec in plan.sections:
+        lines += [f"## {sec.title}", ""]
+        for b in sec.blocks:
+            if b.kind == "p":
+                lines += [b.text, ""]
+            elif b.kind == "ul":
+                lines += [f"- {item}" for item in b.items] + [""]
+            elif b.kind == "table":
+                lines.append("| " + " | ".join(_md_cell(h) for h in b.header) + " |")
+                lines.append("|" + "|".join(" --- " for _ in b.header) + "|")
+                lines += ["| " + " | ".join(_md_cell(v) for v in row) + " |" for row in b.rows]
+                lines.append("")
+            elif b.kind == "code":
+                lines += ["```", b.text, "```", ""]
+            else:
+                lines += [f"> **{b.text}**", ""]
+    return "\n".join(lines).rstrip() + "\n"
+
+
+_STYLE = """
+body { font-family: system-ui, sans-serif; max-width: 58em; margin: 2em auto; padding: 0 1em;
+       line-height: 1.45; color: #222; }
+h1 { font-size: 1.5em; } h2 { font-size: 1.2em; margin-top: 1.6em; }
+table { border-collapse: collapse; margin: 0.6em 0; }
+th, td { border: 1px solid #ccc; padding: 0.25em 0.6em; text-align: left; }
+th { background: #f2f2f2; }
+pre { background: #f6f6f6; padding: 0.6em; overflow-x: auto; }
+.warning { border-left: 4px solid #c60; background: #fff4e8; padding: 0.5em 0.8em; }
+"""
+
+
+def _html(plan: Plan) -> str:
+    e = html.escape
+    out = [
+        "<!DOCTYPE html>",
+        '<html lang="en">',
+        "<head>",
+        '<meta charset="utf-8">',
+        f"<title>{e(plan.title)}</title>",
+        f"<style>{_STYLE}</style>",
+        "</head>",
+        "<body>",
+        f"<h1>{e(plan.title)}</h1>",
+    ]
+    out += [f"<p>{e(para)}</p>" for para in _head(plan)]
+    for sec in plan.sections:
+        out.append(f"<h2>{e(sec.title)}</h2>")
+        for b in sec.blocks:
+            if b.kind == "p":
+                out.append(f"<p>{e(b.text)}</p>")
+            elif b.kind == "ul":
+                out.append("<ul>" + "".join(f"<li>{e(i)}</li>" for i in b.items) + "</ul>")
+            elif b.kind == "table":
+                head = "".join(f"<th>{e(h)}</th>" for h in b.header)
+                body = "".join(
+                    "<tr>" + "".join(f"<td>{e(v)}</td>" for v in row) + "</tr>" for row in b.rows
+                )
+                out.append(f"<table><thead><tr>{head}</tr></thead><tbody>{body}</tbody></table>")
+            elif b.kind == "code":
+                out.append(f"<pre><code>{e(b.text)}</code></pre>")
+            else:
+                out.append(f'<p class="warning">{e(b.text)}</p>')
+    out += ["</body>", "</html>"]
+    return "\n".join(out) + "\n"
