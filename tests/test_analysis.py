@@ -9,7 +9,7 @@ import scipy.stats
 import xarray as xr
 
 from workbench import analysis as an
-from workbench import metrics
+from workbench import gridfile, metrics
 from workbench.cli import main
 from workbench.validation import InputError
 
@@ -42,18 +42,9 @@ quantile = [0.1, 0.5]
 [strategy.prior-weighted]
 decay = ["hyperbolic:2", "hyperbolic:8"]
 """
-GUIDED_DIMS = (
-    "strategy",
-    "landscape",
-    "distortion",
-    "decay",
-    "quantile",
-    "exploration",
-    "initial",
-    "replicate",
-    "evaluation",
-)
-BASE_DIMS = ("baseline", "landscape", "distortion", "replicate", "evaluation")
+# The grid file's layout (workbench.gridfile), each series over evaluations.
+GUIDED_DIMS = (*gridfile.GUIDED_DIMS, "evaluation")
+BASE_DIMS = (*gridfile.BASELINE_DIMS, "evaluation")
 
 
 def _curves(ett: np.ndarray) -> np.ndarray:

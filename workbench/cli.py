@@ -264,7 +264,7 @@ def _progress(quiet: bool):
 
 
 def cmd_check(args) -> int:
-    from .estimate import probe
+    from .estimate import duration, probe
     from .study import load
 
     s = load(args.study)
@@ -274,18 +274,10 @@ def cmd_check(args) -> int:
     print(f"campaigns: {est.campaigns} ({s.replicates} replicates per cell, baselines included)")
     print(f"evaluations in total: {est.evaluations}")
     print(
-        f"estimated wall time on {est.jobs} worker(s): {_duration(est.seconds)} "
+        f"estimated wall time on {est.jobs} worker(s): {duration(est.seconds)} "
         f"(timing probe: {est.probe_campaigns} campaigns, {est.per_campaign:.3f} s each)"
     )
     return 0
-
-
-def _duration(seconds: float) -> str:
-    if seconds < 90:
-        return f"{seconds:.0f} s"
-    if seconds < 5400:
-        return f"{seconds / 60:.1f} min"
-    return f"{seconds / 3600:.1f} h"
 
 
 def _run(study, out: Path, args) -> object:
@@ -302,13 +294,14 @@ def _run(study, out: Path, args) -> object:
 
 
 def cmd_run(args) -> int:
+    from .estimate import duration
     from .study import load
 
     study = load(args.study)
     summary = _run(study, _out_dir(args, study.name), args)
     print(
         f"{summary.campaigns} campaigns ({summary.resumed} already done) in "
-        f"{_duration(summary.seconds)}; grid: {summary.grid}"
+        f"{duration(summary.seconds)}; grid: {summary.grid}"
     )
     return 0
 
@@ -336,7 +329,8 @@ def cmd_demo(args) -> int:
 
 
 def cmd_plan(args) -> int:
-    from .plan import PlanOptions, build_plan, duration, reasons, run_pilot, size, write_plan
+    from .estimate import duration, size
+    from .plan import PlanOptions, build_plan, reasons, run_pilot, write_plan
     from .study import load
 
     options = PlanOptions.from_text(

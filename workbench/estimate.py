@@ -10,7 +10,7 @@ from dataclasses import dataclass
 from .grid import Cell, chunks, settings
 from .study import Study
 
-__all__ = ["Estimate", "probe"]
+__all__ = ["Estimate", "duration", "probe", "size"]
 
 
 @dataclass(frozen=True)
@@ -58,3 +58,20 @@ def probe(study: Study, jobs: int | None = None) -> Estimate:
         per_campaign=per,
         jobs=jobs or os.cpu_count() or 1,
     )
+
+
+def duration(seconds: float) -> str:
+    """Seconds in words: s below 90 s, min below 90 min, else h."""
+    if seconds < 90:
+        return f"{seconds:.0f} s"
+    if seconds < 5400:
+        return f"{seconds / 60:.1f} min"
+    return f"{seconds / 3600:.1f} h"
+
+
+def size(n: float) -> str:
+    """Bytes in words (powers of 1000)."""
+    for unit, scale in (("GB", 1e9), ("MB", 1e6), ("kB", 1e3)):
+        if n >= scale:
+            return f"{n / scale:.1f} {unit}"
+    return f"{n:.0f} B"

@@ -37,6 +37,20 @@ __all__ = ["Cell", "Chunk", "Setting", "chunks", "run_chunk", "settings"]
 PLACEMENT_MARGIN = 0.1
 # Severity: the belief's mass within this radius (cube units) of the nearest global minimiser.
 SEVERITY_RADIUS = 0.1
+# The per-evaluation arrays of a trace that a chunk file stacks over its settings
+# (``user_points`` is added beside them).
+TRACE_ARRAYS = (
+    "points",
+    "observed",
+    "value",
+    "failed",
+    "best",
+    "regret",
+    "normalized_regret",
+    "weight",
+    "threshold",
+    "seconds",
+)
 # Baselines that ignore the belief run only in the exact distortion's chunk.
 BELIEF_FREE = ("no-belief", "random")
 
@@ -219,21 +233,7 @@ def run_chunk(study: Study, chunk: Chunk) -> dict[str, np.ndarray]:
             traces.append(cell.run(setting))
         except Exception as err:
             raise CampaignError(f"campaign failed at {cell.label}, {setting.label}: {err}") from err
-    stack = {
-        name: np.stack([getattr(t, name) for t in traces])
-        for name in (
-            "points",
-            "observed",
-            "value",
-            "failed",
-            "best",
-            "regret",
-            "normalized_regret",
-            "weight",
-            "threshold",
-            "seconds",
-        )
-    }
+    stack = {name: np.stack([getattr(t, name) for t in traces]) for name in TRACE_ARRAYS}
     stack["user_points"] = np.stack([t.user_points(cell.space) for t in traces])
     stack["mode_value"] = np.array([cell.mode_value])
     stack["minimum"] = np.array([cell.placement.minimum])

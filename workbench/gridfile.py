@@ -37,7 +37,7 @@ from .grid import Chunk, settings
 from .storage import atomic_path
 from .study import Study
 
-__all__ = ["assemble"]
+__all__ = ["BASELINE_DIMS", "GUIDED_DIMS", "assemble"]
 
 _SERIES = (
     "best",
@@ -49,7 +49,7 @@ _SERIES = (
     "weight",
     "threshold",
 )
-_GUIDED = (
+GUIDED_DIMS = (
     "strategy",
     "landscape",
     "distortion",
@@ -59,7 +59,7 @@ _GUIDED = (
     "initial",
     "replicate",
 )
-_BASE = ("baseline", "landscape", "distortion", "replicate")
+BASELINE_DIMS = ("baseline", "landscape", "distortion", "replicate")
 
 
 def _coordinate_names(study: Study) -> list[str]:
@@ -118,7 +118,7 @@ def _define(ds, study: Study) -> None:
         [e.noise for e in study.landscapes]
     )
 
-    for prefix, dims in (("", _GUIDED), ("baseline_", _BASE)):
+    for prefix, dims in (("", GUIDED_DIMS), ("baseline_", BASELINE_DIMS)):
         for name in _SERIES:
             kind = "i1" if name == "failed" else "f8"
             fill = -1 if name == "failed" else np.nan

@@ -24,8 +24,8 @@ from pathlib import Path
 import numpy as np
 
 from . import __version__, planning
-from .estimate import Estimate
-from .grid import BELIEF_FREE, Chunk, Setting, chunks, settings
+from .estimate import Estimate, duration, size
+from .grid import BELIEF_FREE, TRACE_ARRAYS, Chunk, Setting, chunks, settings
 from .metrics import evaluations_to_target
 from .seeding import derive
 from .storage import write_text
@@ -67,19 +67,7 @@ DEFAULT_QUESTIONS = (
 # landscapes × replicates campaigns.
 POOLED = ("landscape", "replicate")
 # The per-setting arrays of a chunk (the rest are one value per chunk), as run_chunk stacks them.
-_PER_CAMPAIGN = (
-    "points",
-    "observed",
-    "value",
-    "failed",
-    "best",
-    "regret",
-    "normalized_regret",
-    "weight",
-    "threshold",
-    "seconds",
-    "user_points",
-)
+_PER_CAMPAIGN = (*TRACE_ARRAYS, "user_points")
 # The grid file's per-evaluation series (gridfile._SERIES): seven 8-byte ones and 'failed' (1).
 _GRID_SERIES_BYTES = 7 * 8 + 1
 # The grid file's per-cell and per-placement variables, and a margin for its header.
@@ -673,23 +661,6 @@ def write_plan(plan: Plan, out: str | Path | None = None) -> tuple[Path, Path]:
 
 
 # --------------------------------------------------------------------------- words
-
-
-def duration(seconds: float) -> str:
-    """Seconds in words: s below 90 s, min below 90 min, else h."""
-    if seconds < 90:
-        return f"{seconds:.0f} s"
-    if seconds < 5400:
-        return f"{seconds / 60:.1f} min"
-    return f"{seconds / 3600:.1f} h"
-
-
-def size(n: float) -> str:
-    """Bytes in words (powers of 1000)."""
-    for unit, scale in (("GB", 1e9), ("MB", 1e6), ("kB", 1e3)):
-        if n >= scale:
-            return f"{n / scale:.1f} {unit}"
-    return f"{n:.0f} B"
 
 
 def _pct(v: float) -> str:

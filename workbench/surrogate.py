@@ -68,8 +68,8 @@ DEFAULT_NOISE_VARIANCE = 1e-4
 JITTER_STEPS = (1e-10, 1e-8, 1e-6, 1e-4)
 
 # Refit cadence (see ``refit_due``).
-REFIT_EVERY_STEP_BELOW = 15
-REFIT_GROWTH = 0.10
+REFIT_EVERY_STEP_BELOW = 8
+REFIT_GROWTH = 0.20
 REFIT_MAX_GAP = 5
 
 # Elements of one block of the candidate-by-data kernel in ``GP.predict`` (256 KiB).
@@ -566,13 +566,13 @@ def fit(
 def refit_due(n_observations: int, last_fit_n: int) -> bool:
     """Whether to refit the hyper-parameters now, rather than :func:`condition` the last fit.
 
-    Refit at every step while fewer than ``REFIT_EVERY_STEP_BELOW`` (15) observations are in,
+    Refit at every step while fewer than ``REFIT_EVERY_STEP_BELOW`` (8) observations are in,
     when the hyper-parameters still move a lot; after that, once the data have grown by
-    ``REFIT_GROWTH`` (10 %) since the last fit, but at least every ``REFIT_MAX_GAP`` (5)
-    evaluations: the gap is ``min(5, ceil(0.1 · last_fit_n))``, so 2 after a fit at 11-20
-    observations, 3 at 21-30, 4 at 31-40 and 5 beyond. A 150-evaluation campaign refits 45
-    times instead of 150. Also refit if there has been no fit yet (``last_fit_n <= 0``) or
-    the data shrank.
+    ``REFIT_GROWTH`` (20 %) since the last fit, but at least every ``REFIT_MAX_GAP`` (5)
+    evaluations: the gap is ``min(5, ceil(0.2 · last_fit_n))``, so a campaign of 50 refits
+    at 3, 4, 5, 6, 7, 9, 11, 14, 17, 21, 26, … (15 fits) and one of 150 refits 35 times.
+    Between refits the model is conditioned on the new data with the last hyper-parameters.
+    Also refit if there has been no fit yet (``last_fit_n <= 0``) or the data shrank.
     """
     if last_fit_n <= 0 or n_observations < last_fit_n:
         return True

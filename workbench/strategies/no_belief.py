@@ -1,25 +1,23 @@
-"""No-belief: expected improvement alone, the plain GP baseline (its candidates still include
-belief draws only when a belief is given; the campaign gives it a uniform one)."""
+"""No-belief: expected improvement alone, the plain GP baseline.
+
+It is prior-weighted acquisition with the belief's weight held at zero (score = log EI); the
+campaign gives it a uniform belief, so its candidates hold no belief draws either.
+"""
 
 from __future__ import annotations
 
+from dataclasses import replace
+
 import numpy as np
 
-from ..acquisition import log_expected_improvement
-from .base import Step, maximise
+from .base import Step
+from .prior_weighted import PriorWeighted
 
 name = "no-belief"
 
 
-class NoBelief:
+class NoBelief(PriorWeighted):
     name = name
-    uses_model = True
 
     def propose(self, step: Step, rng: np.random.Generator) -> tuple[np.ndarray, float]:
-        best = float(np.min(step.y))
-
-        def objective(U):
-            mean, sd = step.predict(U)
-            return log_expected_improvement(mean, sd, best)
-
-        return maximise(objective, step, rng), float("nan")
+        return super().propose(replace(step, weight=0.0), rng)

@@ -28,6 +28,8 @@ class PriorWeighted:
 
         def objective(U):
             mean, sd = step.predict(U)
+            if step.weight == 0:
+                return log_expected_improvement(mean, sd, best)
             return score(mean, sd, step.log_belief(U), step.weight, best)
 
         return maximise(objective, step, rng), float("nan")
