@@ -30,9 +30,10 @@ def expected_improvement(mean, sd, best: float) -> np.ndarray:
 def _log_h(z: np.ndarray) -> np.ndarray:
     """log(z Φ(z) + φ(z)), stable for every z.
 
-    The direct form loses only about log10(1 + z²) digits to cancellation (h(z) ≈ φ(z)/z²), so it
-    is accurate to ~1e-13 for z > −10 and used there. Below, write Φ(z) = ½ erfcx(−z/√2) e^(−z²/2), so
-    z Φ(z) + φ(z) = φ(z) (1 − |z| √(π/2) erfcx(|z|/√2)) and take log1p of the negative term;
+    The direct form loses only about log10(1 + z²) digits to cancellation (h(z) ≈ φ(z)/z²),
+    so it is accurate to ~1e-13 for z > −10 and used there. Below, write
+    Φ(z) = ½ erfcx(−z/√2) e^(−z²/2), so z Φ(z) + φ(z) = φ(z) (1 − |z| √(π/2) erfcx(|z|/√2)),
+    and take log1p of the negative term;
     beyond |z| = 1e6 use the asymptote φ(z)/z². Both forms are computed on the whole (small)
     array and selected, which costs fewer array operations than masking.
     """
