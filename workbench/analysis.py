@@ -633,16 +633,24 @@ def _plain(v):
 
 
 def recommend(
-    ds: xr.Dataset, rule: Rule | None = None, resampling: Resampling | None = None
+    ds: xr.Dataset,
+    rule: Rule | None = None,
+    resampling: Resampling | None = None,
+    strategy: str | None = None,
 ) -> Recommendation:
     """The belief-guided setting with the lowest score under ``rule`` (default
     :func:`decision_rule` of the grid); the metric is averaged over landscapes and replicates
-    in each distortion before the rule combines distortions."""
+    in each distortion before the rule combines distortions. ``strategy`` restricts the choice
+    to one strategy's settings (for example the pseudo-posterior's decay × quantile)."""
     rule = rule or decision_rule(ds)
     rs = resampling or Resampling()
     values = _guided(campaign_metric(ds, rule.metric))
     if values.sizes["setting"] == 0:
         raise InputError("strategy", "a grid with belief-guided settings", raw("none"))
+    if strategy is not None:
+        present = list(dict.fromkeys(str(v) for v in values["strategy"].values))
+        check_choice(strategy, "--strategy", present)
+        values = values.isel(setting=np.flatnonzero(values["strategy"].values == strategy))
     boot = bootstrap(values, lambda v: score(_mean(v), rule), resampling=rs, keep=True)
     estimate = boot["estimate"].values
     order = np.argsort(estimate, kind="stable")

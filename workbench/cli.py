@@ -425,7 +425,7 @@ def cmd_recommend(args) -> int:
     from .analysis import recommend
 
     ds, rule, resampling = _decision(args)
-    rec = recommend(ds, rule, resampling)
+    rec = recommend(ds, rule, resampling, strategy=args.strategy)
     if args.json:
         print(json.dumps(rec.to_dict(), indent=2, ensure_ascii=False))
         return 0
@@ -547,6 +547,9 @@ def build_parser() -> argparse.ArgumentParser:
         p.add_argument("--draws", type=int, default=1000, help="bootstrap draws")
         p.add_argument("--seed", type=int, default=0, help="bootstrap seed")
         if name == "recommend":
+            p.add_argument(
+                "--strategy", default=None, help="choose among one strategy's settings only"
+            )
             p.add_argument("--json", action="store_true", help="print one JSON object")
         p.set_defaults(func=func)
     return parser

@@ -115,6 +115,7 @@ class _Content:
     rule: an.Rule
     rs: an.Resampling
     rec: an.Recommendation
+    pseudo_posterior: an.Recommendation | None
     shown: list[str]
     ett: xr.Dataset
     km: xr.Dataset
@@ -143,8 +144,15 @@ def _compute(ds: xr.Dataset, rule: an.Rule, rs: an.Resampling) -> _Content:
     has_none = an.NO_BELIEF in baselines
     beat = an.evaluations_to_beat_mode(ds)
     nr_at = an.normalized_regret_at(ds).sel(setting=shown)
-    sens = None
+    sens = pp = None
     if "pseudo-posterior" in [str(s) for s in ds["strategy"].values]:
+        # The planner of a pseudo-posterior campaign needs its decay and quantile even when
+        # another strategy wins overall.
+        pp = (
+            rec
+            if rec.choice["strategy"] == "pseudo-posterior"
+            else an.recommend(ds, rule, rs, strategy="pseudo-posterior")
+        )
         fixed = {k: rec.choice[k] for k in ("exploration", "initial")}
         sens = an.sensitivity(ds, rule, rs, "pseudo-posterior", fixed)
     return _Content(
@@ -152,6 +160,7 @@ def _compute(ds: xr.Dataset, rule: an.Rule, rs: an.Resampling) -> _Content:
         rule=rule,
         rs=rs,
         rec=rec,
+        pseudo_posterior=pp,
         shown=shown,
         ett=an.summarise(an.campaign_metric(ds, "evaluations_to_target"), rs),
         km=an.median_evaluations_to_target(ds, resampling=rs),
@@ -424,6 +433,15 @@ def _answer_rows(c: _Content) -> list[tuple[str, str]]:
             for name, choice in r.leave_one_landscape_out.items()
         ]
         rows.append(("leave one landscape out", "; ".join(items)))
+    pp = c.pseudo_posterior
+    if pp is not None and pp.setting != r.setting:
+        rows.append(
+            (
+                "best pseudo-posterior",
+                f"{_choice_words(pp.choice, c.ds)}: {_num(pp.value)} {unit} "
+                f"({level} interval {_between(*pp.interval)}; stability {_pct(pp.stability)})",
+            )
+        )
     return rows
 
 
