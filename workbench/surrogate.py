@@ -27,7 +27,7 @@ from functools import cached_property
 import numpy as np
 from scipy.linalg import LinAlgError
 from scipy.linalg.lapack import dpotrf, dpotrs, dtrtrs
-from scipy.optimize import minimize
+from scipy.optimize import fmin_l_bfgs_b
 
 from .seeding import generator
 
@@ -541,19 +541,19 @@ def fit(
         D = _sq_diffs(X)
         for start in starts:
             try:
-                result = minimize(
+                # The same L-BFGS-B as minimize(method="L-BFGS-B"), with less set-up per call.
+                theta, value, _ = fmin_l_bfgs_b(
                     _negative,
                     start,
                     args=(D, ys),
-                    jac=True,
-                    method="L-BFGS-B",
                     bounds=box,
-                    options={"maxiter": iterations, "maxfun": 3 * iterations},
+                    maxiter=iterations,
+                    maxfun=3 * iterations,
                 )
             except (LinAlgError, FloatingPointError):
                 continue
-            if math.isfinite(result.fun) and result.fun < best_value:
-                best_theta, best_value = result.x, float(result.fun)
+            if math.isfinite(value) and value < best_value:
+                best_theta, best_value = theta, float(value)
 
     if best_theta is not None:
         try:
