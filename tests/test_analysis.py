@@ -381,6 +381,19 @@ def test_weights_on_one_distortion_pick_that_distortions_best():
     assert rec.setting in best.values()
 
 
+def test_a_strategy_restriction_picks_that_strategys_best_setting():
+    guided, baseline = random_ett(13, low=9, high=11)
+    guided[1, :, :, 0, :] = 2  # prior-weighted hyperbolic:2 wins overall
+    guided[0, :, :, 1, 1] = 4  # pseudo-posterior hyperbolic:8, quantile 0.5 is its best
+    ds = hand_grid(guided, baseline)
+    assert an.recommend(ds, resampling=FAST).setting == "prior-weighted, decay hyperbolic:2"
+    pp = an.recommend(ds, resampling=FAST, strategy="pseudo-posterior")
+    assert (pp.choice["decay"], pp.choice["quantile"]) == ("hyperbolic:8", 0.5)
+    assert pp.runner_up["strategy"] == "pseudo-posterior"
+    with pytest.raises(InputError, match="--strategy"):
+        an.recommend(ds, resampling=FAST, strategy="belief-sampling")
+
+
 def test_decision_rule_defaults_come_from_the_study_decision_table():
     guided, baseline = random_ett(1)
     text = STUDY + '\n[decision]\nrule = "cvar"\nlevel = 0.5\nmetric = "log_regret_area"\n'

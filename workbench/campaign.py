@@ -200,7 +200,7 @@ def _run(campaign: Campaign, streams: dict[str, np.random.Generator]) -> Trace:
         seconds[t] = time.perf_counter() - start
 
     failed = ~np.isfinite(value)
-    best = np.fmin.accumulate(np.where(failed, np.inf, value))
+    best = np.minimum.accumulate(np.where(failed, np.inf, value))
     best = np.where(np.isfinite(best), best, np.nan)
     regret = best - placement.minimum
     return Trace(
