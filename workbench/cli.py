@@ -10,6 +10,7 @@ import argparse
 import json
 import logging
 import sys
+import time
 import warnings
 from pathlib import Path
 
@@ -322,9 +323,14 @@ def cmd_demo(args) -> int:
         f"demo: {summary.campaigns} campaigns ({summary.resumed} already done) in "
         f"{summary.seconds:.1f} s wall time; grid: {summary.grid}"
     )
+    start = time.perf_counter()
     files, rec = write_report(out)
-    print(f"report: {files.html}")
+    print(f"report: {files.html} ({time.perf_counter() - start:.1f} s)")
     _print_recommendation(rec)
+    print(
+        "A simulation on test landscapes is not the real system: the real process's safety "
+        "limits come first."
+    )
     return 0
 
 
