@@ -548,7 +548,7 @@ def fit(
                     args=(D, ys),
                     bounds=box,
                     maxiter=iterations,
-                    maxfun=3 * iterations,
+                    maxfun=2 * iterations,
                 )
             except (LinAlgError, FloatingPointError):
                 continue
