@@ -40,7 +40,7 @@ def _log_h(z: np.ndarray) -> np.ndarray:
     z = np.asarray(z, dtype=float)
     with np.errstate(all="ignore"):
         direct = np.log(z * special.ndtr(z) + np.exp(-0.5 * z**2 - _LOG_SQRT_2PI))
-        if np.all(z > _DIRECT_BELOW):
+        if z.size == 0 or z.min() > _DIRECT_BELOW:
             return direct
         a = np.minimum(z, _DIRECT_BELOW)
         inner = np.log(special.erfcx(-a / np.sqrt(2)) * -a) + _LOG_SQRT_PI_2
