@@ -78,3 +78,15 @@ def test_the_landscape_table_names_the_landscapes(capsys):
     out = capsys.readouterr().out
     for name in ("branin", "hartmann6", "shekel10", "forrester", "michalewicz"):
         assert name in out
+
+
+def test_an_unexpected_failure_is_one_line_without_a_traceback(monkeypatch, capsys):
+    import workbench.cli as cli
+
+    def broken(args):
+        raise RuntimeError("disk on fire")
+
+    monkeypatch.setattr(cli, "cmd_landscapes", broken)
+    assert cli.main(["landscapes"]) == 1
+    err = capsys.readouterr().err
+    assert err.count("\n") == 1 and "disk on fire" in err and "Traceback" not in err

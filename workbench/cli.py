@@ -9,6 +9,7 @@ from __future__ import annotations
 import argparse
 import json
 import logging
+import os
 import sys
 import time
 import warnings
@@ -582,6 +583,19 @@ def main(argv: list[str] | None = None) -> int:
     except KeyboardInterrupt:
         print("workbench: interrupted; finished work is kept and a rerun resumes", file=sys.stderr)
         return 130
+    except BrokenPipeError:
+        # The reader (a pager, head) went away: stop quietly, as command-line tools do.
+        devnull = os.open(os.devnull, os.O_WRONLY)
+        os.dup2(devnull, sys.stdout.fileno())
+        return 1
+    except Exception as err:
+        if args.debug:
+            raise
+        print(
+            f"workbench: internal error: {type(err).__name__}: {err} (--debug shows where)",
+            file=sys.stderr,
+        )
+        return 1
 
 
 if __name__ == "__main__":
