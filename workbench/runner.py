@@ -116,13 +116,16 @@ def _backend(scheduler: str | None) -> Iterator[None]:
             "--scheduler",
             "dask.distributed installed (pip install 'workbench[cluster]')",
             raw("no dask.distributed"),
+            "command line",
         ) from None
     import joblib
 
     try:
         client = Client(scheduler, timeout="10s")
     except OSError as err:
-        raise InputError("--scheduler", "a reachable Dask scheduler", raw(str(err))) from None
+        raise InputError(
+            "--scheduler", "a reachable Dask scheduler", raw(str(err)), "command line"
+        ) from None
     try:
         with joblib.parallel_config(backend="dask"):
             yield
@@ -134,16 +137,22 @@ def execute(
     study: Study, todo: list[Chunk], *, jobs: int | None = None, scheduler: str | None = None
 ) -> Iterator[tuple[Chunk, dict, float]]:
     """Run ``todo`` in parallel; yield (chunk, arrays, seconds) as each chunk finishes."""
+    with _backend(scheduler):
+        yield from _parallel(study, todo, jobs, scheduler is not None)
+
+
+def _parallel(
+    study: Study, todo: list[Chunk], jobs: int | None, distributed: bool
+) -> Iterator[tuple[Chunk, dict, float]]:
     import joblib
 
     if not todo:
         return
-    n_jobs = -1 if scheduler else (jobs or os.cpu_count() or 1)
-    with _backend(scheduler):
-        parallel = joblib.Parallel(
-            n_jobs=n_jobs, return_as="generator_unordered", batch_size=1, pre_dispatch="2*n_jobs"
-        )
-        yield from parallel(joblib.delayed(_work)(study, c) for c in todo)
+    n_jobs = -1 if distributed else (jobs or os.cpu_count() or 1)
+    parallel = joblib.Parallel(
+        n_jobs=n_jobs, return_as="generator_unordered", batch_size=1, pre_dispatch="2*n_jobs"
+    )
+    yield from parallel(joblib.delayed(_work)(study, c) for c in todo)
 
 
 def run_study(
@@ -157,27 +166,30 @@ def run_study(
 ) -> RunSummary:
     """Run every chunk not yet on disk, then assemble ``grid.nc``.
 
-    ``progress(done, total)`` is called with campaign counts as chunks finish.
+    The scheduler (when given) is reached before anything is written, so a wrong address
+    leaves the output folder untouched. ``progress(done, total)`` is called with campaign
+    counts as chunks finish.
     """
     from .gridfile import assemble
 
     start = time.perf_counter()
     out = Path(out)
-    manifest = prepare(study, out, fresh)
-    every = chunks(study)
-    todo = [c for c in every if not _chunk_path(out, c).exists()]
-    total = sum(len(c.settings) for c in every)
-    done = resumed = total - sum(len(c.settings) for c in todo)
-    if progress:
-        progress(done, total)
-    for chunk, result, seconds in execute(study, todo, jobs=jobs, scheduler=scheduler):
-        with atomic_path(_chunk_path(out, chunk)) as tmp:
-            with open(tmp, "wb") as fh:
-                np.savez(fh, **result)
-        manifest["chunk_seconds"][chunk.key] = round(seconds, 4)
-        write_text(out / MANIFEST, json.dumps(manifest, indent=1))
-        done += len(chunk.settings)
+    with _backend(scheduler):
+        manifest = prepare(study, out, fresh)
+        every = chunks(study)
+        todo = [c for c in every if not _chunk_path(out, c).exists()]
+        total = sum(len(c.settings) for c in every)
+        done = resumed = total - sum(len(c.settings) for c in todo)
         if progress:
             progress(done, total)
+        for chunk, result, seconds in _parallel(study, todo, jobs, scheduler is not None):
+            with atomic_path(_chunk_path(out, chunk)) as tmp:
+                with open(tmp, "wb") as fh:
+                    np.savez(fh, **result)
+            manifest["chunk_seconds"][chunk.key] = round(seconds, 4)
+            write_text(out / MANIFEST, json.dumps(manifest, indent=1))
+            done += len(chunk.settings)
+            if progress:
+                progress(done, total)
     grid = assemble(study, out / CHUNKS, out / GRID, every)
     return RunSummary(len(every), total, resumed, grid, time.perf_counter() - start)
