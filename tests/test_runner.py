@@ -154,3 +154,13 @@ def test_a_campaign_that_raises_keeps_the_finished_chunks_and_names_the_cell(
     kept = list((tmp_path / "out" / "chunks").glob("*.npz"))
     assert len(kept) >= 3  # the chunks before the failing one are on disk
     assert not (tmp_path / "out" / "grid.nc").exists()
+
+
+def test_an_unreachable_scheduler_is_one_error_and_writes_nothing(study_file, tmp_path):
+    pytest.importorskip("dask.distributed")
+    from workbench.validation import InputError
+
+    out = tmp_path / "never"
+    with pytest.raises(InputError, match="--scheduler"):
+        run_study(load(study_file), out, scheduler="tcp://127.0.0.1:1")
+    assert not out.exists()
