@@ -33,7 +33,7 @@ from pathlib import Path
 import numpy as np
 
 from . import __version__
-from .grid import Chunk, settings
+from .grid import SEVERITY_RADIUS, Chunk, settings
 from .storage import atomic_path
 from .study import Study
 
@@ -139,7 +139,7 @@ def _define(ds, study: Study) -> None:
     ds.version = __version__
     ds.budget = study.budget
     ds.target = study.target
-    ds.severity_radius = 0.1
+    ds.severity_radius = SEVERITY_RADIUS
     ds.units = json.dumps(
         {p.name: p.unit for p in study.space.parameters} if study.space is not None else {}
     )

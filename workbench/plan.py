@@ -62,10 +62,6 @@ DEFAULT_QUESTIONS = (
     "Which decay schedule and threshold quantile should be used?",
     "How many evaluations does a misleading belief cost against using no belief at all?",
 )
-# The report pools recovery, and averages every metric, over these before comparing settings
-# in each distortion (see workbench.analysis), so each of its intervals rests on
-# landscapes × replicates campaigns.
-POOLED = ("landscape", "replicate")
 # The per-setting arrays of a chunk (the rest are one value per chunk), as run_chunk stacks them.
 _PER_CAMPAIGN = (*TRACE_ARRAYS, "user_points")
 # The grid file's per-evaluation series (gridfile._SERIES): seven 8-byte ones and 'failed' (1).
