@@ -27,10 +27,12 @@ from sklearn.gaussian_process import GaussianProcessRegressor
 from sklearn.gaussian_process.kernels import ConstantKernel, Matern, WhiteKernel
 from threadpoolctl import threadpool_limits
 
-from workbench import campaign, landscapes, seeding
-from workbench.acquisition import expected_improvement
-from workbench.beliefs import gaussian_at
-from workbench.space import Space
+from workbench import seeding
+from workbench.engine import campaign
+from workbench.engine.acquisition import expected_improvement
+from workbench.world import landscapes
+from workbench.world.beliefs import gaussian_at
+from workbench.world.space import Space
 
 CASES = (("branin", 50), ("hartmann6", 100))
 

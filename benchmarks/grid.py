@@ -32,8 +32,8 @@ STUDY = ROOT / "studies" / "reference.toml"
 
 
 def child(replicates: int, mode: str, out: str) -> None:
-    from workbench.runner import run_study
-    from workbench.study import load
+    from workbench.study.runner import run_study
+    from workbench.study.spec import load
 
     study = dataclasses.replace(load(STUDY), replicates=replicates)
     start = time.perf_counter()
@@ -84,7 +84,7 @@ def main() -> None:
         child(args.replicates, args.child, args.out)
         return
 
-    from workbench.study import load
+    from workbench.study.spec import load
 
     full = load(STUDY)
     reps = max(1, round(full.replicates * args.share))

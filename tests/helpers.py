@@ -2,7 +2,7 @@
 
 import textwrap
 
-from workbench.study import parse_text
+from workbench.study.spec import parse_text
 
 
 def make_study(body: str, name: str = "test"):

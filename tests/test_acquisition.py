@@ -4,7 +4,11 @@ from hypothesis import given
 from hypothesis import strategies as st
 from scipy import special, stats
 
-from workbench.acquisition import expected_improvement, log_expected_improvement, log_odds_good
+from workbench.engine.acquisition import (
+    expected_improvement,
+    log_expected_improvement,
+    log_odds_good,
+)
 
 
 @pytest.mark.parametrize("mean, sd, best", [(0.0, 1.0, 0.5), (1.0, 0.3, 0.2), (-2.0, 2.0, -1.0)])

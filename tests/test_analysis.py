@@ -9,8 +9,9 @@ import scipy.stats
 import xarray as xr
 
 from workbench import analysis as an
-from workbench import gridfile, metrics
+from workbench.analysis import metrics
 from workbench.cli import main
+from workbench.study import gridfile
 from workbench.validation import InputError
 
 BUDGET = 12
@@ -56,7 +57,7 @@ def _curves(ett: np.ndarray) -> np.ndarray:
 
 
 def hand_grid(guided_ett: np.ndarray, baseline_ett: np.ndarray, study: str = STUDY):
-    """A grid Dataset laid out as workbench.gridfile writes it, from evaluations to target:
+    """A grid Dataset laid out as workbench.study.gridfile writes it, from evaluations to target:
     guided (strategy, landscape, distortion, decay, quantile, replicate), baselines (baseline,
     landscape, distortion, replicate). Minimum 0 and gap 1, so best = normalized regret; the
     value at the belief's mode is 0.3."""

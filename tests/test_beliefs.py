@@ -6,9 +6,9 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 from scipy import integrate, stats
 
-from workbench import beliefs as bl
-from workbench.space import Categorical, Continuous, Integer, Space
 from workbench.validation import InputError
+from workbench.world import beliefs as bl
+from workbench.world.space import Categorical, Continuous, Integer, Space
 
 U = np.linspace(0.0, 1.0, 101)
 

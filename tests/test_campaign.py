@@ -4,13 +4,13 @@ import numpy as np
 import pytest
 from helpers import make_study
 
-from workbench import landscapes as ls
-from workbench.beliefs import gaussian_at
-from workbench.campaign import Campaign, run
-from workbench.grid import chunks
-from workbench.runner import execute
+from workbench.engine.campaign import Campaign, run
 from workbench.seeding import campaign_streams, derive
-from workbench.space import Space
+from workbench.study.grid import chunks
+from workbench.study.runner import execute
+from workbench.world import landscapes as ls
+from workbench.world.beliefs import gaussian_at
+from workbench.world.space import Space
 
 
 def final_regrets(study, evaluation=-1):
@@ -124,7 +124,7 @@ def _campaign(strategy="pseudo-posterior", budget=15, placement=None, **kw):
 
 
 def test_a_campaign_is_deterministic_for_a_seed():
-    from workbench.decay import parse
+    from workbench.study.decay import parse
 
     c = _campaign(decay=parse("hyperbolic:5"), design="belief")
     a = run(c, campaign_streams(derive(5, 1)))
@@ -136,7 +136,7 @@ def test_a_campaign_is_deterministic_for_a_seed():
 
 
 def test_a_trace_records_regret_weights_thresholds_and_the_belief_mode_value():
-    from workbench.decay import parse
+    from workbench.study.decay import parse
 
     placement = ls.get("branin").placed(at=[0.3, 0.6])
     c = _campaign(decay=parse("hyperbolic:6"), design="sobol", design_size=3, placement=placement)
@@ -175,7 +175,7 @@ class _Flaky:
 
 @pytest.mark.parametrize("strategy", ["pseudo-posterior", "prior-weighted", "no-belief"])
 def test_failed_evaluations_are_recorded_and_the_campaign_goes_on(strategy):
-    from workbench.decay import parse
+    from workbench.study.decay import parse
 
     flaky = _Flaky(ls.get("branin").placed(at=[0.3, 0.6]))
     c = _campaign(strategy, budget=25, placement=flaky, decay=parse("hyperbolic:3"), design="sobol")

@@ -1,7 +1,7 @@
 import numpy as np
 import pytest
 
-from workbench.decay import parse
+from workbench.study.decay import parse
 from workbench.validation import InputError
 
 

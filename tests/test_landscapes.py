@@ -13,8 +13,8 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 from scipy.optimize import minimize
 
-from workbench.landscapes import Landscape, Placement, catalogue, get
 from workbench.validation import InputError
+from workbench.world.landscapes import Landscape, Placement, catalogue, get
 
 GENERIC = ("ackley", "levy", "rosenbrock", "styblinski-tang", "griewank", "rastrigin")
 

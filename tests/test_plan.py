@@ -10,11 +10,11 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-from workbench import grid
 from workbench import plan as pl
 from workbench.cli import main
-from workbench.runner import run_study
-from workbench.study import load, parse_text
+from workbench.study import grid
+from workbench.study.runner import run_study
+from workbench.study.spec import load, parse_text
 from workbench.validation import InputError
 
 DEMO = Path(__file__).resolve().parents[1] / "studies" / "demo.toml"

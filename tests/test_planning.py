@@ -6,7 +6,7 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 from scipy.stats import binomtest
 
-from workbench import planning
+from workbench.plan import sample_size as planning
 
 
 def test_interval_sample_size_is_the_textbook_value():

@@ -11,9 +11,9 @@ import numpy as np
 import pytest
 import xarray as xr
 
-from workbench import grid
-from workbench.runner import run_study
-from workbench.study import load
+from workbench.study import grid
+from workbench.study.runner import run_study
+from workbench.study.spec import load
 
 STUDY = """
 title = "runner check"

@@ -3,8 +3,8 @@ import pytest
 from hypothesis import given
 from hypothesis import strategies as st
 
-from workbench.space import Categorical, Continuous, Integer, Space
 from workbench.validation import InputError
+from workbench.world.space import Categorical, Continuous, Integer, Space
 
 
 def test_linear_and_log_parameters_round_trip_through_the_cube():

@@ -1,20 +1,20 @@
 import numpy as np
 import pytest
 
-from workbench import surrogate
-from workbench.acquisition import log_odds_good
-from workbench.beliefs import gaussian_at
-from workbench.space import Categorical, Continuous, Space
-from workbench.strategies import STRATEGIES, Step, get
-from workbench.strategies import pseudo_posterior as pp
+from workbench import gp
+from workbench.engine.acquisition import log_odds_good
+from workbench.engine.strategies import STRATEGIES, Step, get
+from workbench.engine.strategies import pseudo_posterior as pp
 from workbench.validation import InputError
+from workbench.world.beliefs import gaussian_at
+from workbench.world.space import Categorical, Continuous, Space
 
 
 def _step(weight, rng, belief=None, space=None):
     space = space or Space.unit_cube(2)
     X = rng.random((12, space.dim))
     y = np.sin(5 * X[:, 0]) + (X[:, 1] - 0.3) ** 2
-    model = surrogate.fit(space.features(X), y, rng=rng)
+    model = gp.fit(space.features(X), y, rng=rng)
     belief = belief or gaussian_at([0.8, 0.2], 0.05)
     mode = np.atleast_2d(belief.mode())
     return Step(space, X, y, belief, float(belief.logpdf(mode)[0]), weight, 0.25, model)

@@ -4,11 +4,11 @@ import numpy as np
 import pytest
 from helpers import make_study
 
-from workbench.beliefs import Discrete, Mixture, Product, TruncatedGaussian
 from workbench.cli import main
-from workbench.grid import Cell, chunks
-from workbench.study import load
+from workbench.study.grid import Cell, chunks
+from workbench.study.spec import load
 from workbench.validation import InputError
+from workbench.world.beliefs import Discrete, Mixture, Product, TruncatedGaussian
 
 USER = """
 title = "Coating line: cure temperature, line speed, primer"

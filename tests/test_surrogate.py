@@ -11,7 +11,7 @@ from numpy.linalg import LinAlgError
 from sklearn.gaussian_process import GaussianProcessRegressor
 from sklearn.gaussian_process.kernels import ConstantKernel, Matern, WhiteKernel
 
-from workbench.surrogate import (
+from workbench.gp import (
     DEFAULT_BOUNDS,
     GP,
     LENGTHSCALE_BOUNDS,

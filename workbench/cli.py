@@ -15,7 +15,7 @@ import time
 import warnings
 from pathlib import Path
 
-from .grid import CampaignError
+from .study.grid import CampaignError
 from .validation import InputError
 
 __all__ = ["main"]
@@ -37,7 +37,7 @@ def _format_value(value) -> str:
 
 
 def cmd_landscapes(args) -> int:
-    from . import landscapes as ls
+    from .world import landscapes as ls
 
     rows = [ls.get(name).describe() for name in ls.catalogue()]
     if args.json:
@@ -53,7 +53,8 @@ def cmd_landscapes(args) -> int:
 
 
 def cmd_belief(args) -> int:
-    from . import beliefs, study
+    from .study import spec as study
+    from .world import beliefs
 
     s = study.load(args.study)
     if s.space is None:
@@ -107,12 +108,12 @@ def _write_belief_figure(s, path: Path) -> Path:
 
 def _simulation_study(args):
     """A one-cell study built from the command line (every value validated, keys = options)."""
-    from . import landscapes as ls
-    from .decay import parse
-    from .distortions import EXACT, MISPLACE, Distortion
-    from .strategies import STRATEGIES
-    from .study import BELIEF_STRATEGIES, Decision, LandscapeEntry, StrategyFactors, Study
+    from .engine.strategies import STRATEGIES
+    from .study.decay import parse
+    from .study.spec import BELIEF_STRATEGIES, Decision, LandscapeEntry, StrategyFactors, Study
     from .validation import check_choice, check_number
+    from .world import landscapes as ls
+    from .world.distortions import EXACT, MISPLACE, Distortion
 
     where = "command line"
     try:
@@ -204,9 +205,9 @@ def _simulation_study(args):
 def cmd_simulate(args) -> int:
     import numpy as np
 
-    from .grid import chunks
-    from .metrics import evaluations_to_target
-    from .runner import execute
+    from .analysis.metrics import evaluations_to_target
+    from .study.grid import chunks
+    from .study.runner import execute
 
     study, settings = _simulation_study(args)
     rows = []
@@ -266,8 +267,8 @@ def _progress(quiet: bool):
 
 
 def cmd_check(args) -> int:
-    from .estimate import duration, probe
-    from .study import load
+    from .study.cost import duration, probe
+    from .study.spec import load
 
     s = load(args.study)
     est = probe(s, jobs=args.jobs)
@@ -283,7 +284,7 @@ def cmd_check(args) -> int:
 
 
 def _run(study, out: Path, args) -> object:
-    from .runner import run_study
+    from .study.runner import run_study
 
     bar, update = _progress(args.quiet)
     try:
@@ -296,8 +297,8 @@ def _run(study, out: Path, args) -> object:
 
 
 def cmd_run(args) -> int:
-    from .estimate import duration
-    from .study import load
+    from .study.cost import duration
+    from .study.spec import load
 
     study = load(args.study)
     summary = _run(study, _out_dir(args, study.name), args)
@@ -315,7 +316,7 @@ def _demo_study() -> Path:
 
 def cmd_demo(args) -> int:
     from .report.document import write_report
-    from .study import load
+    from .study.spec import load
 
     study = load(_demo_study())
     out = Path(args.out) if args.out else Path("results") / "demo"
@@ -336,9 +337,9 @@ def cmd_demo(args) -> int:
 
 
 def cmd_plan(args) -> int:
-    from .estimate import duration, size
     from .plan import PlanOptions, build_plan, reasons, run_pilot, write_plan
-    from .study import load
+    from .study.cost import duration, size
+    from .study.spec import load
 
     options = PlanOptions.from_text(
         half_width=args.half_width,

@@ -289,8 +289,8 @@ def _figures(c: _Content) -> list[tuple[str, str, str, bytes]]:
 
 
 def _belief_figure(c: _Content):
-    from ..grid import Cell
-    from ..study import parse_text
+    from ..study.grid import Cell
+    from ..study.spec import parse_text
     from . import figures as fg
 
     study = parse_text(c.ds.attrs["study"])

@@ -10,7 +10,7 @@ from collections.abc import Mapping, Sequence
 
 import numpy as np
 
-from ..space import Categorical, Continuous, Space
+from ..world.space import Categorical, Continuous, Space
 
 __all__ = ["belief_marginals", "regret_curves", "robustness_frontier", "sensitivity_heatmap"]
 
@@ -218,7 +218,7 @@ def regret_curves(
     :func:`workbench.analysis.regret_bands` Dataset). ``roles`` adds a word to a setting's
     legend label ("recommended"); ``target`` draws the target level.
     """
-    from ..metrics import LOG_FLOOR
+    from ..analysis.metrics import LOG_FLOOR
 
     roles = roles or {}
     settings = [str(s) for s in bands["setting"].values]

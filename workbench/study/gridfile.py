@@ -32,10 +32,10 @@ from pathlib import Path
 
 import numpy as np
 
-from . import __version__
+from .. import __version__
+from ..storage import atomic_path
 from .grid import SEVERITY_RADIUS, Chunk, settings
-from .storage import atomic_path
-from .study import Study
+from .spec import Study
 
 __all__ = ["BASELINE_DIMS", "GUIDED_DIMS", "assemble"]
 

@@ -8,7 +8,7 @@ import time
 from dataclasses import dataclass
 
 from .grid import Cell, chunks, settings
-from .study import Study
+from .spec import Study
 
 __all__ = ["Estimate", "duration", "probe", "size"]
 

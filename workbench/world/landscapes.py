@@ -29,7 +29,7 @@ from scipy.optimize import minimize
 from scipy.stats import qmc
 from threadpoolctl import threadpool_limits
 
-from .validation import InputError, check_choice, check_number, raw
+from ..validation import InputError, check_choice, check_number, raw
 
 __all__ = ["MAX_DIM", "Landscape", "Placement", "catalogue", "get"]
 

@@ -15,11 +15,7 @@ from typing import Any
 
 import numpy as np
 
-from . import beliefs as bl
-from .decay import Schedule, parse
-from .distortions import EXACT, MISPLACE, Distortion
-from .space import Categorical, Continuous, Integer, Space
-from .validation import (
+from ..validation import (
     InputError,
     check_choice,
     check_keys,
@@ -29,6 +25,10 @@ from .validation import (
     check_table,
     raw,
 )
+from ..world import beliefs as bl
+from ..world.distortions import EXACT, MISPLACE, Distortion
+from ..world.space import Categorical, Continuous, Integer, Space
+from .decay import Schedule, parse
 
 __all__ = [
     "BASELINES",
@@ -307,7 +307,7 @@ def _space(table) -> Space:
 
 
 def _landscapes(entries, space: Space | None) -> tuple[LandscapeEntry, ...]:
-    from . import landscapes as ls
+    from ..world import landscapes as ls
 
     if entries is None:
         raise InputError("landscape", "at least one [[landscape]] table", raw("nothing"))

@@ -22,14 +22,14 @@ from functools import cached_property
 
 import numpy as np
 
-from . import landscapes as ls
-from .beliefs import gaussian_at
-from .campaign import Campaign, Trace, run
+from ..engine.campaign import Campaign, Trace, run
+from ..seeding import campaign_streams, derive, generator
+from ..world import landscapes as ls
+from ..world.beliefs import gaussian_at
+from ..world.distortions import severity
+from ..world.space import Continuous, Space
 from .decay import Schedule
-from .distortions import severity
-from .seeding import campaign_streams, derive, generator
-from .space import Continuous, Space
-from .study import LandscapeEntry, Study
+from .spec import LandscapeEntry, Study
 
 __all__ = ["Cell", "Chunk", "Setting", "chunks", "run_chunk", "settings"]
 

@@ -23,14 +23,15 @@ from pathlib import Path
 
 import numpy as np
 
-from . import __version__, planning
-from .estimate import Estimate, duration, size
-from .grid import BELIEF_FREE, TRACE_ARRAYS, Chunk, Setting, chunks, settings
-from .metrics import evaluations_to_target
-from .seeding import derive
-from .storage import write_text
-from .study import Study
-from .validation import check_number
+from .. import __version__
+from ..analysis.metrics import evaluations_to_target
+from ..seeding import derive
+from ..storage import write_text
+from ..study.cost import Estimate, duration, size
+from ..study.grid import BELIEF_FREE, TRACE_ARRAYS, Chunk, Setting, chunks, settings
+from ..study.spec import Study
+from ..validation import check_number
+from . import sample_size as planning
 
 __all__ = [
     "Compute",
@@ -231,7 +232,7 @@ class Pilot:
 
 def run_pilot(study: Study, options: PlanOptions) -> Pilot:
     """Run the pilot for real (through the runner's process pool) and time it."""
-    from .runner import execute
+    from ..study.runner import execute
 
     options.check(study)
     design = pilot_design(study, options.pilot_replicates)
@@ -706,7 +707,7 @@ def _questions(study: Study) -> tuple[str, ...]:
 
 def _rule_words(study: Study) -> str:
     """The decision rule as the report words it (weights normalised; none given: equal)."""
-    from .analysis import Rule
+    from ..analysis import Rule
 
     d = study.decision
     names = [x.name for x in study.distortions]

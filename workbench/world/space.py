@@ -21,7 +21,7 @@ from functools import cached_property
 
 import numpy as np
 
-from .validation import InputError, check_number, check_string, raw
+from ..validation import InputError, check_number, check_string, raw
 
 __all__ = ["Categorical", "Continuous", "Integer", "Parameter", "Space"]
 

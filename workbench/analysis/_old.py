@@ -23,9 +23,9 @@ from pathlib import Path
 import numpy as np
 import xarray as xr
 
+from ..seeding import generator
+from ..validation import InputError, check_choice, check_number, raw
 from . import metrics
-from .seeding import generator
-from .validation import InputError, check_choice, check_number, raw
 
 __all__ = [
     "METRICS",
@@ -518,7 +518,7 @@ def decision_rule(
     """The decision rule: given values, else the study's [decision] table, else expected
     evaluations to target with equal weights. Weights name distortions of the grid; unnamed
     distortions get weight 0; they must not all be 0."""
-    from .study import parse_text
+    from ..study.spec import parse_text
 
     decision = parse_text(ds.attrs["study"]).decision if "study" in ds.attrs else None
     names = _names(ds, "distortion")

@@ -18,7 +18,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from .seeding import generator
+from ..seeding import generator
 
 __all__ = [
     "PowerSearch",
@@ -57,7 +57,7 @@ def wilson_half_width(p, n, confidence: float) -> np.ndarray:
     """Half the width of the Wilson score interval at observed share ``p`` of ``n`` campaigns:
     z/(1 + z²/n) · √(p(1 − p)/n + z²/4n²) (the interval never reaches past 0 or 1 for p in
     [0, 1], so this is also (high − low)/2)."""
-    from .analysis import wilson_interval
+    from ..analysis import wilson_interval
 
     p = np.asarray(p, dtype=float)
     n = np.asarray(n, dtype=float)
@@ -92,7 +92,7 @@ def recovery_guess(successes, campaigns, confidence: float) -> tuple[float, bool
     the worst case, and ½ is used; otherwise the end of any cell's interval nearest ½ (the
     cell whose interval will be widest). Returns (p, whether p is the worst case ½).
     """
-    from .analysis import wilson_interval
+    from ..analysis import wilson_interval
 
     k = np.atleast_1d(np.asarray(successes, dtype=float))
     n = np.atleast_1d(np.asarray(campaigns, dtype=float))

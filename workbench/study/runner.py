@@ -26,11 +26,11 @@ from pathlib import Path
 
 import numpy as np
 
-from . import __version__
+from .. import __version__
+from ..storage import atomic_path, write_text
+from ..validation import InputError, raw
 from .grid import Chunk, chunks, run_chunk
-from .storage import atomic_path, write_text
-from .study import Study
-from .validation import InputError, raw
+from .spec import Study
 
 __all__ = ["RunSummary", "execute", "run_study"]
 

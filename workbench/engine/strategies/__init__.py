@@ -6,7 +6,7 @@ Adding a strategy is one new module with a class offering ``name``, ``uses_model
 
 from __future__ import annotations
 
-from ..validation import check_choice
+from ...validation import check_choice
 from .base import Step, Strategy
 from .belief_sampling import BeliefSampling
 from .no_belief import NoBelief

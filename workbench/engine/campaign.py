@@ -21,16 +21,16 @@ from __future__ import annotations
 
 import time
 import warnings
+from collections.abc import Callable
 from dataclasses import dataclass
 
 import numpy as np
 from scipy.stats import qmc
 from threadpoolctl import threadpool_limits
 
-from . import surrogate
-from .beliefs import Product, Uniform
-from .decay import Schedule
-from .space import Space
+from .. import gp
+from ..world.beliefs import Product, Uniform
+from ..world.space import Space
 from .strategies import Step, get
 
 __all__ = ["BELIEF_USERS", "Campaign", "Trace", "run"]
@@ -51,7 +51,7 @@ class Campaign:
     budget: int
     design: str = "sobol"
     design_size: int | None = None
-    decay: Schedule | None = None
+    decay: Callable[[int], float] | None = None
     quantile: float = 0.25
     exploration: float = 0.0
     noise_sd: float = 0.0
@@ -172,7 +172,7 @@ def _run(campaign: Campaign, streams: dict[str, np.random.Generator]) -> Trace:
     evaluate(slice(0, n0), _design(design, n0, space, belief, design_rng))
     seconds[:n0] = (time.perf_counter() - start) / max(n0, 1)
 
-    gp, last_fit = None, 0
+    fitted, last_fit = None, 0
     for t in range(n0, budget):
         start = time.perf_counter()
         lam = float(c.decay(t)) if (c.decay is not None and uses_belief) else 0.0
@@ -181,13 +181,13 @@ def _run(campaign: Campaign, streams: dict[str, np.random.Generator]) -> Trace:
         model = None
         if strategy.uses_model and not explore and len(rows) >= 2:
             F = space.features(points[rows])
-            if gp is None or surrogate.refit_due(len(rows), last_fit):
-                previous = None if gp is None else gp.hyperparameters
-                gp = surrogate.fit(F, y, previous=previous, rng=rng, restarts=1, maxiter=16)
+            if fitted is None or gp.refit_due(len(rows), last_fit):
+                previous = None if fitted is None else fitted.hyperparameters
+                fitted = gp.fit(F, y, previous=previous, rng=rng, restarts=1, maxiter=16)
                 last_fit = len(rows)
             else:
-                gp = surrogate.condition(gp, F, y)
-            model = gp
+                fitted = gp.condition(fitted, F, y)
+            model = fitted
         if explore or (strategy.uses_model and model is None):
             u, f_gamma = space.snap(rng.random((1, d)))[0], np.nan
         else:

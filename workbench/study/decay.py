@@ -19,7 +19,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from .validation import InputError, check_choice, check_number, raw
+from ..validation import InputError, check_choice, check_number, raw
 
 __all__ = ["FAMILIES", "Schedule", "parse"]
 

@@ -24,8 +24,8 @@ from functools import cached_property
 import numpy as np
 from scipy import optimize, special, stats
 
+from ..validation import InputError, check_choice, check_number, raw
 from .space import Categorical, Continuous, Integer, Parameter, Space
-from .validation import InputError, check_choice, check_number, raw
 
 __all__ = [
     "Beta",

@@ -23,7 +23,7 @@ import numpy as np
 from scipy import optimize
 from scipy.stats import qmc
 
-from ..space import Space
+from ...world.space import Space
 
 __all__ = ["LOG_BELIEF_FLOOR", "Step", "Strategy", "maximise"]
 

@@ -17,7 +17,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from .validation import InputError, check_choice, check_number, check_string
+from ..validation import InputError, check_choice, check_number, check_string
 
 __all__ = ["EXACT", "MISPLACE", "Distortion", "Severity", "severity"]
 
