@@ -500,16 +500,17 @@ def fit(
     """Fit the hyper-parameters by maximum marginal likelihood and condition on the data.
 
     L-BFGS-B with the analytic gradient, in log space, within ``bounds`` (standardised units;
-    by default ``LENGTHSCALE_BOUNDS`` = [0.01, 20] in unit-cube units,
-    ``SIGNAL_VARIANCE_BOUNDS`` = [0.01, 100] and ``NOISE_VARIANCE_BOUNDS`` = [1e-8, 1]).
+    by default ``LENGTHSCALE_BOUNDS`` in unit-cube units, ``SIGNAL_VARIANCE_BOUNDS`` and
+    ``NOISE_VARIANCE_BOUNDS``).
 
     Starts: with ``previous``, one warm start from it (clipped into the bounds) for
     ``maxiter // 2`` iterations; otherwise the default (length scales
-    ``default_lengthscale(p)``, signal 1, noise 1e-4) plus ``restarts`` starts drawn uniformly
-    in the log box from ``rng`` (a fixed seed if ``None``, so a fit is always reproducible).
-    The best optimum wins. A start that fails (``LinAlgError`` or a non-finite likelihood) is
-    skipped; if all fail, the default hyper-parameters are used (and if even they cannot be
-    factorised, the ``LinAlgError`` propagates). With a single observation nothing is
+    ``default_lengthscale(p)``, ``DEFAULT_SIGNAL_VARIANCE``, ``DEFAULT_NOISE_VARIANCE``) plus
+    ``restarts`` starts drawn uniformly in the log box from ``rng`` (a fixed seed if ``None``,
+    so a fit is always reproducible). The best optimum wins. A start that fails
+    (``LinAlgError`` or a non-finite likelihood) is skipped; if all fail, the default
+    hyper-parameters are used (and if even they cannot be factorised, the ``LinAlgError``
+    propagates). With a single observation nothing is
     fitted: the start is used as it is.
     """
     X, y = _check_data(X, y)
@@ -566,11 +567,10 @@ def fit(
 def refit_due(n_observations: int, last_fit_n: int) -> bool:
     """Whether to refit the hyper-parameters now, rather than :func:`condition` the last fit.
 
-    Refit at every step while fewer than ``REFIT_EVERY_STEP_BELOW`` (8) observations are in,
-    when the hyper-parameters still move a lot; after that, once the data have grown by
-    ``REFIT_GROWTH`` (20 %) since the last fit, but at least every ``REFIT_MAX_GAP`` (5)
-    evaluations: the gap is ``min(5, ceil(0.2 · last_fit_n))``, so a campaign of 50 refits
-    at 3, 4, 5, 6, 7, 9, 11, 14, 17, 21, 26, … (15 fits) and one of 150 refits 35 times.
+    Refit at every step while fewer than ``REFIT_EVERY_STEP_BELOW`` observations are in,
+    when the hyper-parameters still move a lot; after that, once the data have grown by the
+    fraction ``REFIT_GROWTH`` since the last fit, and at least every ``REFIT_MAX_GAP``
+    evaluations: the gap is ``min(REFIT_MAX_GAP, ceil(REFIT_GROWTH · last_fit_n))``.
     Between refits the model is conditioned on the new data with the last hyper-parameters.
     Also refit if there has been no fit yet (``last_fit_n <= 0``) or the data shrank.
     """

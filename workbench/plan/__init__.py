@@ -1,2 +1,32 @@
-from ._old import *  # noqa: F403
-from ._old import __all__  # noqa: F401
+"""The study plan: written from a study before it runs, for a methodologist to file.
+
+:func:`run_pilot` (:mod:`.pilot`) runs a small pilot for real; :mod:`.estimate` turns it into
+replicates (with the formulas of :mod:`.sample_size`) and compute; :func:`build_plan` is pure
+and :func:`write_plan` writes ``plan.md`` and ``plan.html`` (:mod:`.document`).
+"""
+
+from ..study.cost import duration, size
+from .document import Plan, build_plan, reasons, replicates_edit, write_plan
+from .estimate import Compute, Replicates, compute_estimate, grid_bytes, replicates_needed
+from .pilot import Pilot, PilotDesign, PlanOptions, pilot_chunks, pilot_design, run_pilot
+
+__all__ = [
+    "Compute",
+    "Pilot",
+    "PilotDesign",
+    "Plan",
+    "PlanOptions",
+    "Replicates",
+    "build_plan",
+    "compute_estimate",
+    "duration",
+    "grid_bytes",
+    "pilot_chunks",
+    "pilot_design",
+    "reasons",
+    "replicates_edit",
+    "replicates_needed",
+    "run_pilot",
+    "size",
+    "write_plan",
+]

@@ -7,7 +7,8 @@ import os
 import time
 from dataclasses import dataclass
 
-from .grid import Cell, chunks, settings
+from .cells import Cell
+from .grid import chunks, run_setting, settings
 from .spec import Study
 
 __all__ = ["Estimate", "duration", "probe", "size"]
@@ -42,7 +43,7 @@ def probe(study: Study, jobs: int | None = None) -> Estimate:
         if setting.strategy in seconds:
             continue
         start = time.perf_counter()
-        cell.run(setting)
+        run_setting(cell, setting)
         seconds[setting.strategy] = time.perf_counter() - start
     counts: dict[str, int] = {}
     for c in every:

@@ -1,15 +1,9 @@
-"""From a study to campaigns: the grid's cells, settings, seeds and chunks. Pure: no I/O.
+"""From a study to campaigns: the grid's settings and chunks, and running them. No I/O.
 
-Seeding (common random numbers). Every campaign's streams derive from the study's root seed:
-
-- the landscape placement from (root, landscape, "placement", replicate), shared by every
-  distortion and setting of that replicate;
-- the distortion direction, initial design, strategy and noise streams from
-  (root, landscape, distortion, replicate), shared by every strategy setting.
-
-So replicate k of two settings differs only by the setting: paired comparisons. The baselines
-that ignore the belief (no-belief, random) run once per landscape and replicate, with the
-streams of the ``exact`` distortion; the grid repeats them across distortions.
+Each cell's world (space, placement, belief) and seeds come from :mod:`.cells`, so replicate
+k of two settings differs only by the setting: paired comparisons. The baselines that ignore
+the belief (no-belief, random) run once per landscape and replicate, with the streams of the
+``exact`` distortion; the grid repeats them across distortions.
 
 A **chunk** is every campaign of one (landscape, distortion, replicate): the unit of parallel
 work and of storage.
@@ -18,25 +12,25 @@ work and of storage.
 from __future__ import annotations
 
 from dataclasses import dataclass
-from functools import cached_property
 
 import numpy as np
 
 from ..engine.campaign import Campaign, Trace, run
-from ..seeding import campaign_streams, derive, generator
-from ..world import landscapes as ls
-from ..world.beliefs import gaussian_at
-from ..world.distortions import severity
-from ..world.space import Continuous, Space
+from .cells import Cell
 from .decay import Schedule
-from .spec import LandscapeEntry, Study
+from .spec import Study
 
-__all__ = ["Cell", "Chunk", "Setting", "chunks", "run_chunk", "settings"]
+__all__ = [
+    "Cell",
+    "Chunk",
+    "Setting",
+    "campaign_of",
+    "chunks",
+    "run_chunk",
+    "run_setting",
+    "settings",
+]
 
-# Random placement keeps the minimiser this far from the cube's faces.
-PLACEMENT_MARGIN = 0.1
-# Severity: the belief's mass within this radius (cube units) of the nearest global minimiser.
-SEVERITY_RADIUS = 0.1
 # The per-evaluation arrays of a trace that a chunk file stacks over its settings
 # (``user_points`` is added beside them).
 TRACE_ARRAYS = (
@@ -89,108 +83,29 @@ def settings(study: Study) -> tuple[list[Setting], list[Setting]]:
     return guided, baseline
 
 
-@dataclass(frozen=True)
-class Cell:
-    """The context one chunk shares: a landscape, a distortion and a replicate."""
+def campaign_of(cell: Cell, setting: Setting) -> Campaign:
+    """The campaign of ``setting`` in ``cell``."""
+    return Campaign(
+        strategy=setting.strategy,
+        placement=cell.placement,
+        space=cell.space,
+        belief=cell.belief,
+        budget=cell.study.budget,
+        design=setting.initial,
+        design_size=cell.study.design_size(cell.space.dim),
+        decay=setting.decay,
+        quantile=setting.quantile,
+        exploration=setting.exploration,
+        noise_sd=cell.noise_sd,
+        multiple=setting.multiple,
+    )
 
-    study: Study
-    landscape: int
-    distortion: int
-    replicate: int
 
-    @property
-    def entry(self) -> LandscapeEntry:
-        return self.study.landscapes[self.landscape]
-
-    @property
-    def label(self) -> str:
-        name = self.study.distortions[self.distortion].name
-        return f"landscape {self.entry.label}, distortion {name}, replicate {self.replicate}"
-
-    @cached_property
-    def _streams(self):
-        s = self.study
-        name = s.distortions[self.distortion].name
-        return derive(s.seed, self.entry.label, name, self.replicate)
-
-    def streams(self, exact: bool = False) -> dict[str, np.random.Generator]:
-        """Fresh named streams of this cell (of its exact-distortion sibling if ``exact``)."""
-        if exact:
-            return campaign_streams(
-                derive(self.study.seed, self.entry.label, "exact", self.replicate)
-            )
-        return campaign_streams(self._streams)
-
-    @cached_property
-    def space(self) -> Space:
-        if self.study.space is not None:
-            return self.study.space
-        land = ls.get(self.entry.name, self.entry.dim)
-        return Space(
-            tuple(
-                Continuous(f"x{j + 1}", lo, hi)
-                for j, (lo, hi) in enumerate(zip(land.lower, land.upper, strict=True))
-            )
-        )
-
-    @cached_property
-    def placement(self):
-        s, land = self.study, ls.get(self.entry.name, self.entry.dim)
-        if s.space is not None:
-            # The user's belief stays put; the truth is placed at its mode.
-            at = self.space.snap(np.atleast_2d(np.asarray(s.belief.mode(), dtype=float)))[0]
-            return land.placed(at=np.clip(at, 0.0, 1.0))
-        if s.placement == "native":
-            return land.placed()
-        rng = generator(derive(s.seed, self.entry.label, "placement", self.replicate))
-        return land.placed(at=rng.uniform(PLACEMENT_MARGIN, 1 - PLACEMENT_MARGIN, land.dim))
-
-    @cached_property
-    def exact_belief(self):
-        if self.study.space is not None:
-            return self.study.belief
-        at = self.placement.at if self.placement.at is not None else self.placement.minimisers[0]
-        return gaussian_at(np.asarray(at), self.study.spread)
-
-    @cached_property
-    def belief(self):
-        """The distorted belief (its direction drawn from this cell's distortion stream)."""
-        d = self.study.distortions[self.distortion]
-        return d.apply(self.exact_belief, self.placement, self.streams()["distortion"])
-
-    @cached_property
-    def severity(self):
-        return severity(self.belief, self.placement, radius=SEVERITY_RADIUS)
-
-    @cached_property
-    def mode_value(self) -> float:
-        """The landscape's value at the distorted belief's mode: the expert's best guess."""
-        mode = np.atleast_2d(np.asarray(self.belief.mode(), dtype=float))
-        return float(self.placement.value(self.space.snap(mode))[0])
-
-    @property
-    def noise_sd(self) -> float:
-        return self.entry.noise * self.placement.gap
-
-    def campaign(self, setting: Setting) -> Campaign:
-        return Campaign(
-            strategy=setting.strategy,
-            placement=self.placement,
-            space=self.space,
-            belief=self.belief,
-            budget=self.study.budget,
-            design=setting.initial,
-            design_size=self.study.design_size(self.space.dim),
-            decay=setting.decay,
-            quantile=setting.quantile,
-            exploration=setting.exploration,
-            noise_sd=self.noise_sd,
-            multiple=setting.multiple,
-        )
-
-    def run(self, setting: Setting) -> Trace:
-        exact = setting.strategy in BELIEF_FREE
-        return run(self.campaign(setting), self.streams(exact=exact))
+def run_setting(cell: Cell, setting: Setting) -> Trace:
+    """Run the campaign of ``setting`` in ``cell`` with the cell's streams (the baselines that
+    ignore the belief take the streams of the cell's exact-distortion sibling)."""
+    exact = setting.strategy in BELIEF_FREE
+    return run(campaign_of(cell, setting), cell.streams(exact=exact))
 
 
 @dataclass(frozen=True)
@@ -230,7 +145,7 @@ def run_chunk(study: Study, chunk: Chunk) -> dict[str, np.ndarray]:
     traces = []
     for setting in chunk.settings:
         try:
-            traces.append(cell.run(setting))
+            traces.append(run_setting(cell, setting))
         except Exception as err:
             raise CampaignError(f"campaign failed at {cell.label}, {setting.label}: {err}") from err
     stack = {name: np.stack([getattr(t, name) for t in traces]) for name in TRACE_ARRAYS}

@@ -34,7 +34,8 @@ import numpy as np
 
 from .. import __version__
 from ..storage import atomic_path
-from .grid import SEVERITY_RADIUS, Chunk, settings
+from .cells import SEVERITY_RADIUS
+from .grid import Chunk, settings
 from .spec import Study
 
 __all__ = ["BASELINE_DIMS", "GUIDED_DIMS", "assemble"]

@@ -5,7 +5,7 @@ Layout of an output folder::
     manifest.json     study name, digest (SHA-256 of the study text), package version,
                       and each finished chunk's compute seconds
     chunks/*.npz      one file per finished chunk (written to a temporary name, then renamed)
-    grid.nc           the assembled grid (see :mod:`workbench.gridfile`)
+    grid.nc           the assembled grid (see :mod:`workbench.study.gridfile`)
 
 Running again resumes: chunks already on disk are skipped. A folder holding another study's
 chunks is refused unless ``fresh`` is set, which clears it first. Parallel work goes through

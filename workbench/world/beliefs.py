@@ -11,7 +11,7 @@ coordinate ``u`` in ``[0, 1]``; joint beliefs live on ``[0, 1]^d``. Both offer
   spread multiplied by ``f``; the distortions are built from these two.
 
 Marginals also offer ``cdf`` and ``ppf`` for intervals. Densities in user units follow from the
-encoding in :mod:`workbench.space`: a Gaussian on a log-scale parameter's coordinate is a
+encoding in :mod:`workbench.world.space`: a Gaussian on a log-scale parameter's coordinate is a
 log-normal in the user's units; a discrete parameter's belief is piecewise constant over its bins.
 """
 

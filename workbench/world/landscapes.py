@@ -34,7 +34,7 @@ from ..validation import InputError, check_choice, check_number, raw
 __all__ = ["MAX_DIM", "Landscape", "Placement", "catalogue", "get"]
 
 # Generic landscapes take any dimension up to this; beyond it the fixed Sobol sets used by a
-# placement (1024 points) no longer say much about the landscape.
+# placement (``_REFERENCE_POINTS``) no longer say much about the landscape.
 MAX_DIM = 20
 
 _VLSE = "Surjanovic & Bingham (2013), Virtual Library of Simulation Experiments"
@@ -483,7 +483,7 @@ class Placement:
 
     def __getstate__(self) -> dict[str, Any]:
         # Placements travel to worker processes: keep the small derived results (minimum,
-        # reference, worst, decoy), drop the 1024-point reference set, cheap to recompute.
+        # reference, worst, decoy), drop the reference set, cheap to recompute.
         state = dict(self.__dict__)
         state.pop("_reference_set", None)
         return state
@@ -600,7 +600,7 @@ class Placement:
 
     @cached_property
     def reference(self) -> float:
-        """Median of the values over the fixed 1024-point scrambled Sobol set (seed 0)."""
+        """Median of the values over the fixed scrambled Sobol set ``_REFERENCE_POINTS``."""
         return float(np.median(self._reference_set[1]))
 
     @property
@@ -639,8 +639,9 @@ class Placement:
     def worst(self) -> tuple[np.ndarray, float]:
         """The worst point of the cube and its value, by a stated search.
 
-        The maximum over a fixed 4096-point scrambled Sobol set (seed 1), then L-BFGS-B
-        maximisation within the cube from the 4 highest of those points; the highest found.
+        The maximum over the fixed scrambled Sobol set ``_WORST_POINTS``, then L-BFGS-B
+        maximisation within the cube from the ``_WORST_STARTS`` highest of those points; the
+        highest found.
         """
         u, value = self._worst
         return u.copy(), value
@@ -661,10 +662,10 @@ class Placement:
     def decoy(self) -> tuple[np.ndarray, float]:
         """A decoy: the lowest local minimum apart from the global ones, and its value.
 
-        L-BFGS-B minimisations within the cube from 64 fixed scrambled Sobol starts (seed 2);
-        end points closer than 0.05 are merged (the lower kept); those within 0.1 of a global
-        minimiser (Euclidean, cube units), or within 1e-3 * gap of the minimum, are dropped; the
-        lowest remaining is the decoy.
+        L-BFGS-B minimisations within the cube from the fixed scrambled Sobol starts
+        ``_DECOY_POINTS``; end points closer than ``_DECOY_MERGE`` are merged (the lower kept);
+        those within ``_DECOY_APART`` of a global minimiser (Euclidean, cube units), or within
+        ``_DECOY_ABOVE`` · gap of the minimum, are dropped; the lowest remaining is the decoy.
 
         Raises
         ------

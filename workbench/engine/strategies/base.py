@@ -3,12 +3,13 @@
 A strategy proposes the next evaluation from a :class:`Step`. Model-based strategies only
 define a score over candidate points (higher is better); :func:`maximise` finds its best point:
 
-1. candidates: 256 Sobol points (one fixed set per dimension, randomly rotated each step),
-   64 draws from the belief, and 32 Gaussian perturbations (sd 0.05 of the range) around each
-   of the 3 best observations: 416 points, discrete coordinates snapped to their bins;
-2. the 2 best candidates are polished together by one L-BFGS-B run (at most 15 iterations
-   and 15 evaluations)
-   with a forward-difference gradient computed in a single batched call;
+1. candidates: ``SOBOL_CANDIDATES`` Sobol points (one fixed scrambled set per dimension,
+   randomly rotated each step), ``BELIEF_CANDIDATES`` draws from the belief, and
+   ``LOCAL_CANDIDATES`` Gaussian perturbations (sd ``LOCAL_SD`` of the range) around each of
+   the ``INCUMBENTS`` best observations, discrete coordinates snapped to their bins;
+2. the ``POLISHES`` best candidates are polished together by one L-BFGS-B run (at most
+   ``POLISH_ITERATIONS`` iterations and as many evaluations), with a forward-difference
+   gradient computed in a single batched call, keeping the best point it saw;
 3. the best point that does not repeat an observation is proposed (a uniform draw if every
    candidate repeats one).
 """
@@ -47,7 +48,7 @@ class Step:
     """What a strategy sees before proposing evaluation ``t + 1``.
 
     ``X`` are the evaluated cube points, ``y`` the values the model sees (failed evaluations
-    imputed, see :mod:`workbench.campaign`), ``weight`` is λ(t) with ``t = len(X)`` evaluations
+    imputed, see :mod:`workbench.engine.campaign`), ``weight`` is λ(t) with ``t = len(X)`` evaluations
     spent, ``model`` the fitted surrogate (None for model-free strategies).
     """
 

@@ -2,7 +2,7 @@
 
 score(x) = log EI(x) + λ(t) · log π(x), i.e. EI(x) · π(x)^λ(t) in log space; with λ(t) = β/t
 this is the prior-weighted acquisition of Hvarfner et al. (2022). log EI is computed stably
-(:func:`workbench.acquisition.log_expected_improvement`).
+(:func:`workbench.engine.acquisition.log_expected_improvement`).
 """
 
 from __future__ import annotations

@@ -138,14 +138,14 @@ def test_a_campaign_that_raises_keeps_the_finished_chunks_and_names_the_cell(
     study_file, tmp_path, monkeypatch
 ):
     study = load(study_file)
-    original = grid.Cell.run
+    original = grid.run_setting
 
-    def failing(self, setting):
-        if self.distortion == 1 and self.replicate == 1 and setting.strategy == "prior-weighted":
+    def failing(cell, setting):
+        if cell.distortion == 1 and cell.replicate == 1 and setting.strategy == "prior-weighted":
             raise RuntimeError("landscape server down")
-        return original(self, setting)
+        return original(cell, setting)
 
-    monkeypatch.setattr(grid.Cell, "run", failing)
+    monkeypatch.setattr(grid, "run_setting", failing)
     with pytest.raises(grid.CampaignError) as err:
         run_study(study, tmp_path / "out", jobs=1)
     message = str(err.value)

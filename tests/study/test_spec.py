@@ -5,7 +5,8 @@ import pytest
 from helpers import make_study
 
 from workbench.cli import main
-from workbench.study.grid import Cell, chunks
+from workbench.study.cells import Cell
+from workbench.study.grid import chunks
 from workbench.study.spec import load
 from workbench.validation import InputError
 from workbench.world.beliefs import Discrete, Mixture, Product, TruncatedGaussian

@@ -43,7 +43,7 @@ quantile = [0.1, 0.5]
 [strategy.prior-weighted]
 decay = ["hyperbolic:2", "hyperbolic:8"]
 """
-# The grid file's layout (workbench.gridfile), each series over evaluations.
+# The grid file's layout (workbench.study.gridfile), each series over evaluations.
 GUIDED_DIMS = (*gridfile.GUIDED_DIMS, "evaluation")
 BASE_DIMS = (*gridfile.BASELINE_DIMS, "evaluation")
 

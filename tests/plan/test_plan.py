@@ -17,7 +17,7 @@ from workbench.study.runner import run_study
 from workbench.study.spec import load, parse_text
 from workbench.validation import InputError
 
-DEMO = Path(__file__).resolve().parents[1] / "studies" / "demo.toml"
+DEMO = Path(__file__).resolve().parents[2] / "studies" / "demo.toml"
 
 TINY = """
 title = "Tiny <script>alert('x')</script> & co"

@@ -1,0 +1,235 @@
+"""The plan's options and its pilot: a few replicates of every cell, run for real through
+:func:`workbench.study.runner.execute`, timed and kept for the sample sizes.
+"""
+
+from __future__ import annotations
+
+import io
+import os
+import time
+from dataclasses import dataclass, replace
+
+import numpy as np
+
+from ..analysis.metrics import evaluations_to_target
+from ..study.grid import BELIEF_FREE, TRACE_ARRAYS, Chunk, Setting, chunks, settings
+from ..study.spec import Study
+from ..validation import check_number
+
+WHERE = "command line"
+# Resampled studies per candidate replicate count in the power search.
+RESAMPLES = 1000
+# The per-setting arrays of a chunk (the rest are one value per chunk), as run_chunk stacks them.
+_PER_CAMPAIGN = (*TRACE_ARRAYS, "user_points")
+
+
+@dataclass(frozen=True)
+class PlanOptions:
+    """What the plan aims for; every value is checked with the one validation helper.
+
+    ``half_width`` of the recovery interval, ``power`` to tell apart two settings whose
+    evaluations to target differ by ``difference`` evaluations, at ``confidence`` (the test's
+    level is 1 − confidence); ``pilot_replicates`` per pilot cell; ``cap`` on the replicates;
+    ``workers`` Dask workers for the cluster estimate; ``jobs`` local workers (None: all cores).
+    """
+
+    half_width: float = 0.1
+    power: float = 0.8
+    difference: float = 5.0
+    confidence: float = 0.95
+    pilot_replicates: int = 4
+    cap: int = 64
+    workers: int = 4
+    jobs: int | None = None
+    resamples: int = RESAMPLES
+
+    def __post_init__(self):
+        check_number(self.half_width, "--half-width", low=0, high=0.5, closed="right", where=WHERE)
+        check_number(self.power, "--power", low=0, high=1, closed="neither", where=WHERE)
+        check_number(self.difference, "--difference", low=0, closed="right", where=WHERE)
+        check_number(self.confidence, "--confidence", low=0, high=1, closed="neither", where=WHERE)
+        check_number(self.pilot_replicates, "--pilot-replicates", low=2, integer=True, where=WHERE)
+        check_number(self.cap, "--cap", low=1, integer=True, where=WHERE)
+        check_number(self.workers, "--workers", low=1, integer=True, where=WHERE)
+        if self.jobs is not None:
+            check_number(self.jobs, "--jobs", low=1, integer=True, where=WHERE)
+        check_number(self.resamples, "resamples", low=10, integer=True, where=WHERE)
+
+    @classmethod
+    def from_text(cls, **values: str | None) -> PlanOptions:
+        """Options from command-line text: numbers are read here, checked in ``__init__``
+        (text that is no number is passed on as is, so the message names it)."""
+        return cls(**{k: _number(v) for k, v in values.items() if v is not None})
+
+    def check(self, study: Study) -> None:
+        """The checks that need the study: a difference the budget can show."""
+        check_number(
+            self.difference,
+            "--difference",
+            low=0,
+            high=study.budget - 1,
+            closed="right",
+            where=WHERE,
+        )
+
+    @property
+    def alpha(self) -> float:
+        return 1 - self.confidence
+
+
+def _number(text):
+    if not isinstance(text, str):
+        return text
+    for kind in (int, float):
+        try:
+            return kind(text)
+        except ValueError:
+            continue
+    return text
+
+
+def parallel_processes(jobs: int | None, cores: int | None = None) -> int:
+    """Processes that run at once: the jobs asked for, at most the cores."""
+    cores = cores or os.cpu_count() or 1
+    return max(1, min(jobs or cores, cores))
+
+
+# --------------------------------------------------------------------------- the pilot
+
+
+@dataclass(frozen=True)
+class PilotDesign:
+    """The pilot's subset: every landscape × every distortion × replicates 0 … k − 1, at the
+    first, middle and last belief-guided settings (and the first of any strategy they miss)
+    plus every baseline, so that every strategy of the study is timed."""
+
+    replicates: int
+    guided: tuple[Setting, ...]
+    baselines: tuple[Setting, ...]
+
+    @property
+    def settings(self) -> tuple[Setting, ...]:
+        return self.guided + self.baselines
+
+    def describe(self, study: Study) -> str:
+        n_l, n_d = len(study.landscapes), len(study.distortions)
+        guided = "; ".join(s.label for s in self.guided) or "none"
+        base = ", ".join(s.strategy for s in self.baselines) or "none"
+        return (
+            f"every landscape × every distortion ({n_l} × {n_d} cells), replicates 0 to "
+            f"{self.replicates - 1} ({self.replicates} per cell), at the first, middle and last "
+            f"belief-guided settings of the study ({guided}) and every baseline ({base})"
+        )
+
+
+def pilot_design(study: Study, replicates: int) -> PilotDesign:
+    """The pilot's settings (see :class:`PilotDesign`)."""
+    guided, baseline = settings(study)
+    picks = sorted({0, len(guided) // 2, len(guided) - 1}) if guided else []
+    chosen = [guided[i] for i in picks]
+    for s in guided:
+        if all(c.strategy != s.strategy for c in chosen):
+            chosen.append(s)
+    return PilotDesign(replicates, tuple(chosen), tuple(baseline))
+
+
+def pilot_chunks(study: Study, design: PilotDesign) -> tuple[Study, list[Chunk]]:
+    """The pilot as a study with fewer replicates, and its chunks with the pilot's settings
+    only. Seeds are the study's own: the pilot's campaigns are the study's first replicates."""
+    pilot = replace(study, replicates=design.replicates)
+    keep = {s.label for s in design.settings}
+    out = []
+    for c in chunks(pilot):
+        picked = tuple(s for s in c.settings if s.label in keep)
+        if picked:
+            out.append(Chunk(c.landscape, c.distortion, c.replicate, picked))
+    return pilot, out
+
+
+@dataclass(frozen=True, eq=False)
+class Pilot:
+    """What the pilot measured, over (setting, landscape, distortion, replicate).
+
+    ``evaluations`` to target (censored at the budget) and ``reached``: the belief-free
+    baselines run in the exact distortion only and are repeated across distortions, as in the
+    grid. ``seconds`` per campaign (NaN where a campaign did not run); ``overhead`` per chunk
+    (its seconds beyond its campaigns') over (landscape, distortion, replicate); ``wall`` the
+    pilot's wall time on ``jobs`` processes; ``campaign_bytes`` per campaign in a chunk file,
+    per landscape, and ``chunk_bytes`` the rest of a chunk file.
+    """
+
+    design: PilotDesign
+    evaluations: np.ndarray
+    reached: np.ndarray
+    seconds: np.ndarray
+    overhead: np.ndarray
+    wall: float
+    jobs: int
+    campaign_bytes: np.ndarray
+    chunk_bytes: float
+
+    @property
+    def campaigns(self) -> int:
+        return int(np.isfinite(self.seconds).sum())
+
+    @property
+    def cpu(self) -> float:
+        return float(np.nansum(self.seconds) + np.nansum(self.overhead))
+
+
+def run_pilot(study: Study, options: PlanOptions) -> Pilot:
+    """Run the pilot for real (through the runner's process pool) and time it."""
+    from ..study.runner import execute
+
+    options.check(study)
+    design = pilot_design(study, options.pilot_replicates)
+    pilot, todo = pilot_chunks(study, design)
+    jobs = parallel_processes(options.jobs)
+    start = time.perf_counter()
+    results = [(c, arrays, seconds) for c, arrays, seconds in execute(pilot, todo, jobs=jobs)]
+    wall = time.perf_counter() - start
+    return _collect(study, design, results, wall, jobs)
+
+
+def _collect(study: Study, design: PilotDesign, results, wall: float, jobs: int) -> Pilot:
+    """The pilot's arrays from the runner's (chunk, arrays, seconds) results."""
+    labels = [s.label for s in design.settings]
+    shape = (len(labels), len(study.landscapes), len(study.distortions), design.replicates)
+    ett = np.full(shape, np.nan)
+    reached = np.zeros(shape, bool)
+    secs = np.full(shape, np.nan)
+    overhead = np.full(shape[1:], np.nan)
+    sizes: dict[int, list[float]] = {}
+    fixed = []
+    for chunk, arrays, seconds in results:
+        at = (chunk.landscape, chunk.distortion, chunk.replicate)
+        t, hit = evaluations_to_target(arrays["normalized_regret"], study.target)
+        spent = arrays["seconds"].sum(axis=-1)
+        for k, s in enumerate(chunk.settings):
+            i = labels.index(s.label)
+            ett[(i, *at)], reached[(i, *at)], secs[(i, *at)] = t[k], hit[k], spent[k]
+        overhead[at] = max(seconds - float(spent.sum()), 0.0)
+        total, payload = _npz_bytes(arrays)
+        m = len(chunk.settings)
+        sizes.setdefault(chunk.landscape, []).append(payload / m)
+        fixed.append(total - payload)
+    exact = next(i for i, d in enumerate(study.distortions) if d.is_exact)
+    for i, s in enumerate(design.settings):
+        if s.strategy in BELIEF_FREE:
+            ett[i] = ett[i, :, exact : exact + 1]
+            reached[i] = reached[i, :, exact : exact + 1]
+    per_landscape = np.array(
+        [np.mean(sizes.get(li, [np.nan])) for li in range(len(study.landscapes))]
+    )
+    return Pilot(
+        design, ett, reached, secs, overhead, wall, jobs, per_landscape, float(np.mean(fixed))
+    )
+
+
+def _npz_bytes(arrays: dict) -> tuple[int, int]:
+    """Bytes of the chunk file the runner would write (np.savez, in memory) and of its
+    per-campaign arrays."""
+    buffer = io.BytesIO()
+    np.savez(buffer, **arrays)
+    payload = sum(arrays[k].nbytes for k in _PER_CAMPAIGN if k in arrays)
+    return buffer.getbuffer().nbytes, payload

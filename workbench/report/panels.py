@@ -1,0 +1,163 @@
+"""The report's figures, drawn from the computed content (and, for the belief marginals, from
+the study's cells: no campaign runs).
+"""
+
+from __future__ import annotations
+
+import io
+import math
+
+import numpy as np
+
+from .. import analysis as an
+from .content import DPI, Content, pct
+
+
+def _png(fig) -> bytes:
+    import matplotlib.pyplot as plt
+
+    buffer = io.BytesIO()
+    fig.savefig(buffer, format="png", dpi=DPI)
+    plt.close(fig)
+    return buffer.getvalue()
+
+
+def _grid_axes(n: int, ncols: int, width: float, height: float, bottom: float = 0.0):
+    import matplotlib.pyplot as plt
+
+    ncols = max(1, min(ncols, n))
+    nrows = math.ceil(n / ncols)
+    fig, axes = plt.subplots(
+        nrows,
+        ncols,
+        figsize=(width * ncols, height * nrows + bottom),
+        squeeze=False,
+        layout="constrained",
+    )
+    flat = list(axes.ravel())
+    for ax in flat[n:]:
+        ax.set_visible(False)
+    return fig, flat[:n]
+
+
+def report_figures(c: Content) -> list[tuple[str, str, str, bytes]]:
+    """(file stem, title, caption, PNG bytes) of every figure."""
+    import matplotlib
+
+    matplotlib.use("Agg")
+    from . import figures as fg
+
+    out = []
+    metric_name, unit = an.METRIC_NAMES[c.rule.metric]
+    level = pct(c.rs.level)
+    roles = {c.rec.setting: "recommended"}
+    if c.rec.runner_up is not None:
+        roles[c.rec.runner_up["setting"]] = "runner-up"
+
+    if c.sensitivity is not None:
+        s = c.sensitivity
+        panels = [str(p) for p in s["panel"].values]
+        titles = {p: f"distortion: {p}" for p in panels[:-1]}
+        titles[panels[-1]] = f"under the rule ({c.rule.rule})"
+        fig, axes = _grid_axes(len(panels), 3, 5.0, 3.4, bottom=0.5)
+        fg.sensitivity_heatmap(axes, s, metric_name, titles)
+        title = f"Sensitivity of {metric_name} to decay and quantile"
+        fig.suptitle(f"{title} (pseudo-posterior)", fontsize="large")
+        out.append(
+            (
+                "sensitivity",
+                title,
+                f"Mean {metric_name} ({unit}; lower is better) of the pseudo-posterior strategy "
+                f"for each decay schedule and threshold quantile, one panel per distortion and "
+                f"one for the decision rule. Brackets: {level} bootstrap interval over "
+                f"replicates. The outlined cell is the lowest of its panel; hatched cells "
+                f"cannot be told apart from it (the paired {level} interval of their "
+                f"difference with it includes 0).",
+                _png(fig),
+            )
+        )
+
+    distortions = [str(d) for d in c.bands["distortion"].values]
+    fig, axes = _grid_axes(len(distortions), 2, 5.6, 3.8, bottom=0.9)
+    fg.regret_curves(axes, c.bands, roles, float(c.ds.attrs["target"]))
+    fig.suptitle("Regret curves", fontsize="large")
+    out.append(
+        (
+            "regret_curves",
+            "Regret curves",
+            f"Median normalized regret over landscapes and replicates after each evaluation, "
+            f"with the {level} bootstrap band, for the recommended setting, the runner-up and "
+            f"the baselines; one panel per distortion. The dotted line is the target.",
+            _png(fig),
+        )
+    )
+
+    if c.frontier is not None:
+        import matplotlib.pyplot as plt
+
+        fig, ax = plt.subplots(figsize=(8.5, 5.6), layout="constrained")
+        fg.robustness_frontier(ax, c.frontier, unit, roles)
+        ax.set_title("Robustness frontier", fontsize="large")
+        out.append(
+            (
+                "robustness_frontier",
+                "Robustness frontier",
+                f"Each belief-guided setting: what it saves against no belief when the belief "
+                f"is exact (x) and what it costs against no belief at its worst distortion (y), "
+                f"in {unit} of {metric_name}, with {level} paired bootstrap intervals. Filled "
+                f"and labelled: settings that no other setting beats on both axes.",
+                _png(fig),
+            )
+        )
+
+    marginals = _belief_figure(c)
+    if marginals is not None:
+        out.append(marginals)
+    return out
+
+
+def _belief_figure(c: Content):
+    from ..study.cells import Cell
+    from ..study.spec import parse_text
+    from . import figures as fg
+
+    study = parse_text(c.ds.attrs["study"])
+    landscapes = range(min(len(study.landscapes), 4))
+    dims = [Cell(study, li, 0, 0).space.dim for li in landscapes]
+    ncols = max(dims)
+    if ncols > 6:
+        return None
+    import matplotlib.pyplot as plt
+
+    fig, axes = plt.subplots(
+        len(dims),
+        ncols,
+        figsize=(4.2 * ncols, 3.3 * len(dims) + 0.3),
+        squeeze=False,
+        layout="constrained",
+    )
+    for row, li in enumerate(landscapes):
+        cells = [Cell(study, li, d, 0) for d in range(len(study.distortions))]
+        beliefs = {"exact": cells[0].exact_belief}
+        for cell in cells:
+            name = study.distortions[cell.distortion].name
+            if name != "exact":
+                beliefs[name] = cell.belief
+        fg.belief_marginals(
+            list(axes[row][: dims[row]]),
+            cells[0].space,
+            beliefs,
+            optimum=np.asarray(cells[0].placement.minimisers[0]),
+        )
+        for ax in axes[row][dims[row] :]:
+            ax.set_visible(False)
+        axes[row][0].set_title(f"landscape {study.landscapes[li].label}", loc="left")
+    fig.suptitle("Belief marginals", fontsize="large")
+    return (
+        "belief_marginals",
+        "Belief marginals",
+        "The belief as written (exact) and as distorted, marginal by marginal, in the units of "
+        "each parameter, for replicate 0 of each landscape (shift directions are drawn per "
+        "replicate); the vertical line marks the landscape's optimum.",
+        _png(fig),
+    )

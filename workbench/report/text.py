@@ -1,0 +1,325 @@
+"""The report's words and table rows: the answer, the risk paragraph, the method, the cautions."""
+
+from __future__ import annotations
+
+import json
+
+import numpy as np
+import xarray as xr
+
+from .. import analysis as an
+from .content import (
+    DECAY_TEXT,
+    STRATEGY_TEXT,
+    Content,
+    Group,
+    beyond_budget,
+    cell,
+    num,
+    pct,
+    span,
+)
+
+
+def _value(data: xr.Dataset, setting: str, distortion: str) -> tuple[float, float, float]:
+    one = data.sel(setting=setting, distortion=distortion)
+    return float(one["estimate"]), float(one["low"]), float(one["high"])
+
+
+def choice_words(choice: dict, ds: xr.Dataset) -> str:
+    parts = [f"strategy {choice['strategy']}", f"decay schedule {choice['decay']}"]
+    if choice.get("quantile") is not None:
+        parts.append(f"threshold quantile γ = {choice['quantile']:g}")
+    for k in ("exploration", "initial"):
+        if ds.sizes[k] > 1:
+            parts.append(f"{k} {choice[k]}")
+    return ", ".join(parts)
+
+
+def risk_paragraph(c: Content) -> str:
+    """What the recommended setting costs at each distortion against no belief, and where the
+    belief stops paying for itself."""
+    if c.cost is None:
+        return (
+            "The grid has no no-belief baseline, so the cost of a misleading belief against "
+            "using no belief cannot be stated."
+        )
+    s = c.rec.setting
+    names = [str(d) for d in c.ds["distortion"].values]
+    base = float(c.ett["estimate"].sel(setting=an.NO_BELIEF).mean())
+    level = pct(c.rs.level)
+    parts = []
+    for d in names:
+        v, lo, hi = _value(c.cost, s, d)
+        if hi < 0:
+            word = f"saves {num(-v)} evaluations ({span(-hi, -lo)})"
+        elif lo > 0:
+            word = f"costs {num(v)} more ({span(lo, hi)})"
+        else:
+            word = f"costs about the same ({num(v)}, {span(lo, hi)})"
+        parts.append(f"{word} when the belief is {d}")
+    text = (
+        f"Against no belief, which needs {num(base)} evaluations to reach the target on average "
+        f"(mean restricted to the budget of {c.ds.attrs['budget']}), the recommended setting "
+        + "; ".join(parts)
+        + f" ({level} intervals, paired by replicate)."
+    )
+    order = sorted(names, key=lambda d: float(c.distance.sel(distortion=d)))
+    losing = [d for d in order if _value(c.cost, s, d)[0] > 0]
+    if losing:
+        d = losing[0]
+        text += (
+            f" Ordered by how far the belief's centre sits from the optimum, the belief stops "
+            f"paying for itself at '{d}' (centre {num(float(c.distance.sel(distortion=d)), 2)} "
+            f"of the range away on average, {pct(float(c.mass.sel(distortion=d)))} of its mass "
+            f"within 0.1 of the optimum): there it costs more than using no belief at all."
+        )
+        kept = [x for x in order if order.index(x) < order.index(d)]
+        if kept:
+            far = kept[-1]
+            text += (
+                f" It still pays at '{far}' (centre "
+                f"{num(float(c.distance.sel(distortion=far)), 2)} of the range away)."
+            )
+    else:
+        worst = max(names, key=lambda d: _value(c.cost, s, d)[0])
+        text += (
+            f" In none of the simulated distortions did it cost more than no belief; at the "
+            f"least favourable, '{worst}', it still saved {num(-_value(c.cost, s, worst)[0])}."
+        )
+    return text
+
+
+def answer_rows(c: Content) -> list[tuple[str, str]]:
+    r = c.rec
+    metric_name, unit = an.METRIC_NAMES[c.rule.metric]
+    level = pct(c.rs.level)
+    rows = [
+        ("rule", c.rule.describe()),
+        (
+            metric_name,
+            f"{num(r.value)} {unit} ({level} interval {span(*r.interval)})",
+        ),
+    ]
+    if r.runner_up is not None:
+        ru = r.runner_up
+        rows.append(
+            (
+                "runner-up",
+                f"{ru['setting']}: {num(ru['value'])} ({span(*ru['interval'])})",
+            )
+        )
+    rows.append(
+        (
+            "stability",
+            f"{pct(r.stability)} of {c.rs.draws} bootstrap resamples of the replicates pick the "
+            f"same setting",
+        )
+    )
+    if r.leave_one_landscape_out:
+        items = [
+            f"without {name}: {'the same' if choice == r.setting else choice}"
+            for name, choice in r.leave_one_landscape_out.items()
+        ]
+        rows.append(("leave one landscape out", "; ".join(items)))
+    pp = c.pseudo_posterior
+    if pp is not None and pp.setting != r.setting:
+        rows.append(
+            (
+                "best pseudo-posterior",
+                f"{choice_words(pp.choice, c.ds)}: {num(pp.value)} {unit} "
+                f"({level} interval {span(*pp.interval)}; stability {pct(pp.stability)})",
+            )
+        )
+    return rows
+
+
+SUMMARY_HEAD = [
+    "setting",
+    "evaluations to target, mean",
+    "evaluations to target, median",
+    "recovery",
+    "speedup",
+    "belief cost [evaluations]",
+    "evaluations to beat the belief's mode",
+    "share that beat it",
+]
+
+
+def summary_rows(c: Content) -> list:
+    km = beyond_budget(int(c.ds.attrs["budget"]))
+    out = []
+    for d in [str(x) for x in c.ds["distortion"].values]:
+        out.append(Group(f"distortion: {d}"))
+        for s in c.shown:
+            rec = c.recovery.sel(setting=s, distortion=d)
+            row = [
+                s,
+                cell(*_value(c.ett, s, d)),
+                cell(*_value(c.km, s, d), fmt=km),
+                cell(rec["probability"], rec["low"], rec["high"], fmt=pct),
+            ]
+            if c.speedup is not None and s != an.NO_BELIEF:
+                row += [
+                    cell(*_value(c.speedup, s, d)),
+                    cell(*_value(c.cost, s, d)),
+                ]
+            else:
+                row += ["–", "–"]
+            row.append(cell(*_value(c.beat, s, d)))
+            row.append(pct(float(c.beat_share.sel(setting=s, distortion=d))))
+            out.append(row)
+    return out
+
+
+def regret_rows(c: Content) -> tuple[list[str], list]:
+    budgets = [int(b) for b in c.regret_at["budget"].values]
+    head = ["setting", *(f"after {b} evaluations" for b in budgets)]
+    rows = []
+    for d in [str(x) for x in c.ds["distortion"].values]:
+        rows.append(Group(f"distortion: {d}"))
+        for s in c.shown:
+            one = c.regret_at.sel(setting=s, distortion=d)
+            rows.append(
+                [s]
+                + [
+                    cell(*(float(one[k].sel(budget=b)) for k in ("estimate", "low", "high")))
+                    for b in budgets
+                ]
+            )
+    return head, rows
+
+
+def ranking_rows(c: Content) -> tuple[list[str], list]:
+    names = [str(d) for d in c.ds["distortion"].values]
+    scores = c.rec.scores
+    order = np.argsort(scores["estimate"].values, kind="stable")
+    head = ["rank", "setting", f"score ({c.rule.rule})", *names]
+    rows = []
+    for rank, i in enumerate(order, 1):
+        s = str(scores["setting"].values[i])
+        row = [
+            str(rank),
+            s,
+            cell(*(float(scores[k][i]) for k in ("estimate", "low", "high"))),
+        ]
+        row += [cell(*_value(c.decision, s, d)) for d in names]
+        rows.append(row)
+    return head, rows
+
+
+def effects_rows(c: Content) -> tuple[list, str]:
+    e = c.effects
+    order = np.argsort(-e["share"].values, kind="stable")
+    rows = []
+    for i in order:
+        rows.append(
+            [
+                str(e["source"].values[i]),
+                f"{float(e['sum_of_squares'][i]):.4g}",
+                cell(e["share"][i], e["low"][i], e["high"][i], fmt=lambda v: f"{100 * v:.1f} %"),
+            ]
+        )
+    factors = json.loads(e.attrs["factors"])
+    chosen = [f for f in factors if f in an.SETTING_FACTORS]
+    if chosen:
+        top = max(chosen, key=lambda f: float(e["share"].sel(source=f)))
+        words = (
+            f"Of the settings, {top} matters most: its main effect holds "
+            f"{100 * float(e['share'].sel(source=top)):.1f} % of the variation."
+        )
+        biggest = max(factors, key=lambda f: float(e["share"].sel(source=f)))
+        if biggest not in chosen:
+            words += (
+                f" The largest single source is {biggest} "
+                f"({100 * float(e['share'].sel(source=biggest)):.1f} %), a property of the "
+                f"situation rather than a setting one can choose."
+            )
+    else:
+        words = "No setting varies in this grid."
+    dropped = json.loads(e.attrs["dropped"])
+    if dropped:
+        words += " Left out to keep the decomposition balanced: " + ", ".join(dropped) + "."
+    return rows, words
+
+
+def strategy_paragraphs(c: Content) -> list[str]:
+    names = [str(s) for s in c.ds["strategy"].values] + [str(b) for b in c.ds["baseline"].values]
+    return [f"{s}: {STRATEGY_TEXT.get(s, 'a strategy of the workbench')}" for s in names]
+
+
+def method_paragraphs(c: Content) -> list[str]:
+    ds = c.ds
+    decays = [str(d) for d in ds["decay"].values]
+    families = sorted({d.partition(":")[0] for d in decays})
+    return [
+        "Decay schedules λ(t) of the belief's weight, t the evaluations spent: "
+        + ", ".join(decays)
+        + " ("
+        + "; ".join(f"{f}: {DECAY_TEXT.get(f, '')}" for f in families)
+        + ").",
+        (
+            f"Each grid cell ran {ds.sizes['replicate']} replicates of {ds.attrs['budget']} "
+            f"evaluations on each of {ds.sizes['landscape']} test landscape(s) "
+            f"({', '.join(str(x) for x in ds['landscape'].values)}). Replicate k of every "
+            f"setting, baseline and distortion shares the landscape's placement and its random "
+            f"streams (common random numbers), so that settings are compared on the same draws: "
+            f"every difference in this report is paired by replicate."
+        ),
+        (
+            "Normalized regret is the best value found so far minus the landscape's optimum, "
+            "divided by the gap between the median value over the space and the optimum. "
+            f"Evaluations to target count evaluations until normalized regret first falls to "
+            f"{ds.attrs['target']:g}; a campaign that never gets there is censored at the budget, "
+            f"so the mean shown is restricted to the budget and the median is the Kaplan–Meier "
+            f"estimate ('> budget' when fewer than half reach the target). Recovery is the share "
+            f"of campaigns that reached the target, with Wilson score intervals. Speedup is "
+            f"evaluations to target without a belief divided by those with it, per replicate "
+            f"(geometric mean); belief cost is their difference (negative: a saving)."
+        ),
+        (
+            f"Intervals are {pct(c.rs.level)} percentile bootstrap intervals over replicates: "
+            f"{c.rs.draws} draws with a fixed seed ({c.rs.seed}), each resampling the replicate "
+            f"index once and applying it to every setting and baseline alike. The recommendation "
+            f"averages the {an.METRIC_NAMES[c.rule.metric][0]} over landscapes and replicates "
+            f"in each distortion and combines the distortions by the rule: {c.rule.describe()}."
+        ),
+    ]
+
+
+CAUTIONS = [
+    "This is a simulation on cheap test landscapes placed where the belief says the optimum "
+    "is; it is not the real system. The real response can be rougher, noisier or shaped "
+    "differently, and the numbers here only rank settings under the stated assumptions.",
+    "The real process's safety limits come first: keep every real evaluation inside the limits "
+    "that the process, its equipment and its materials allow, whatever a strategy proposes.",
+    "Where the tuned system can hurt someone, defer to local codes and to licensed practice; "
+    "a recommendation from this workbench replaces neither.",
+]
+
+
+def distortion_rows(c: Content) -> list:
+    ds = c.ds
+    rows = []
+    for i, d in enumerate(str(x) for x in ds["distortion"].values):
+        rows.append(
+            [
+                d,
+                num(float(ds["distortion_shift"].values[i])),
+                num(float(ds["distortion_scale"].values[i])),
+                str(ds["distortion_misplace"].values[i]) or "–",
+                num(float(c.distance.sel(distortion=d)), 2),
+                pct(float(c.mass.sel(distortion=d))),
+            ]
+        )
+    return rows
+
+
+DISTORTION_HEAD = [
+    "distortion",
+    "shift [fraction of range]",
+    "spread multiplied by",
+    "centre put on",
+    "distance of centre from optimum",
+    "belief mass within 0.1 of it",
+]

@@ -1,0 +1,116 @@
+"""A grid cell's world: its space, landscape placement, exact and distorted belief, severity
+and the value at the belief's mode, from the study alone. Pure and engine-free: the report
+draws the beliefs from here without running a campaign.
+
+Seeding (common random numbers). Every cell's streams derive from the study's root seed:
+
+- the landscape placement from (root, landscape, "placement", replicate), shared by every
+  distortion and setting of that replicate;
+- the distortion direction, initial design, strategy and noise streams from
+  (root, landscape, distortion, replicate), shared by every strategy setting.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from functools import cached_property
+
+import numpy as np
+
+from ..seeding import campaign_streams, derive, generator
+from ..world import landscapes as ls
+from ..world.beliefs import gaussian_at
+from ..world.distortions import severity
+from ..world.space import Continuous, Space
+from .spec import LandscapeEntry, Study
+
+__all__ = ["PLACEMENT_MARGIN", "SEVERITY_RADIUS", "Cell"]
+
+# Random placement keeps the minimiser this far from the cube's faces.
+PLACEMENT_MARGIN = 0.1
+# Severity: the belief's mass within this radius (cube units) of the nearest global minimiser.
+SEVERITY_RADIUS = 0.1
+
+
+@dataclass(frozen=True)
+class Cell:
+    """The context one chunk shares: a landscape, a distortion and a replicate."""
+
+    study: Study
+    landscape: int
+    distortion: int
+    replicate: int
+
+    @property
+    def entry(self) -> LandscapeEntry:
+        return self.study.landscapes[self.landscape]
+
+    @property
+    def label(self) -> str:
+        name = self.study.distortions[self.distortion].name
+        return f"landscape {self.entry.label}, distortion {name}, replicate {self.replicate}"
+
+    @cached_property
+    def _streams(self):
+        s = self.study
+        name = s.distortions[self.distortion].name
+        return derive(s.seed, self.entry.label, name, self.replicate)
+
+    def streams(self, exact: bool = False) -> dict[str, np.random.Generator]:
+        """Fresh named streams of this cell (of its exact-distortion sibling if ``exact``)."""
+        if exact:
+            return campaign_streams(
+                derive(self.study.seed, self.entry.label, "exact", self.replicate)
+            )
+        return campaign_streams(self._streams)
+
+    @cached_property
+    def space(self) -> Space:
+        if self.study.space is not None:
+            return self.study.space
+        land = ls.get(self.entry.name, self.entry.dim)
+        return Space(
+            tuple(
+                Continuous(f"x{j + 1}", lo, hi)
+                for j, (lo, hi) in enumerate(zip(land.lower, land.upper, strict=True))
+            )
+        )
+
+    @cached_property
+    def placement(self):
+        s, land = self.study, ls.get(self.entry.name, self.entry.dim)
+        if s.space is not None:
+            # The user's belief stays put; the truth is placed at its mode.
+            at = self.space.snap(np.atleast_2d(np.asarray(s.belief.mode(), dtype=float)))[0]
+            return land.placed(at=np.clip(at, 0.0, 1.0))
+        if s.placement == "native":
+            return land.placed()
+        rng = generator(derive(s.seed, self.entry.label, "placement", self.replicate))
+        return land.placed(at=rng.uniform(PLACEMENT_MARGIN, 1 - PLACEMENT_MARGIN, land.dim))
+
+    @cached_property
+    def exact_belief(self):
+        if self.study.space is not None:
+            return self.study.belief
+        at = self.placement.at if self.placement.at is not None else self.placement.minimisers[0]
+        return gaussian_at(np.asarray(at), self.study.spread)
+
+    @cached_property
+    def belief(self):
+        """The distorted belief (its direction drawn from this cell's distortion stream)."""
+        d = self.study.distortions[self.distortion]
+        return d.apply(self.exact_belief, self.placement, self.streams()["distortion"])
+
+    @cached_property
+    def severity(self):
+        return severity(self.belief, self.placement, radius=SEVERITY_RADIUS)
+
+    @cached_property
+    def mode_value(self) -> float:
+        """The landscape's value at the distorted belief's mode: the expert's best guess."""
+        mode = np.atleast_2d(np.asarray(self.belief.mode(), dtype=float))
+        return float(self.placement.value(self.space.snap(mode))[0])
+
+    @property
+    def noise_sd(self) -> float:
+        return self.entry.noise * self.placement.gap
