@@ -4,7 +4,7 @@ VENV := .venv
 BIN := $(VENV)/bin
 STAMP := $(VENV)/.installed
 
-.PHONY: demo test lint format bench clean chromium
+.PHONY: demo test lint format bench readme clean chromium
 
 $(STAMP): pyproject.toml
 	$(PYTHON) -m venv $(VENV)
@@ -16,8 +16,8 @@ demo: $(STAMP)
 	$(BIN)/workbench demo
 
 lint: $(STAMP)
-	$(BIN)/ruff check workbench tests benchmarks
-	$(BIN)/ruff format --check workbench tests benchmarks
+	$(BIN)/ruff check workbench tests benchmarks docs
+	$(BIN)/ruff format --check workbench tests benchmarks docs
 
 test: lint chromium
 	$(BIN)/python -m pytest -q
@@ -30,11 +30,15 @@ chromium:
 	} || echo "chromium could not be installed: the report rendering test will be skipped"
 
 format: $(STAMP)
-	$(BIN)/ruff format workbench tests benchmarks
-	$(BIN)/ruff check --fix workbench tests benchmarks
+	$(BIN)/ruff format workbench tests benchmarks docs
+	$(BIN)/ruff check --fix workbench tests benchmarks docs
 
 bench: $(STAMP)
 	$(BIN)/python benchmarks/engine.py
+
+# Rerun the demo and rewrite the README's quoted output and figures (docs/readme.py).
+readme: $(STAMP)
+	$(BIN)/python docs/readme.py
 
 clean:
 	rm -rf $(VENV) .pytest_cache .ruff_cache

@@ -27,12 +27,6 @@ def _out_dir(args, study_name: str) -> Path:
     return Path(args.out) if args.out else Path("results") / study_name
 
 
-def _format_value(value) -> str:
-    if isinstance(value, float):
-        return f"{value:.4g}"
-    return str(value)
-
-
 # --------------------------------------------------------------------------- commands
 
 
@@ -53,6 +47,7 @@ def cmd_landscapes(args) -> int:
 
 
 def cmd_belief(args) -> int:
+    from .analysis.recommendation import short_number
     from .study import spec as study
     from .world import beliefs
 
@@ -69,13 +64,13 @@ def cmd_belief(args) -> int:
     print(f"{'parameter':<16} {'mode':>12}  {'central 50 %':>26}  {'central 90 %':>26}  truncated")
     for r in summary.parameters:
         unit = f" {r.unit}" if r.unit else ""
-        c50 = ", ".join(_format_value(v) for v in r.central50)
-        c90 = ", ".join(_format_value(v) for v in r.central90)
+        c50 = ", ".join(short_number(v) for v in r.central50)
+        c90 = ", ".join(short_number(v) for v in r.central90)
         print(
-            f"{r.name:<16} {_format_value(r.mode) + unit:>12}  {'[' + c50 + ']':>26}  "
+            f"{r.name:<16} {short_number(r.mode) + unit:>12}  {'[' + c50 + ']':>26}  "
             f"{'[' + c90 + ']':>26}  {r.truncated_mass:.1%}"
         )
-    mode = ", ".join(f"{k} = {_format_value(v)}" for k, v in summary.mode.items())
+    mode = ", ".join(f"{k} = {short_number(v)}" for k, v in summary.mode.items())
     print(f"joint mode: {mode}")
     print(f"share of the search volume holding 90 % of the belief: {summary.volume90:.1%}")
     print(f"mass lost to truncation at the bounds: {summary.truncated_mass:.2%}")
@@ -403,30 +398,7 @@ def _decision(args):
 
 
 def _print_recommendation(rec) -> None:
-    from .analysis import METRIC_NAMES
-
-    name, unit = METRIC_NAMES[rec.rule.metric]
-    level = f"{rec.resampling.level:.0%}"
-    print(f"recommendation: {rec.setting}")
-    print(f"  rule ({rec.rule.rule}): {rec.rule.describe()}")
-    print(
-        f"  {name}: {_format_value(rec.value)} {unit} "
-        f"({level} interval {_format_value(rec.interval[0])} to {_format_value(rec.interval[1])})"
-    )
-    if rec.runner_up is not None:
-        ru = rec.runner_up
-        lo, hi = ru["interval"]
-        print(
-            f"  runner-up: {ru['setting']}: {_format_value(ru['value'])} "
-            f"({_format_value(lo)} to {_format_value(hi)})"
-        )
-    print(
-        f"  stability: {rec.stability:.0%} of {rec.resampling.draws} bootstrap resamples of the "
-        f"replicates pick the same setting"
-    )
-    for landscape, choice in rec.leave_one_landscape_out.items():
-        same = "the same" if choice == rec.setting else choice
-        print(f"  without landscape {landscape}: {same}")
+    print("\n".join(rec.lines()))
 
 
 def cmd_recommend(args) -> int:

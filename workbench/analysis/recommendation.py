@@ -121,6 +121,13 @@ def score(values: xr.DataArray, rule: Rule) -> xr.DataArray:
 # --------------------------------------------------------------------------- recommendation
 
 
+def short_number(value) -> str:
+    """A number as the command line shows it: four significant digits."""
+    if isinstance(value, float):
+        return f"{value:.4g}"
+    return str(value)
+
+
 def _factors(values: xr.DataArray, label: str) -> dict:
     one = values.sel(setting=label)
     out = {"setting": label}
@@ -149,6 +156,35 @@ class Recommendation:
     @property
     def setting(self) -> str:
         return self.choice["setting"]
+
+    def lines(self) -> list[str]:
+        """The recommendation as the command line prints it, one line each: the setting, the
+        rule, the value with its interval, the runner-up, the stability, each landscape left
+        out."""
+        name, unit = METRIC_NAMES[self.rule.metric]
+        level = f"{self.resampling.level:.0%}"
+        lo, hi = self.interval
+        out = [
+            f"recommendation: {self.setting}",
+            f"  rule ({self.rule.rule}): {self.rule.describe()}",
+            f"  {name}: {short_number(self.value)} {unit} "
+            f"({level} interval {short_number(lo)} to {short_number(hi)})",
+        ]
+        if self.runner_up is not None:
+            ru = self.runner_up
+            lo, hi = ru["interval"]
+            out.append(
+                f"  runner-up: {ru['setting']}: {short_number(ru['value'])} "
+                f"({short_number(lo)} to {short_number(hi)})"
+            )
+        out.append(
+            f"  stability: {self.stability:.0%} of {self.resampling.draws} bootstrap resamples "
+            f"of the replicates pick the same setting"
+        )
+        for landscape, choice in self.leave_one_landscape_out.items():
+            same = "the same" if choice == self.setting else choice
+            out.append(f"  without landscape {landscape}: {same}")
+        return out
 
     def to_dict(self) -> dict:
         """Everything as plain JSON-ready values."""

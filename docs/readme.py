@@ -1,0 +1,121 @@
+"""Rewrite the README's quoted program output and its demo figures from the program itself.
+
+    python docs/readme.py            # run the demo into results/demo (resuming), then rewrite
+    python docs/readme.py --no-run   # rewrite from the results already in results/demo
+
+Each quoted block sits between ``<!-- begin: NAME -->`` and ``<!-- end: NAME -->`` in
+README.md; everything between the markers is replaced, nothing else is touched:
+
+- ``belief``: what ``workbench belief studies/demo.toml`` prints;
+- ``demo-output``: what ``workbench demo`` printed (its wall time is this machine's);
+- ``demo-summary``: the recommendation section of the report's ``summary.md``.
+
+The figures ``docs/figures/demo-*.png`` are the belief command's and the report's. The test
+``tests/test_readme.py`` fails when the quoted recommendation no longer matches the demo's grid.
+"""
+
+from __future__ import annotations
+
+import argparse
+import contextlib
+import io
+import re
+import shutil
+import sys
+import tempfile
+from pathlib import Path
+
+ROOT = Path(__file__).resolve().parents[1]
+README = ROOT / "README.md"
+DEMO = ROOT / "studies" / "demo.toml"
+FIGURES = {
+    "sensitivity.png": "demo-sensitivity.png",
+    "regret_curves.png": "demo-regret-curves.png",
+}
+
+
+# The lines of the demo's output that state the recommendation (``Recommendation.lines``).
+RECOMMENDATION = ("recommendation:", "  ")
+
+
+def block(text: str, name: str) -> str:
+    """The text between the markers of block ``name``."""
+    found = re.search(rf"<!-- begin: {name} -->\n(.*?)<!-- end: {name} -->", text, re.S)
+    if found is None:
+        raise SystemExit(f"README.md: no block '{name}' (<!-- begin: {name} --> … end)")
+    return found.group(1)
+
+
+def replace_block(text: str, name: str, body: str) -> str:
+    block(text, name)  # present, or a clear error
+    return re.sub(
+        rf"(<!-- begin: {name} -->\n).*?(<!-- end: {name} -->)",
+        lambda m: m.group(1) + body + m.group(2),
+        text,
+        flags=re.S,
+    )
+
+
+def fenced(lines: str) -> str:
+    return "```\n" + lines.rstrip("\n") + "\n```\n"
+
+
+def summary_section(summary: str) -> str:
+    """The '## Recommendation' section of summary.md, without its heading."""
+    found = re.search(r"## Recommendation\n\n(.*?)\n## ", summary, re.S)
+    if found is None:
+        raise SystemExit("summary.md: no '## Recommendation' section")
+    return found.group(1).strip("\n") + "\n"
+
+
+def _printed(argv: list[str]) -> str:
+    from workbench.cli import main
+
+    out = io.StringIO()
+    with contextlib.redirect_stdout(out):
+        code = main(argv)
+    if code != 0:
+        raise SystemExit(f"workbench {' '.join(argv)} exited with {code}")
+    return out.getvalue()
+
+
+def main(argv: list[str] | None = None) -> int:
+    parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    parser.add_argument("--no-run", action="store_true", help="use results/demo as it is")
+    parser.add_argument("--results", default=str(ROOT / "results" / "demo"))
+    args = parser.parse_args(argv)
+    results = Path(args.results)
+    text = README.read_text(encoding="utf-8")
+
+    with tempfile.TemporaryDirectory() as tmp:
+        belief = _printed(["belief", str(DEMO.relative_to(ROOT)), "--out", tmp])
+        shutil.copyfile(Path(tmp) / "belief.png", ROOT / "docs" / "figures" / "demo-belief.png")
+    belief = "\n".join(line for line in belief.splitlines() if not line.startswith("figure:"))
+    text = replace_block(text, "belief", fenced(belief))
+
+    if args.no_run:
+        # Keep the quoted wall times; the recommendation lines come from the grid.
+        from workbench import analysis as an
+
+        ds = an.open_grid(results)
+        lines = an.recommend(ds, an.decision_rule(ds), an.Resampling()).lines()
+        old = block(text, "demo-output").strip("`\n").splitlines()
+        demo = "\n".join(
+            [old[0], old[1], *lines, *(x for x in old[2:] if not x.startswith(RECOMMENDATION))]
+        )
+    else:
+        demo = _printed(["demo", "--out", str(results), "--fresh", "--quiet"])
+        demo = demo.replace(str(results), "results/demo")
+    text = replace_block(text, "demo-output", fenced(demo))
+    summary = (results / "summary.md").read_text(encoding="utf-8")
+    text = replace_block(text, "demo-summary", summary_section(summary))
+
+    for source, target in FIGURES.items():
+        shutil.copyfile(results / "figures" / source, ROOT / "docs" / "figures" / target)
+    README.write_text(text, encoding="utf-8")
+    print(f"rewrote {README.name} blocks and {len(FIGURES)} figures from {results}")
+    return 0
+
+
+if __name__ == "__main__":
+    sys.exit(main())
