@@ -291,6 +291,11 @@ def _run(study, out: Path, args) -> object:
             bar.close()
 
 
+def _warn(summary) -> None:
+    for line in summary.warnings():
+        print(f"warning: {line}", file=sys.stderr)
+
+
 def cmd_run(args) -> int:
     from .study.cost import duration
     from .study.spec import load
@@ -301,6 +306,7 @@ def cmd_run(args) -> int:
         f"{summary.campaigns} campaigns ({summary.resumed} already done) in "
         f"{duration(summary.seconds)}; grid: {summary.grid}"
     )
+    _warn(summary)
     return 0
 
 
@@ -320,6 +326,7 @@ def cmd_demo(args) -> int:
         f"demo: {summary.campaigns} campaigns ({summary.resumed} already done) in "
         f"{summary.seconds:.1f} s wall time; grid: {summary.grid}"
     )
+    _warn(summary)
     start = time.perf_counter()
     files, rec = write_report(out)
     print(f"report: {files.html} ({time.perf_counter() - start:.1f} s)")
@@ -402,14 +409,34 @@ def _print_recommendation(rec) -> None:
 
 
 def cmd_recommend(args) -> int:
-    from .analysis import recommend
+    from .analysis import landscape_kinds, recommend, transfer
+    from .analysis.recommendation import short_number
 
     ds, rule, resampling = _decision(args)
     rec = recommend(ds, rule, resampling, strategy=args.strategy)
+    kinds = set(landscape_kinds(ds))
+    by_kind = transfer(ds, rule, resampling) if len(kinds) > 1 and not args.strategy else None
     if args.json:
-        print(json.dumps(rec.to_dict(), indent=2, ensure_ascii=False))
+        out = rec.to_dict()
+        if by_kind is not None:
+            out["by_landscape_kind"] = json.loads(by_kind.to_dataframe().to_json(orient="index"))
+        print(json.dumps(out, indent=2, ensure_ascii=False))
         return 0
     _print_recommendation(rec)
+    if by_kind is not None:
+        print(
+            "by kind of landscape (setting chosen on that kind alone; cost of the textbook choice):"
+        )
+        for i, kind in enumerate(by_kind["kind"].values):
+            value = short_number(float(by_kind["value"][i]))
+            line = f"  {kind}: {by_kind['setting'].values[i]} ({value})"
+            if str(kind) != "textbook" and by_kind.attrs["textbook_setting"]:
+                lo, hi = float(by_kind["low"][i]), float(by_kind["high"][i])
+                line += (
+                    f"; textbook choice costs {short_number(float(by_kind['cost'][i]))} "
+                    f"({short_number(lo)} to {short_number(hi)})"
+                )
+            print(line)
     return 0
 
 

@@ -11,7 +11,8 @@ pipeline:
 - :mod:`.statistics`: Wilson, Kaplan–Meier, recovery and the paired bootstrap;
 - :mod:`.recommendation`: decision rules and the recommendation;
 - :mod:`.figure_data`: what the figures plot;
-- :mod:`.effects`: the effects table.
+- :mod:`.effects`: the effects table;
+- :mod:`.transfer`: whether the choice holds across kinds of landscapes.
 """
 
 from .dataset import METRIC_NAMES, METRICS, NO_BELIEF, RULES, SETTING_FACTORS, open_grid, series
@@ -38,6 +39,7 @@ from .statistics import (
     summarise,
     wilson_interval,
 )
+from .transfer import landscape_kinds, transfer
 
 __all__ = [
     "METRICS",
@@ -59,6 +61,7 @@ __all__ = [
     "frontier",
     "kaplan_meier",
     "kaplan_meier_median",
+    "landscape_kinds",
     "log_regret_area",
     "median_evaluations_to_target",
     "normalized_regret_at",
@@ -72,5 +75,6 @@ __all__ = [
     "series",
     "speedup",
     "summarise",
+    "transfer",
     "wilson_interval",
 ]

@@ -68,9 +68,9 @@ def decision_rule(
     """The decision rule: given values, else the study's [decision] table, else expected
     evaluations to target with equal weights. Weights name distortions of the grid; unnamed
     distortions get weight 0; they must not all be 0."""
-    from ..study.spec import parse_text
+    from ..study.spec import parse_decision
 
-    decision = parse_text(ds.attrs["study"]).decision if "study" in ds.attrs else None
+    decision = parse_decision(ds.attrs["study"]) if "study" in ds.attrs else None
     names = coordinate_names(ds, "distortion")
     rule = check_choice(rule if rule is not None else decision.rule, "--rule", RULES)
     metric = check_choice(metric if metric is not None else decision.metric, "--metric", METRICS)

@@ -117,6 +117,7 @@ class Content:
     bands: xr.Dataset
     frontier: xr.Dataset | None
     effects: xr.Dataset
+    transfer: xr.Dataset | None = None
 
 
 def compute_content(ds: xr.Dataset, rule: an.Rule, rs: an.Resampling) -> Content:
@@ -164,4 +165,5 @@ def compute_content(ds: xr.Dataset, rule: an.Rule, rs: an.Resampling) -> Content
         bands=an.regret_bands(ds, shown, rs),
         frontier=an.frontier(ds, rule.metric, rs) if has_none else None,
         effects=an.effects(ds, rule.metric, rs),
+        transfer=an.transfer(ds, rule, rs) if len(set(an.landscape_kinds(ds))) > 1 else None,
     )

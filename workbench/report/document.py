@@ -32,6 +32,7 @@ from .text import (
     CAUTIONS,
     DISTORTION_HEAD,
     SUMMARY_HEAD,
+    TRANSFER_HEAD,
     answer_rows,
     choice_words,
     distortion_rows,
@@ -42,6 +43,7 @@ from .text import (
     risk_paragraph,
     strategy_paragraphs,
     summary_rows,
+    transfer_rows,
 )
 
 _STYLE = """
@@ -146,6 +148,15 @@ def _html(c: Content, figures: list[tuple[str, str, str, bytes]]) -> str:
         f"intervals of each share. {escape(effect_words)}</p>",
         _table(["source", "sum of squares", "share of the total"], effect_rows),
     ]
+    if c.transfer is not None:
+        rows, words = transfer_rows(c)
+        parts += [
+            "<h3>Does the answer transfer? By kind of landscape</h3>",
+            f"<p>The setting the rule picks on each kind of landscape alone, and what the "
+            f"setting picked on the textbook landscapes costs on the other kinds (its score "
+            f"minus the kind's own choice's, paired, {level} interval). {escape(words)}</p>",
+            _table(TRANSFER_HEAD, rows, numeric_from=3),
+        ]
     head, rows = ranking_rows(c)
     parts += [
         "<h3>All belief-guided settings, ranked by the rule</h3>",
@@ -188,6 +199,13 @@ def _md_table(head: list[str], rows: list) -> str:
     return "\n".join(lines)
 
 
+def _md_transfer(c: Content) -> list[str]:
+    if c.transfer is None:
+        return []
+    rows, words = transfer_rows(c)
+    return ["## By kind of landscape", "", words, "", _md_table(TRANSFER_HEAD, rows), ""]
+
+
 def _markdown(c: Content, figures: list[tuple[str, str, str, bytes]]) -> str:
     lines = [
         f"# {c.ds.attrs.get('title', 'Report')}",
@@ -206,6 +224,7 @@ def _markdown(c: Content, figures: list[tuple[str, str, str, bytes]]) -> str:
         "",
         _md_table(SUMMARY_HEAD, summary_rows(c)),
         "",
+        *_md_transfer(c),
         "## Figures",
         "",
         *(f"- {title}: `{FIGURES}/{stem}.png`" for stem, title, _, _ in figures),

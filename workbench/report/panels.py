@@ -119,11 +119,16 @@ def report_figures(c: Content) -> list[tuple[str, str, str, bytes]]:
 def _belief_figure(c: Content):
     from ..study.cells import Cell
     from ..study.spec import parse_text
+    from ..validation import InputError
     from . import figures as fg
 
-    study = parse_text(c.ds.attrs["study"])
-    landscapes = range(min(len(study.landscapes), 4))
-    dims = [Cell(study, li, 0, 0).space.dim for li in landscapes]
+    try:
+        # Files the study names (earlier evaluations, an objective) are found beside it.
+        study = parse_text(c.ds.attrs["study"], where=c.ds.attrs.get("study_path", "<study>"))
+        landscapes = range(min(len(study.landscapes), 4))
+        dims = [Cell(study, li, 0, 0).space.dim for li in landscapes]
+    except InputError:
+        return None  # the files have moved since the run: no belief figure
     ncols = max(dims)
     if ncols > 6:
         return None

@@ -243,6 +243,52 @@ def effects_rows(c: Content) -> tuple[list, str]:
     return rows, words
 
 
+TRANSFER_HEAD = [
+    "kind of landscape",
+    "landscapes",
+    "setting chosen on this kind alone",
+    "its score",
+    "cost of the textbook choice here",
+]
+
+
+def transfer_rows(c: Content) -> tuple[list, str]:
+    """Rows of the by-kind table and a sentence on whether the textbook choice holds."""
+    t = c.transfer
+    rows = []
+    for i, kind in enumerate(t["kind"].values):
+        textbook = str(kind) == "textbook" or not t.attrs["textbook_setting"]
+        rows.append(
+            [
+                str(kind),
+                str(int(t["landscapes"][i])),
+                str(t["setting"].values[i]),
+                num(float(t["value"][i])),
+                "–"
+                if textbook
+                else cell(float(t["cost"][i]), float(t["low"][i]), float(t["high"][i])),
+            ]
+        )
+    others = [i for i, k in enumerate(t["kind"].values) if str(k) != "textbook"]
+    if not t.attrs["textbook_setting"]:
+        words = "The grid has no textbook landscape to compare with."
+    elif all(float(t["high"][i]) <= 0 or float(t["cost"][i]) == 0 for i in others):
+        words = (
+            "The setting chosen on the textbook landscapes costs nothing measurable on the "
+            "other kinds: the answer transfers."
+        )
+    else:
+        worse = [str(t["kind"].values[i]) for i in others if float(t["low"][i]) > 0]
+        words = (
+            "On " + ", ".join(worse) + " landscapes the textbook choice costs more than the "
+            "kind's own choice (interval above 0): check the answer there before relying on it."
+            if worse
+            else "Where the kinds choose differently, the intervals include no cost: the "
+            "difference is not told apart from chance."
+        )
+    return rows, words
+
+
 def strategy_paragraphs(c: Content) -> list[str]:
     names = [str(s) for s in c.ds["strategy"].values] + [str(b) for b in c.ds["baseline"].values]
     return [f"{s}: {STRATEGY_TEXT.get(s, 'a strategy of the workbench')}" for s in names]

@@ -13,7 +13,7 @@ Seeding (common random numbers). Every cell's streams derive from the study's ro
 from __future__ import annotations
 
 from dataclasses import dataclass
-from functools import cached_property
+from functools import cached_property, lru_cache
 
 import numpy as np
 
@@ -68,7 +68,7 @@ class Cell:
     def space(self) -> Space:
         if self.study.space is not None:
             return self.study.space
-        land = ls.get(self.entry.name, self.entry.dim)
+        land = self.land
         return Space(
             tuple(
                 Continuous(f"x{j + 1}", lo, hi)
@@ -76,9 +76,22 @@ class Cell:
             )
         )
 
+    @property
+    def land(self) -> ls.Landscape:
+        """This replicate's landscape: a textbook function, or one built by its kind (a new
+        drawn or fitted surface per replicate; the user's objective is the same in all)."""
+        e = self.entry
+        if e.kind == "textbook":
+            return ls.get(e.name, e.dim)
+        replicate = 0 if e.kind == "objective" else self.replicate
+        return _built(e.spec, e.label, e.dim, self.study.seed, replicate)
+
     @cached_property
     def placement(self):
-        s, land = self.study, ls.get(self.entry.name, self.entry.dim)
+        s, land = self.study, self.land
+        if not self.entry.placed_at_belief:
+            # Fitted and objective landscapes: the truth is where the data or function put it.
+            return land.placed()
         if s.space is not None:
             # The user's belief stays put; the truth is placed at its mode.
             at = self.space.snap(np.atleast_2d(np.asarray(s.belief.mode(), dtype=float)))[0]
@@ -114,3 +127,10 @@ class Cell:
     @property
     def noise_sd(self) -> float:
         return self.entry.noise * self.placement.gap
+
+
+@lru_cache(maxsize=64)
+def _built(spec, label: str, dim: int, seed: int, replicate: int) -> ls.Landscape:
+    """The landscape of a drawn, fitted or objective entry for one replicate (cached: every
+    distortion of a replicate shares it), from its own stream."""
+    return spec.landscape(label, dim, generator(derive(seed, label, "surface", replicate)))

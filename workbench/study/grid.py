@@ -152,6 +152,9 @@ def run_chunk(study: Study, chunk: Chunk) -> dict[str, np.ndarray]:
     stack["user_points"] = np.stack([t.user_points(cell.space) for t in traces])
     stack["mode_value"] = np.array([cell.mode_value])
     stack["minimum"] = np.array([cell.placement.minimum])
+    optimum = np.asarray(cell.placement.minimisers[:1], dtype=float)
+    stack["optimum_cube"] = optimum[0]
+    stack["optimum"] = cell.space.to_user_array(optimum)[0]
     stack["gap"] = np.array([cell.placement.gap])
     stack["severity_distance"] = np.array([cell.severity.distance])
     stack["severity_mass"] = np.array([cell.severity.mass_within])

@@ -14,7 +14,11 @@ baselines over (baseline, landscape, distortion, replicate, evaluation).
 
 Per cell: ``mode_value`` (the landscape's value at the belief's mode, the expert's best guess),
 ``severity_distance`` and ``severity_mass`` over (landscape, distortion, replicate); per
-placement ``minimum`` and ``gap`` over (landscape, replicate).
+placement ``minimum`` and ``gap`` over (landscape, replicate), and where the (first) global
+minimiser lies, ``optimum`` (user units) and ``optimum_cube``, over (landscape, replicate,
+coordinate). Per landscape: ``landscape_kind`` (textbook, drawn, fitted, objective),
+``landscape_noise`` and ``minimum_estimated`` (1 where the minimum comes from a search rather
+than a publication or the user).
 
 Repeats, by design: prior-weighted ignores the quantile, so its values repeat across the
 ``quantile`` levels; no-belief and random ignore the belief, so theirs repeat across
@@ -118,6 +122,10 @@ def _define(ds, study: Study) -> None:
     ds.createVariable("landscape_noise", "f8", ("landscape",))[:] = np.array(
         [e.noise for e in study.landscapes]
     )
+    _strings(ds, "landscape_kind", [e.kind for e in study.landscapes], "landscape")
+    ds.createVariable("minimum_estimated", "i1", ("landscape",))[:] = np.array(
+        [e.spec is not None and e.spec.minimum_estimated for e in study.landscapes], dtype="i1"
+    )
 
     for prefix, dims in (("", GUIDED_DIMS), ("baseline_", BASELINE_DIMS)):
         for name in _SERIES:
@@ -132,10 +140,13 @@ def _define(ds, study: Study) -> None:
         ds.createVariable(name, "f8", ("landscape", "distortion", "replicate"), fill_value=np.nan)
     for name in ("minimum", "gap"):
         ds.createVariable(name, "f8", ("landscape", "replicate"), fill_value=np.nan)
+    for name in ("optimum", "optimum_cube"):
+        ds.createVariable(name, "f8", ("landscape", "replicate", "coordinate"), fill_value=np.nan)
 
     ds.title = study.title
     ds.study_name = study.name
     ds.study = study.text
+    ds.study_path = str(Path(study.path).resolve()) if Path(study.path).is_file() else study.path
     ds.root_seed = study.seed
     ds.version = __version__
     ds.budget = study.budget
@@ -150,7 +161,8 @@ def _define(ds, study: Study) -> None:
     )
 
 
-def _write_chunk(ds, study: Study, chunk: Chunk, data) -> None:
+def _write_chunk(ds, study: Study, chunk: Chunk, data) -> float:
+    """Write one chunk; returns the lowest normalized regret among its campaigns."""
     guided, baseline = settings(study)
     strategies = list(dict.fromkeys(s.strategy for s in guided))
     decay_index = {d: i for i, d in enumerate(study.decay_levels)}
@@ -199,16 +211,27 @@ def _write_chunk(ds, study: Study, chunk: Chunk, data) -> None:
         ds[name][li, d, r] = data[name][0]
     for name in ("minimum", "gap"):
         ds[name][li, r] = data[name][0]
+    for name in ("optimum", "optimum_cube"):
+        if name in data:
+            ds[name][li, r, 0 : len(data[name])] = data[name]
+    return float(np.nanmin(data["normalized_regret"]))
 
 
-def assemble(study: Study, chunk_dir: Path, path: Path, every: list[Chunk]) -> Path:
-    """Write ``path`` from the chunk files in ``chunk_dir`` (all of ``every`` must be there)."""
+def assemble(study: Study, chunk_dir: Path, path: Path, every: list[Chunk]) -> dict[str, float]:
+    """Write ``path`` from the chunk files in ``chunk_dir`` (all of ``every`` must be there).
+
+    Returns the lowest normalized regret of any campaign per landscape label: below zero, a
+    campaign found a value lower than the landscape's computed minimum.
+    """
     import netCDF4
 
+    lowest: dict[str, float] = {}
     with atomic_path(path) as tmp:
         with netCDF4.Dataset(tmp, "w", format="NETCDF4") as ds:
             _define(ds, study)
             for chunk in every:
                 with np.load(chunk_dir / f"{chunk.key}.npz") as data:
-                    _write_chunk(ds, study, chunk, data)
-    return path
+                    low = _write_chunk(ds, study, chunk, data)
+                label = study.landscapes[chunk.landscape].label
+                lowest[label] = min(lowest.get(label, np.inf), low)
+    return lowest

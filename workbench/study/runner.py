@@ -21,7 +21,7 @@ import os
 import shutil
 import time
 from collections.abc import Callable, Iterator
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from pathlib import Path
 
 import numpy as np
@@ -39,6 +39,8 @@ log = logging.getLogger(__name__)
 MANIFEST = "manifest.json"
 CHUNKS = "chunks"
 GRID = "grid.nc"
+# Normalized regret below minus this means a campaign beat the computed minimum.
+BELOW_MINIMUM = 1e-9
 
 
 @dataclass(frozen=True)
@@ -51,6 +53,15 @@ class RunSummary:
     resumed: int
     grid: Path
     seconds: float
+    below_minimum: dict[str, float] = field(default_factory=dict)
+
+    def warnings(self) -> list[str]:
+        """One line per landscape on which a campaign beat the computed minimum."""
+        return [
+            f"landscape {label}: a campaign found a value below the computed minimum "
+            f"(normalized regret {low:.3g}); the minimum search missed the optimum"
+            for label, low in self.below_minimum.items()
+        ]
 
 
 def _manifest(out: Path) -> dict | None:
@@ -191,5 +202,6 @@ def run_study(
             done += len(chunk.settings)
             if progress:
                 progress(done, total)
-    grid = assemble(study, out / CHUNKS, out / GRID, every)
-    return RunSummary(len(every), total, resumed, grid, time.perf_counter() - start)
+    lowest = assemble(study, out / CHUNKS, out / GRID, every)
+    below = {k: v for k, v in lowest.items() if v < -BELOW_MINIMUM}
+    return RunSummary(len(every), total, resumed, out / GRID, time.perf_counter() - start, below)

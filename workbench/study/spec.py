@@ -9,7 +9,7 @@ from __future__ import annotations
 import hashlib
 import itertools
 import tomllib
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from pathlib import Path
 from typing import Any
 
@@ -38,6 +38,7 @@ __all__ = [
     "StrategyFactors",
     "Study",
     "load",
+    "parse_decision",
     "parse_text",
 ]
 
@@ -68,20 +69,30 @@ _RULES = ("expected", "minimax", "cvar")
 
 @dataclass(frozen=True)
 class LandscapeEntry:
-    """A landscape of the study: name, dimension and observation noise.
+    """A landscape of the study: name, dimension, observation noise and kind.
 
     ``noise`` is the observation noise's standard deviation as a fraction of the landscape's
     reference gap (median minus minimum), so that noise levels compare across landscapes.
+    ``kind`` is one of :data:`workbench.world.kinds.KINDS`; for all but ``textbook``, ``spec``
+    builds each replicate's landscape (:mod:`workbench.world.kinds`).
     """
 
     name: str
     dim: int
     noise: float = 0.0
     label: str = ""
+    kind: str = "textbook"
+    spec: Any = None
 
     def __post_init__(self):
         if not self.label:
             object.__setattr__(self, "label", self.name)
+
+    @property
+    def placed_at_belief(self) -> bool:
+        """Whether the truth is moved to the belief's mode (not for fitted landscapes and the
+        user's objective: there the data or the function say where the optimum is)."""
+        return self.kind in ("textbook", "drawn")
 
 
 @dataclass(frozen=True)
@@ -133,8 +144,13 @@ class Study:
 
     @property
     def digest(self) -> str:
-        """SHA-256 of the study text: a changed study is a different grid."""
-        return hashlib.sha256(self.text.encode("utf-8")).hexdigest()
+        """SHA-256 of the study text and of the files its landscapes read: a changed study,
+        data file or objective is a different grid."""
+        h = hashlib.sha256(self.text.encode("utf-8"))
+        for entry in self.landscapes:
+            if entry.spec is not None and getattr(entry.spec, "digest", ""):
+                h.update(entry.spec.digest.encode())
+        return h.hexdigest()
 
     def design_size(self, dim: int) -> int:
         return self.initial_size if self.initial_size is not None else dim + 1
@@ -194,8 +210,14 @@ def load(path: str | Path) -> Study:
     return parse_text(text, name=path.stem, where=where)
 
 
-def parse_text(text: str, *, name: str = "study", where: str = "<study>") -> Study:
-    """Validate a study given as TOML text."""
+def parse_text(
+    text: str, *, name: str = "study", where: str = "<study>", base: str | Path | None = None
+) -> Study:
+    """Validate a study given as TOML text; files it names are found relative to ``base``
+    (default: the folder of ``where`` when that is a file, else the working folder)."""
+    if base is None:
+        base = Path(where).parent if Path(where).is_file() else Path.cwd()
+    base = Path(base)
     try:
         if not text.strip():
             raise InputError("study", "a TOML study", raw("an empty file"))
@@ -203,12 +225,19 @@ def parse_text(text: str, *, name: str = "study", where: str = "<study>") -> Stu
             doc = tomllib.loads(text)
         except tomllib.TOMLDecodeError as err:
             raise InputError("study", "valid TOML", raw(str(err))) from None
-        return _parse(doc, text, name, where)
+        return _parse(doc, text, name, where, base)
     except InputError as err:
         raise err.located(where) from None
 
 
-def _parse(doc: dict, text: str, name: str, where: str) -> Study:
+def parse_decision(text: str) -> Decision:
+    """The [decision] table of a study's text alone (what the analysis needs from a grid's
+    study, without reading the files its landscapes name)."""
+    doc = tomllib.loads(text)
+    return _decision(doc.get("decision", {}), _distortions(doc.get("distortion", {})))
+
+
+def _parse(doc: dict, text: str, name: str, where: str, base: Path) -> Study:
     check_keys(doc, "", _TOP_KEYS, required=("title",))
     title = check_string(doc["title"], "title")
     questions: tuple[str, ...] = ()
@@ -223,7 +252,7 @@ def _parse(doc: dict, text: str, name: str, where: str) -> Study:
     placement = check_choice(doc.get("placement", "random"), "placement", ("random", "native"))
 
     space = _space(doc["space"]) if "space" in doc else None
-    landscapes = _landscapes(doc.get("landscape"), space)
+    landscapes = _landscapes(doc.get("landscape"), space, base)
     belief, spread = _belief(doc.get("belief", {}), space)
 
     initial = check_table(doc.get("initial", {}), "initial")
@@ -306,9 +335,16 @@ def _space(table) -> Space:
     return Space(tuple(params))
 
 
-def _landscapes(entries, space: Space | None) -> tuple[LandscapeEntry, ...]:
-    from ..world import landscapes as ls
+_KIND_KEYS = {
+    "textbook": ("name", "dim", "noise", "label"),
+    "drawn": ("drawn", "dim", "noise", "label"),
+    "fitted": ("data", "response", "goal", "data_noise", "features", "noise", "label"),
+    "objective": ("objective", "goal", "minimum", "maximum", "noise", "label"),
+}
+_KIND_OF = {"name": "textbook", "drawn": "drawn", "data": "fitted", "objective": "objective"}
 
+
+def _landscapes(entries, space: Space | None, base: Path) -> tuple[LandscapeEntry, ...]:
     if entries is None:
         raise InputError("landscape", "at least one [[landscape]] table", raw("nothing"))
     entries = check_sequence(entries, "landscape")
@@ -316,33 +352,157 @@ def _landscapes(entries, space: Space | None) -> tuple[LandscapeEntry, ...]:
     for i, entry in enumerate(entries):
         key = f"landscape[{i}]"
         entry = check_table(entry, key)
-        check_keys(entry, key, ("name", "dim", "noise"), required=("name",))
-        name = check_choice(entry["name"], f"{key}.name", ls.catalogue())
-        dim = entry.get("dim")
-        try:
-            if dim is None and space is not None:
-                # A generic landscape takes the space's dimension; a fixed one keeps its own.
-                try:
-                    landscape = ls.get(name, space.dim)
-                except InputError:
-                    landscape = ls.get(name)
-            else:
-                landscape = ls.get(name, dim)
-        except InputError as err:
-            raise InputError(f"{key}.dim", err.expected, err.got) from None
-        if space is not None and landscape.dim != space.dim:
+        kinds = [k for k in _KIND_OF if k in entry]
+        if len(kinds) != 1:
             raise InputError(
-                f"{key}.name",
-                f"a landscape of dimension {space.dim} (the space's)",
-                raw(f"{name} of dimension {landscape.dim}"),
+                key,
+                "exactly one of 'name', 'drawn', 'data' or 'objective'",
+                raw(", ".join(kinds) or "none"),
+            )
+        kind = _KIND_OF[kinds[0]]
+        check_keys(entry, key, _KIND_KEYS[kind])
+        if kind != "textbook" and kind != "drawn" and space is None:
+            raise InputError(
+                key, f"a study with a [space] (a {kind} landscape lives on it)", raw("none")
             )
         noise = check_number(entry.get("noise", 0.0), f"{key}.noise", low=0.0)
-        label = name if landscape.dim == ls.get(name).dim else f"{name}-{landscape.dim}d"
-        item = LandscapeEntry(name, landscape.dim, noise, label)
+        if kind == "textbook":
+            item = _textbook(entry, key, space, noise)
+        elif kind == "drawn":
+            item = _drawn(entry, key, space, noise)
+        elif kind == "fitted":
+            item = _fitted(entry, key, space, noise, base)
+        else:
+            item = _objective(entry, key, space, noise, base)
+        if "label" in entry:
+            label = check_string(entry["label"], f"{key}.label")
+            item = replace(item, label=label)
         if any(o.label == item.label for o in out):
-            raise InputError(f"{key}.name", "a landscape listed once", raw(f"{name} again"))
+            raise InputError(f"{key}.label", "a label used once", raw(f"{item.label} again"))
         out.append(item)
     return tuple(out)
+
+
+def _textbook(entry, key, space, noise) -> LandscapeEntry:
+    from ..world import landscapes as ls
+
+    name = check_choice(entry["name"], f"{key}.name", ls.catalogue())
+    dim = entry.get("dim")
+    try:
+        if dim is None and space is not None:
+            # A generic landscape takes the space's dimension; a fixed one keeps its own.
+            try:
+                landscape = ls.get(name, space.dim)
+            except InputError:
+                landscape = ls.get(name)
+        else:
+            landscape = ls.get(name, dim)
+    except InputError as err:
+        raise InputError(f"{key}.dim", err.expected, err.got) from None
+    if space is not None and landscape.dim != space.dim:
+        raise InputError(
+            f"{key}.name",
+            f"a landscape of dimension {space.dim} (the space's)",
+            raw(f"{name} of dimension {landscape.dim}"),
+        )
+    label = name if landscape.dim == ls.get(name).dim else f"{name}-{landscape.dim}d"
+    return LandscapeEntry(name, landscape.dim, noise, label)
+
+
+def _drawn(entry, key, space, noise) -> LandscapeEntry:
+    from ..world import kinds, surfaces
+    from ..world import landscapes as ls
+
+    table = check_table(entry["drawn"], f"{key}.drawn")
+    check_keys(table, f"{key}.drawn", ("smoothness", "length_scale", "features"))
+    if space is not None:
+        if "dim" in entry:
+            raise InputError(
+                f"{key}.dim", "absent (a drawn landscape takes the space's)", entry["dim"]
+            )
+        dim = space.dim
+    else:
+        dim = check_number(entry.get("dim", 2), f"{key}.dim", low=1, high=ls.MAX_DIM, integer=True)
+    smoothness = check_number(table.get("smoothness", 2.5), f"{key}.drawn.smoothness")
+    if float(smoothness) not in surfaces.SMOOTHNESS_VALUES:
+        allowed = ", ".join(f"{v:g}" for v in surfaces.SMOOTHNESS_VALUES)
+        raise InputError(f"{key}.drawn.smoothness", f"one of {allowed}", smoothness)
+    scale = table.get("length_scale", 0.2)
+    scales = [scale] if not isinstance(scale, list) else scale
+    if len(scales) not in (1, dim):
+        raise InputError(
+            f"{key}.drawn.length_scale", f"one number or {dim} (one per parameter)", scale
+        )
+    scales = tuple(
+        float(check_number(v, f"{key}.drawn.length_scale", low=0.0, high=10.0, closed="right"))
+        for v in scales
+    )
+    features = check_number(
+        table.get("features", surfaces.DEFAULT_FEATURES),
+        f"{key}.drawn.features",
+        low=16,
+        high=65536,
+        integer=True,
+    )
+    spec = kinds.Drawn(float(smoothness), scales, features)
+    label = f"drawn-{smoothness:g}-{'-'.join(f'{v:g}' for v in scales)}"
+    return LandscapeEntry("drawn", dim, noise, label, "drawn", spec)
+
+
+def _goal(entry, key) -> str:
+    from ..evidence.history import GOALS
+
+    return check_choice(entry.get("goal", "minimise"), f"{key}.goal", GOALS)
+
+
+def _fitted(entry, key, space, noise, base) -> LandscapeEntry:
+    from ..evidence.history import read_history
+    from ..world import kinds, surfaces
+
+    file = check_string(entry["data"], f"{key}.data")
+    if "response" not in entry:
+        raise InputError(f"{key}.response", "the name of the response column", raw("nothing"))
+    response = check_string(entry["response"], f"{key}.response")
+    goal = _goal(entry, key)
+    data_noise = entry.get("data_noise", "estimated")
+    if data_noise != "estimated":
+        data_noise = float(check_number(data_noise, f"{key}.data_noise", low=0.0, closed="neither"))
+    else:
+        data_noise = None
+    features = check_number(
+        entry.get("features", surfaces.DEFAULT_FEATURES),
+        f"{key}.features",
+        low=16,
+        high=65536,
+        integer=True,
+    )
+    history = read_history(base / file, space, response, goal)
+    spec = kinds.Fitted(
+        X=tuple(map(tuple, history.X.tolist())),
+        y=tuple(history.y.tolist()),
+        source=f"{history.rows} evaluations in {Path(file).name}",
+        noise_sd=data_noise,
+        features=features,
+        digest=history.digest,
+    )
+    return LandscapeEntry("fitted", space.dim, noise, f"fitted-{Path(file).stem}", "fitted", spec)
+
+
+def _objective(entry, key, space, noise, base) -> LandscapeEntry:
+    from ..world import kinds
+
+    goal = _goal(entry, key)
+    path, name = kinds.find_function(entry["objective"], base, None, f"{key}.objective")
+    wrong = "maximum" if goal == "minimise" else "minimum"
+    if wrong in entry:
+        raise InputError(f"{key}.{wrong}", f"absent when goal = {goal!r}", entry[wrong])
+    known = "minimum" if goal == "minimise" else "maximum"
+    best = entry.get(known)
+    if best is not None:
+        best = float(check_number(best, f"{key}.{known}"))
+        best = best if goal == "minimise" else -best
+    spec = kinds.Objective(path, name, space, goal, best, digest=kinds.file_digest(path))
+    return LandscapeEntry("objective", space.dim, noise, f"objective-{name}", "objective", spec)
 
 
 _BELIEF_KEYS = (

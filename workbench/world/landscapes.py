@@ -600,8 +600,9 @@ class Placement:
 
     @cached_property
     def reference(self) -> float:
-        """Median of the values over the fixed scrambled Sobol set ``_REFERENCE_POINTS``."""
-        return float(np.median(self._reference_set[1]))
+        """Median of the finite values over the fixed scrambled Sobol set ``_REFERENCE_POINTS``."""
+        # nanmedian: a user objective may fail at some points of the set.
+        return float(np.nanmedian(self._reference_set[1]))
 
     @property
     def gap(self) -> float:
@@ -628,7 +629,7 @@ class Placement:
     @cached_property
     def _worst(self) -> tuple[np.ndarray, float]:
         U = _sobol(self.dim, *_WORST_POINTS)
-        f = self.value(U)
+        f = np.nan_to_num(self.value(U), nan=-np.inf)  # a failing point is not the worst
         order = np.argsort(f)[::-1][:_WORST_STARTS]
         best_u, best_f = U[order[0]], float(f[order[0]])
         for u, value in self._descend(U[order], sign=-1.0):

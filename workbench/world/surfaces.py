@@ -60,9 +60,9 @@ SMOOTHNESS_VALUES = (0.5, 1.5, 2.5)
 # k̂(x, x') = φ(x)·φ(x') rather than k; averaging over ω and b gives, per entry,
 #     sd(k̂ - k) = sqrt((1 + k(2Δ)/2 - k(Δ)²) / M) <= 1 / sqrt(M),
 # (1/sqrt(2M) at Δ = 0, rising to 1/sqrt(M) where k is near 0). M = 1024 keeps that at 2.2–3.1 %
-# of the signal variance, and keeps evaluation near 10 µs per point in 6-D on one core (goal
-# <= 20 µs, see benchmarks/surfaces.py); M = 2048 would buy 0.7 percentage points for twice
-# the cost.
+# of the signal variance, and evaluation at about 8 µs per point in 6-D on one core (goal
+# <= 20 µs, see benchmarks/surfaces.py); M = 2048 would buy 0.9 percentage points for twice
+# the cost, close to the goal.
 DEFAULT_FEATURES = 1024
 
 # Local searches in global_minimum: the best Sobol points each start one L-BFGS-B run.
@@ -216,8 +216,10 @@ def fourier_features(
     return math.sqrt(2.0 / max(n_features, 1)) * np.cos(U @ frequencies.T + phases)
 
 
-def _cos_dot(Z: NDArray[np.float64], coef: NDArray[np.float64]) -> NDArray[np.float64]:
-    """Σ_j coef_j cos(Z_ij) for each row i, overwriting Z.
+def _cos_dot(
+    Z: NDArray[np.float64], coef: NDArray[np.float64], work: NDArray[np.float64]
+) -> NDArray[np.float64]:
+    """Σ_j coef_j cos(Z_ij) for each row i, overwriting Z and ``work`` (same shape as Z).
 
     numpy's float64 cos costs about 25 ns per element here and would dominate evaluation, so
     cos is computed with array arithmetic instead: reduce to y = Z - 2π·round(Z / 2π) in
@@ -226,7 +228,7 @@ def _cos_dot(Z: NDArray[np.float64], coef: NDArray[np.float64]) -> NDArray[np.fl
     agrees with numpy's cos to ~3e-15 absolute for |Z| up to ~1e3; beyond that both are limited
     by the rounding of Z itself (~|Z|·1e-16).
     """
-    K = np.multiply(Z, 1.0 / _TWO_PI)
+    K = np.multiply(Z, 1.0 / _TWO_PI, out=work)
     np.rint(K, out=K)
     K *= _TWO_PI
     Z -= K
@@ -318,8 +320,9 @@ class FeatureSurface:
         """Surface values at the rows of U (m, d), shape (m,)."""
         U = self._points(U)
         out = np.empty(len(U))
+        work = self._work(len(U))
         for block in self._blocks(len(U)):
-            out[block] = self._values(U[block])
+            out[block] = self._values(U[block], work)
         return out
 
     def gradient(self, U: ArrayLike) -> NDArray[np.float64]:
@@ -337,8 +340,9 @@ class FeatureSurface:
         U = self._points(U)
         values = np.empty(len(U))
         grads = np.empty(U.shape)
+        work = self._work(len(U))
         for block in self._blocks(len(U)):
-            values[block], grads[block] = self._values(U[block], with_gradient=True)
+            values[block], grads[block] = self._values(U[block], work, with_gradient=True)
         return values, grads
 
     def _points(self, U: ArrayLike) -> NDArray[np.float64]:
@@ -347,19 +351,30 @@ class FeatureSurface:
             raise ValueError(f"points must have shape (m, {self.dim}), got {U.shape}")
         return U
 
+    def _rows(self) -> int:
+        return max(1, _BLOCK_ELEMENTS // max(self.n_features, self.n_data, 1))
+
     def _blocks(self, m: int) -> list[slice]:
-        rows = max(1, _BLOCK_ELEMENTS // max(self.n_features, self.n_data, 1))
+        rows = self._rows()
         return [slice(start, start + rows) for start in range(0, m, rows)]
 
-    def _values(self, U: NDArray[np.float64], with_gradient: bool = False):
+    def _work(self, m: int) -> NDArray[np.float64]:
+        # Two (rows, M) buffers reused by every block of a call: a fresh 1 MiB array per block
+        # costs page faults that, measured here, took longer than the arithmetic.
+        return np.empty((2, min(self._rows(), max(m, 1)), self.n_features))
+
+    def _values(
+        self, U: NDArray[np.float64], work: NDArray[np.float64], with_gradient: bool = False
+    ):
         values = np.full(len(U), self.mean)
         grads = np.zeros(U.shape) if with_gradient else None
         if self.n_features:
-            Z = U @ self.frequencies.T
+            Z, K = work[0, : len(U)], work[1, : len(U)]
+            np.matmul(U, self.frequencies.T, out=Z)
             Z += self.phases
             if with_gradient:
-                grads -= np.sin(Z) @ self._feature_grad
-            values += _cos_dot(Z, self._feature_coef)
+                grads -= np.sin(Z, out=K) @ self._feature_grad
+            values += _cos_dot(Z, self._feature_coef, K)
         if self.n_data:
             r = cdist(U / self.length_scale, self._scaled_data)
             weighted = self.amplitude**2 * self.coefficients

@@ -1,0 +1,160 @@
+"""Earlier evaluations of the real process: a CSV table read and checked against the study.
+
+One column per parameter of the study's ``[space]`` (user units; categorical levels by name),
+one response column, and nothing else; lines starting with ``#`` are comments (say there where
+the data come from, or that they are invented). Every cell is checked: a missing or unknown
+column, a cell that is not a number (or is NaN), a value outside the parameter's bounds, an
+unknown categorical level, too few rows or a constant response give one line naming the file,
+the row and the column, and nothing is read.
+
+The table becomes cube points and values in the minimising orientation (``goal = "maximise"``
+negates the response), ready for the GP.
+"""
+
+from __future__ import annotations
+
+import csv
+import hashlib
+import math
+from dataclasses import dataclass, field
+from pathlib import Path
+
+import numpy as np
+
+from ..validation import InputError, raw
+from ..world.space import Categorical, Integer, Space
+
+__all__ = ["GOALS", "History", "read_history"]
+
+GOALS = ("minimise", "maximise")
+
+
+@dataclass(frozen=True)
+class History:
+    """Evaluations as the model sees them.
+
+    ``X`` cube points (n, d); ``y`` values to minimise (n,); ``response`` the column's name and
+    ``goal`` its direction; ``path`` the file; ``digest`` a hash of its bytes (so a grid can say
+    which data it was built on).
+    """
+
+    X: np.ndarray = field(repr=False)
+    y: np.ndarray = field(repr=False)
+    response: str
+    goal: str
+    path: str
+    digest: str
+
+    def __hash__(self) -> int:
+        return hash((self.path, self.digest, self.response, self.goal))
+
+    def __eq__(self, other) -> bool:
+        return isinstance(other, History) and (
+            (self.path, self.digest, self.response, self.goal)
+            == (other.path, other.digest, other.response, other.goal)
+        )
+
+    @property
+    def rows(self) -> int:
+        return len(self.y)
+
+    def user_values(self) -> np.ndarray:
+        """The response in the file's own orientation."""
+        return -self.y if self.goal == "maximise" else self.y.copy()
+
+
+def _number(text: str, where: str, key: str) -> float:
+    try:
+        value = float(text)
+    except ValueError:
+        raise InputError(key, "a number", text, where) from None
+    if not math.isfinite(value):
+        raise InputError(key, "a finite number", text, where)
+    return value
+
+
+def _cell(param, text: str, where: str, key: str) -> float:
+    """One parameter value, checked, as its cube coordinate."""
+    text = text.strip()
+    if isinstance(param, Categorical):
+        if text not in param.choices:
+            raise InputError(key, f"one of {', '.join(param.choices)}", text, where)
+        return float(param.to_unit(np.array([text]))[0])
+    value = _number(text, where, key)
+    if isinstance(param, Integer):
+        if value != int(value):
+            raise InputError(key, "a whole number", text, where)
+    if not param.lower <= value <= param.upper:
+        raise InputError(key, f"a value in [{param.lower:g}, {param.upper:g}]", text, where)
+    return float(param.to_unit(np.array([value]))[0])
+
+
+def read_history(path: str | Path, space: Space, response: str, goal: str = "minimise") -> History:
+    """Read and check the table at ``path`` against ``space``; see the module docstring.
+
+    Raises :class:`InputError` naming the file, row (1 = first data row) and column.
+    """
+    path = Path(path)
+    where = str(path)
+    try:
+        raw_bytes = path.read_bytes()
+    except OSError as err:
+        raise InputError(
+            "data", "a readable CSV file", raw(err.strerror or str(err)), where
+        ) from None
+    try:
+        text = raw_bytes.decode("utf-8-sig")
+    except UnicodeDecodeError:
+        raise InputError("data", "a UTF-8 text file", raw("undecodable bytes"), where) from None
+    lines = [
+        line for line in text.splitlines() if line.strip() and not line.lstrip().startswith("#")
+    ]
+    if not lines:
+        raise InputError("data", "a header row and data rows", raw("nothing"), where)
+    reader = csv.reader(lines)
+    header = [h.strip() for h in next(reader)]
+    expected = [*space.names, response]
+    for name in expected:
+        if name not in header:
+            raise InputError(
+                f"column '{name}'", "present in the header", raw(", ".join(header)), where
+            )
+    for name in header:
+        if name not in expected:
+            raise InputError(
+                f"column '{name}'",
+                f"one of the space's parameters or the response ({', '.join(expected)})",
+                raw("an unknown column"),
+                where,
+            )
+    index = {name: header.index(name) for name in expected}
+    X, y = [], []
+    for r, row in enumerate(reader, start=1):
+        if len(row) != len(header):
+            raise InputError(f"row {r}", f"{len(header)} cells", raw(f"{len(row)} cells"), where)
+        X.append(
+            [
+                _cell(p, row[index[p.name]], where, f"row {r}, column '{p.name}'")
+                for p in space.parameters
+            ]
+        )
+        y.append(_number(row[index[response]].strip(), where, f"row {r}, column '{response}'"))
+    need = space.dim + 2
+    if len(y) < need:
+        raise InputError(
+            "data", f"at least {need} rows (the dimension plus two)", raw(f"{len(y)} rows"), where
+        )
+    y = np.array(y, dtype=float)
+    if np.ptp(y) == 0.0:
+        raise InputError(
+            f"column '{response}'", "a response that varies", raw(f"every row {y[0]:g}"), where
+        )
+    values = -y if goal == "maximise" else y
+    return History(
+        X=np.array(X, dtype=float),
+        y=values,
+        response=response,
+        goal=goal,
+        path=where,
+        digest=hashlib.sha256(raw_bytes).hexdigest()[:16],
+    )

@@ -1,0 +1,242 @@
+"""Landscapes from the user's world, beside the textbook ones: drawn, fitted and objective.
+
+Each kind builds, per replicate, a :class:`~workbench.world.landscapes.Landscape` whose native
+domain is the unit cube of the study's space, so placement, regret and severity work as for
+the textbook functions:
+
+- **drawn**: a random response surface from a Gaussian-process prior with a Matérn kernel
+  (smoothness ν ∈ {1/2, 3/2, 5/2}, length scale per parameter or one for all, as fractions of
+  the range), realised by random Fourier features (:mod:`.surfaces`); a new surface per
+  replicate. Its minimum is found by :func:`.surfaces.global_minimum`.
+- **fitted**: one draw per replicate from the posterior of a GP fitted to earlier evaluations
+  (ARD Matérn 5/2 on cube coordinates, hyper-parameters by maximum marginal likelihood with
+  :func:`workbench.gp.fit`), by pathwise conditioning: plausible versions of the team's real
+  response. The truth stays where the data put it.
+- **objective**: the user's own function of the parameters in user units, imported from a
+  file by path (in every worker process); an exception or a non-finite value is a failed
+  evaluation. Its minimum is given, or estimated by the same search (and marked estimated).
+"""
+
+from __future__ import annotations
+
+import hashlib
+import importlib.util
+import inspect
+import math
+from dataclasses import dataclass, field
+from functools import cache
+from pathlib import Path
+
+import numpy as np
+
+from .. import gp
+from ..validation import InputError, raw
+from . import surfaces
+from .landscapes import Landscape
+from .space import Space
+
+__all__ = ["KINDS", "Drawn", "Fitted", "Objective", "file_digest", "find_function"]
+
+KINDS = ("textbook", "drawn", "fitted", "objective")
+
+
+def _cube_landscape(name, dim, function, minimum, minimiser, source) -> Landscape:
+    return Landscape(
+        name=name,
+        dim=dim,
+        lower=(0.0,) * dim,
+        upper=(1.0,) * dim,
+        minimum=float(minimum),
+        minimisers=(tuple(float(v) for v in minimiser),),
+        source=source,
+        function=function,
+    )
+
+
+@dataclass(frozen=True)
+class Drawn:
+    """A GP-prior surface of the study's dimension; ``length_scale`` one value or one per
+    parameter (fractions of the range); ``features`` random Fourier features."""
+
+    smoothness: float = 2.5
+    length_scale: tuple[float, ...] = (0.2,)
+    features: int = surfaces.DEFAULT_FEATURES
+    kind: str = field(default="drawn", init=False)
+
+    def landscape(self, name: str, dim: int, rng: np.random.Generator) -> Landscape:
+        scale = self.length_scale if len(self.length_scale) > 1 else self.length_scale * dim
+        surface = surfaces.draw_prior(dim, self.smoothness, np.array(scale), rng, self.features)
+        u, value = surfaces.global_minimum(surface, dim, rng)
+        source = (
+            f"a GP-prior draw (Matérn ν = {self.smoothness:g}, length scale "
+            f"{', '.join(f'{v:g}' for v in self.length_scale)}, {self.features} random features)"
+        )
+        return _cube_landscape(name, dim, surface, value, u, source)
+
+    @property
+    def minimum_estimated(self) -> bool:
+        return True
+
+
+@dataclass(frozen=True)
+class Fitted:
+    """Posterior draws of a GP fitted to earlier evaluations (cube points ``X``, values to
+    minimise ``y``); ``noise_sd`` the data's noise in response units, or None to estimate it."""
+
+    X: tuple[tuple[float, ...], ...]
+    y: tuple[float, ...]
+    source: str
+    noise_sd: float | None = None
+    features: int = surfaces.DEFAULT_FEATURES
+    digest: str = ""
+    kind: str = field(default="fitted", init=False)
+
+    @property
+    def minimum_estimated(self) -> bool:
+        return True
+
+    def model(self) -> gp.GP:
+        """The GP fitted to the data (deterministic: the fit's restarts use a fixed seed)."""
+        return _fit(self.X, self.y, self.noise_sd)
+
+    def landscape(self, name: str, dim: int, rng: np.random.Generator) -> Landscape:
+        model = self.model()
+        h = model.hyperparameters
+        scale = model.y_scale
+        surface = surfaces.draw_posterior(
+            np.array(self.X),
+            np.array(self.y),
+            length_scale=np.asarray(h.lengthscales),
+            amplitude=math.sqrt(h.signal_variance) * scale,
+            noise_variance=h.noise_variance * scale**2,
+            mean=model.y_mean,
+            smoothness=2.5,
+            rng=rng,
+            n_features=self.features,
+        )
+        u, value = surfaces.global_minimum(surface, dim, rng)
+        return _cube_landscape(
+            name, dim, surface, value, u, f"a GP-posterior draw given {self.source}"
+        )
+
+
+@cache
+def _fit(X: tuple, y: tuple, noise_sd: float | None) -> gp.GP:
+    X, y = np.array(X, dtype=float), np.array(y, dtype=float)
+    bounds = gp.DEFAULT_BOUNDS
+    if noise_sd is not None:
+        # A given noise is fixed: the bounds of its variance (standardised units) close on it.
+        scale = float(np.std(y)) or 1.0
+        v = max((noise_sd / scale) ** 2, gp.NOISE_VARIANCE_BOUNDS[0])
+        bounds = gp.Bounds(bounds.lengthscale, bounds.signal_variance, (v, v * (1 + 1e-12)))
+    return gp.fit(X, y, rng=np.random.default_rng(0), restarts=4, bounds=bounds)
+
+
+# --------------------------------------------------------------------------- objective
+
+
+def _module(path: str):
+    """Import the file at ``path`` under a private name (once per process)."""
+    return _import(path, Path(path).stat().st_mtime_ns)
+
+
+@cache
+def _import(path: str, _mtime: int):
+    name = "workbench_objective_" + str(abs(hash(path)))
+    spec = importlib.util.spec_from_file_location(name, path)
+    if spec is None or spec.loader is None:
+        raise ImportError(f"cannot import {path}")
+    module = importlib.util.module_from_spec(spec)
+    spec.loader.exec_module(module)
+    return module
+
+
+def file_digest(path: str) -> str:
+    """A short SHA-256 of a file's bytes."""
+    return hashlib.sha256(Path(path).read_bytes()).hexdigest()[:16]
+
+
+def find_function(reference: str, study_dir: Path, where: str, key: str):
+    """``FILE.py:FUNCTION`` → (absolute path, function name), checked: the file exists, imports
+    and defines a callable of that name."""
+    if not isinstance(reference, str) or ":" not in reference:
+        raise InputError(key, "'FILE.py:FUNCTION'", reference, where)
+    file, name = reference.rsplit(":", 1)
+    path = (study_dir / file).resolve()
+    if not path.is_file():
+        raise InputError(key, "an existing Python file", raw(f"no file at {path}"), where)
+    try:
+        module = _module(str(path))
+    except Exception as err:
+        got = raw(f"{type(err).__name__}: {err}")
+        raise InputError(key, "a file that imports", got, where) from None
+    if not callable(getattr(module, name, None)):
+        raise InputError(key, f"a function defined in {file}", raw(f"no function {name!r}"), where)
+    return str(path), name
+
+
+def _objective_values(
+    U: np.ndarray, path: str, name: str, space: Space, sign: float, one_dict: bool
+) -> np.ndarray:
+    """The user's function at cube points U (user units in), NaN where it fails."""
+    function = getattr(_module(path), name)
+    out = np.full(len(U), np.nan)
+    for i, u in enumerate(np.atleast_2d(U)):
+        point = space.format_point(np.clip(u, 0.0, 1.0))
+        try:
+            value = float(function(point) if one_dict else function(**point))
+        except Exception:
+            continue
+        if math.isfinite(value):
+            out[i] = sign * value
+    return out
+
+
+def _takes_one_dict(function, names: list[str]) -> bool:
+    """Whether the function takes one dict rather than keyword arguments."""
+    try:
+        params = inspect.signature(function).parameters
+    except (TypeError, ValueError):
+        return False
+    return len(params) == 1 and next(iter(params)) not in names
+
+
+@dataclass(frozen=True)
+class Objective:
+    """The user's function ``name`` in the file ``path`` over ``space``; ``goal`` its
+    direction; ``minimum`` (in the minimising orientation) when known."""
+
+    path: str
+    name: str
+    space: Space
+    goal: str = "minimise"
+    minimum: float | None = None
+    digest: str = ""
+    kind: str = field(default="objective", init=False)
+
+    @property
+    def minimum_estimated(self) -> bool:
+        return self.minimum is None
+
+    def function(self):
+        from functools import partial
+
+        one_dict = _takes_one_dict(getattr(_module(self.path), self.name), self.space.names)
+        sign = -1.0 if self.goal == "maximise" else 1.0
+        return partial(
+            _objective_values,
+            path=self.path,
+            name=self.name,
+            space=self.space,
+            sign=sign,
+            one_dict=one_dict,
+        )
+
+    def landscape(self, name: str, dim: int, rng: np.random.Generator) -> Landscape:
+        f = self.function()
+        u, value = surfaces.global_minimum(
+            lambda U: np.nan_to_num(f(U), nan=np.inf), dim, rng, n_dense=2**10, starts=4
+        )
+        if self.minimum is not None:
+            value = min(value, self.minimum)
+        return _cube_landscape(name, dim, f, value, u, f"{Path(self.path).name}:{self.name}")
