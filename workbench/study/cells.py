@@ -68,7 +68,9 @@ class Cell:
     def space(self) -> Space:
         if self.study.space is not None:
             return self.study.space
-        land = self.land
+        land = ls.get(self.entry.name, self.entry.dim) if self.entry.kind == "textbook" else None
+        if land is None:
+            return Space.unit_cube(self.entry.dim)
         return Space(
             tuple(
                 Continuous(f"x{j + 1}", lo, hi)
@@ -79,27 +81,36 @@ class Cell:
     @property
     def land(self) -> ls.Landscape:
         """This replicate's landscape: a textbook function, or one built by its kind (a new
-        drawn or fitted surface per replicate; the user's objective is the same in all)."""
+        drawn or fitted surface per replicate; the user's objective is the same in all). A
+        drawn surface comes cut so that its minimum sits where the placement puts it."""
         e = self.entry
         if e.kind == "textbook":
             return ls.get(e.name, e.dim)
         replicate = 0 if e.kind == "objective" else self.replicate
-        return _built(e.spec, e.label, e.dim, self.study.seed, replicate)
+        at = self._at if e.kind == "drawn" else None
+        return _built(e.spec, e.label, e.dim, self.study.seed, replicate, at)
+
+    @cached_property
+    def _at(self) -> tuple[float, ...] | None:
+        """Where the placement puts the minimiser (cube point), None for the native domain."""
+        s = self.study
+        if s.space is not None:
+            # The user's belief stays put; the truth is placed at its mode.
+            mode = self.space.snap(np.atleast_2d(np.asarray(s.belief.mode(), dtype=float)))[0]
+            return tuple(np.clip(mode, 0.0, 1.0).tolist())
+        if s.placement == "native":
+            return None
+        rng = generator(derive(s.seed, self.entry.label, "placement", self.replicate))
+        return tuple(rng.uniform(PLACEMENT_MARGIN, 1 - PLACEMENT_MARGIN, self.entry.dim).tolist())
 
     @cached_property
     def placement(self):
-        s, land = self.study, self.land
-        if not self.entry.placed_at_belief:
-            # Fitted and objective landscapes: the truth is where the data or function put it.
+        land = self.land
+        if self.entry.kind != "textbook":
+            # Fitted and objective: the truth is where the data or function put it; a drawn
+            # surface already comes cut around its placement.
             return land.placed()
-        if s.space is not None:
-            # The user's belief stays put; the truth is placed at its mode.
-            at = self.space.snap(np.atleast_2d(np.asarray(s.belief.mode(), dtype=float)))[0]
-            return land.placed(at=np.clip(at, 0.0, 1.0))
-        if s.placement == "native":
-            return land.placed()
-        rng = generator(derive(s.seed, self.entry.label, "placement", self.replicate))
-        return land.placed(at=rng.uniform(PLACEMENT_MARGIN, 1 - PLACEMENT_MARGIN, land.dim))
+        return land.placed(at=self._at)
 
     @cached_property
     def exact_belief(self):
@@ -130,7 +141,10 @@ class Cell:
 
 
 @lru_cache(maxsize=64)
-def _built(spec, label: str, dim: int, seed: int, replicate: int) -> ls.Landscape:
+def _built(spec, label: str, dim: int, seed: int, replicate: int, at) -> ls.Landscape:
     """The landscape of a drawn, fitted or objective entry for one replicate (cached: every
     distortion of a replicate shares it), from its own stream."""
-    return spec.landscape(label, dim, generator(derive(seed, label, "surface", replicate)))
+    rng = generator(derive(seed, label, "surface", replicate))
+    if at is not None:
+        return spec.landscape(label, dim, rng, at=at)
+    return spec.landscape(label, dim, rng)

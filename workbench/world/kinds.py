@@ -38,6 +38,10 @@ from .space import Space
 __all__ = ["KINDS", "Drawn", "Fitted", "Objective", "file_digest", "find_function"]
 
 KINDS = ("textbook", "drawn", "fitted", "objective")
+# Rounds of the window search that puts a drawn surface's minimum at a chosen point.
+WINDOW_ROUNDS = 8
+# What the minimum search of an objective sees where the function fails: large, finite.
+_FAILED = np.finfo(float).max / 4
 
 
 def _cube_landscape(name, dim, function, minimum, minimiser, source) -> Landscape:
@@ -63,15 +67,47 @@ class Drawn:
     features: int = surfaces.DEFAULT_FEATURES
     kind: str = field(default="drawn", init=False)
 
-    def landscape(self, name: str, dim: int, rng: np.random.Generator) -> Landscape:
+    def landscape(
+        self, name: str, dim: int, rng: np.random.Generator, at: tuple | None = None
+    ) -> Landscape:
+        """A new surface from ``rng``; with ``at`` (a cube point), the window of the surface
+        whose global minimum sits at ``at``.
+
+        A drawn surface is defined everywhere, so a window of the unit cube's size can be cut
+        anywhere. Starting from the surface's minimum u* on [0, 1]^d, the window that puts u*
+        at ``at`` is searched (:func:`.surfaces.global_minimum`); if it holds a lower point,
+        that point becomes the candidate and the search repeats (each round strictly lowers the
+        value; at most ``WINDOW_ROUNDS``). The landscape's native domain is that window.
+        """
         scale = self.length_scale if len(self.length_scale) > 1 else self.length_scale * dim
         surface = surfaces.draw_prior(dim, self.smoothness, np.array(scale), rng, self.features)
         u, value = surfaces.global_minimum(surface, dim, rng)
+        lower = np.zeros(dim)
+        if at is not None:
+            at = np.asarray(at, dtype=float)
+            for _ in range(WINDOW_ROUNDS):
+                lower = u - at
+                inner, inner_value = surfaces.global_minimum(
+                    lambda U, lo=lower: surface(lo + U), dim, rng
+                )
+                if inner_value >= value - 1e-12 * max(1.0, abs(value)):
+                    break
+                u, value = lower + inner, inner_value
+            lower = u - at
         source = (
             f"a GP-prior draw (Matérn ν = {self.smoothness:g}, length scale "
             f"{', '.join(f'{v:g}' for v in self.length_scale)}, {self.features} random features)"
         )
-        return _cube_landscape(name, dim, surface, value, u, source)
+        return Landscape(
+            name=name,
+            dim=dim,
+            lower=tuple(lower.tolist()),
+            upper=tuple((lower + 1.0).tolist()),
+            minimum=float(value),
+            minimisers=(tuple(float(v) for v in u),),
+            source=source,
+            function=surface,
+        )
 
     @property
     def minimum_estimated(self) -> bool:
@@ -235,7 +271,7 @@ class Objective:
     def landscape(self, name: str, dim: int, rng: np.random.Generator) -> Landscape:
         f = self.function()
         u, value = surfaces.global_minimum(
-            lambda U: np.nan_to_num(f(U), nan=np.inf), dim, rng, n_dense=2**10, starts=4
+            lambda U: np.nan_to_num(f(U), nan=_FAILED), dim, rng, n_dense=2**10, starts=4
         )
         if self.minimum is not None:
             value = min(value, self.minimum)
