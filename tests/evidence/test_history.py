@@ -45,7 +45,7 @@ temperature,proving,flour,crumb
 
 
 def _space():
-    return parse_text(SPACE + "[[landscape]]\nname = \"hartmann3\"\n").space
+    return parse_text(SPACE + '[[landscape]]\nname = "hartmann3"\n').space
 
 
 def test_the_table_becomes_cube_points_and_values_to_minimise(tmp_path):
