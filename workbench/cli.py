@@ -13,10 +13,11 @@ import os
 import sys
 import time
 import warnings
+from dataclasses import replace
 from pathlib import Path
 
 from .study.grid import CampaignError
-from .validation import InputError
+from .validation import InputError, raw
 
 __all__ = ["main"]
 
@@ -452,6 +453,123 @@ def cmd_report(args) -> int:
     return 0
 
 
+# --------------------------------------------------------------------------- evidence
+
+
+def _study_with_space(path: str):
+    from .study.spec import load
+
+    study = load(path)
+    if study.space is None:
+        raise InputError(
+            "space", "a [space] section (real evaluations live on the user's space)", None, path
+        )
+    return study
+
+
+def _study_grid(study, folder: str):
+    """The grid of ``folder``, refused unless it was run from this very study."""
+    from .analysis import open_grid
+
+    ds = open_grid(folder)
+    if ds.attrs.get("study") != study.text:
+        raise InputError(
+            "--grid",
+            f"the grid of this study ({study.path})",
+            raw(f"the grid in {folder}, run from another study (its study text differs)"),
+            "command line",
+        )
+    return ds
+
+
+def _history(study, file: str, response: str | None, goal: str | None):
+    """Evaluations in ``file``; the response and goal default to those of the study's fitted
+    landscape reading a file of the same name."""
+    from .evidence.history import GOALS, read_history
+    from .validation import check_choice
+
+    name = Path(file).name
+    for e in study.landscapes:
+        if e.kind == "fitted" and e.spec.source.endswith(f" in {name}"):
+            response = response or e.spec.response
+            goal = goal or e.spec.goal
+    if response is None:
+        raise InputError("--response", "the response column's name", raw("nothing"), "command line")
+    goal = check_choice(goal or "minimise", "--goal", GOALS)
+    return read_history(file, study.space, response, goal)
+
+
+def _figure_png(draw, dim: int) -> bytes:
+    import io
+
+    import matplotlib
+
+    matplotlib.use("Agg")
+    import matplotlib.pyplot as plt
+
+    fig, axes = plt.subplots(1, dim, figsize=(4.4 * dim, 3.6), squeeze=False, layout="constrained")
+    draw(list(axes[0]), fig)
+    buffer = io.BytesIO()
+    fig.savefig(buffer, format="png", dpi=110)
+    plt.close(fig)
+    return buffer.getvalue()
+
+
+def cmd_audit(args) -> int:
+    from . import analysis as an
+    from .evidence import audit as au
+    from .evidence.pages import CAUTIONS, audit_lines, write_page
+    from .report.figures import evidence_marginals
+    from .seeding import derive, generator
+    from .study.cells import SEVERITY_RADIUS
+    from .validation import check_number
+
+    study = _study_with_space(args.study)
+    ds = _study_grid(study, args.grid) if args.grid else None
+    history = _history(study, args.data, args.response, args.goal)
+    top = study.quantile_levels[0] if args.top is None else args.top
+    top = check_number(top, "--top", low=0.0, high=1.0, closed="right", where="command line")
+    result = au.audit(
+        history,
+        study.belief,
+        top=top,
+        radius=SEVERITY_RADIUS,
+        rng=generator(derive(study.seed, "audit")),
+        severities=au.study_severities(study, ds),
+    )
+    if ds is not None and result.distortion is not None:
+        rec = an.recommend(ds)
+        cost = an.summarise(an.belief_cost(ds)).sel(
+            setting=rec.setting, distortion=result.distortion
+        )
+        result = replace(
+            result,
+            cost=(float(cost["estimate"]), float(cost["low"]), float(cost["high"])),
+            setting=rec.setting,
+        )
+    lines = audit_lines(result, study.space, args.data)
+    if args.json:
+        print(json.dumps(au.to_dict(result, study.space), indent=2, ensure_ascii=False))
+        return 0
+    print("\n".join(lines))
+    out = Path(args.out) if args.out else Path("results") / study.name / "audit"
+
+    def draw(axes, fig):
+        evidence_marginals(axes, study.space, study.belief, history.X, result.good, result.argmins)
+        fig.suptitle(f"Belief and earlier evaluations: {study.title}", fontsize="medium")
+
+    md, page = write_page(
+        out,
+        "audit",
+        f"Audit of the belief: {study.title}",
+        lines,
+        _figure_png(draw, study.space.dim),
+    )
+    print(f"audit: {page} and {md.name}")
+    print(" ".join(CAUTIONS))
+    return 0
+
+
 # --------------------------------------------------------------------------- parser
 
 
@@ -531,6 +649,17 @@ def build_parser() -> argparse.ArgumentParser:
         p.add_argument("--fresh", action="store_true", help="discard earlier results in --out")
         p.add_argument("--quiet", action="store_true", help="no progress bar")
         p.set_defaults(func=func)
+
+    p = sub.add_parser("audit", help="check the belief against earlier evaluations (CSV)")
+    p.add_argument("study")
+    p.add_argument("--data", required=True, help="CSV of earlier evaluations")
+    p.add_argument("--response", default=None, help="response column (default: the study's)")
+    p.add_argument("--goal", default=None, help="minimise or maximise (default: the study's)")
+    p.add_argument("--top", type=float, default=None, help="share of the data that is good")
+    p.add_argument("--grid", default=None, help="results folder of this study's grid")
+    p.add_argument("--out", default=None, help="output folder (default results/<study>/audit)")
+    p.add_argument("--json", action="store_true", help="print one JSON object")
+    p.set_defaults(func=cmd_audit)
 
     for name, func, helptext in (
         ("recommend", cmd_recommend, "pick the setting of a grid under a decision rule"),

@@ -12,7 +12,13 @@ import numpy as np
 
 from ..world.space import Categorical, Continuous, Space
 
-__all__ = ["belief_marginals", "regret_curves", "robustness_frontier", "sensitivity_heatmap"]
+__all__ = [
+    "belief_marginals",
+    "evidence_marginals",
+    "regret_curves",
+    "robustness_frontier",
+    "sensitivity_heatmap",
+]
 
 _STYLES = ("-", "--", "-.", ":")
 
@@ -337,3 +343,43 @@ def robustness_frontier(
     ax.set_xlabel(f"saving when the belief is exact [{units}] (right is better)")
     ax.set_ylabel(f"extra cost at the worst distortion [{units}] (down is better)")
     ax.grid(alpha=0.3, linewidth=0.5)
+
+
+def evidence_marginals(
+    axes: Sequence,
+    space: Space,
+    belief,
+    points: np.ndarray,
+    good: np.ndarray,
+    optima: np.ndarray | None = None,
+) -> None:
+    """The belief's marginals with real evaluations beneath them: every evaluated point as a
+    short grey tick, the good ones as dark ticks, and (when given) where the data put the
+    optimum, as the share of posterior draws whose argmin falls in each bin (right scale)."""
+    belief_marginals(axes, space, {"belief": belief})
+    for j, (ax, p) in enumerate(zip(axes, space.parameters, strict=True)):
+
+        def at(U, p=p, j=j):
+            """Positions on this panel's x axis: bar index for discrete parameters."""
+            u = np.asarray(U, dtype=float)[:, j]
+            if p.levels:
+                return np.clip(np.floor(u * p.levels), 0, p.levels - 1)
+            return p.from_unit(u)
+
+        top = ax.get_ylim()[1]
+        rug = -0.04 * top
+        ax.plot(at(points), np.full(len(points), rug), "|", color="0.6", ms=9, label="evaluated")
+        ax.plot(at(good), np.full(len(good), rug), "|", color="black", ms=12, mew=1.6, label="good")
+        if optima is not None and len(optima):
+            twin = ax.twinx()
+            share = np.full(len(optima), 1 / len(optima))
+            if p.levels:
+                counts = np.bincount(at(optima).astype(int), weights=share, minlength=p.levels)
+                twin.bar(np.arange(p.levels), counts, 0.25, color="0.3", alpha=0.5)
+            else:
+                edges = p.from_unit(np.linspace(0.0, 1.0, 31))
+                twin.hist(at(optima), bins=edges, weights=share, color="0.3", alpha=0.35)
+            twin.set_ylabel("share of the data's optimum draws")
+            twin.set_ylim(bottom=0)
+        ax.set_ylim(rug * 2, top)
+    axes[0].legend(frameon=False, fontsize="small")

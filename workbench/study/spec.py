@@ -484,6 +484,8 @@ def _fitted(entry, key, space, noise, base) -> LandscapeEntry:
         noise_sd=data_noise,
         features=features,
         digest=history.digest,
+        response=response,
+        goal=goal,
     )
     return LandscapeEntry("fitted", space.dim, noise, f"fitted-{Path(file).stem}", "fitted", spec)
 

@@ -37,6 +37,8 @@ __all__ = [
     "from_points",
     "gaussian_at",
     "gaussian_for",
+    "highest_density_level",
+    "mass_within",
     "probabilities_for",
 ]
 
@@ -639,6 +641,34 @@ def volume_fraction(belief, mass: float = 0.9, draws: int = 20000, seed: int = 0
     inside = belief.logpdf(belief.sample(draws, rng))
     tau = np.quantile(inside, 1.0 - mass)
     return float(np.mean(belief.logpdf(rng.random((draws, belief.dim))) >= tau))
+
+
+def _log_density_draws(belief, draws: int, seed: int) -> np.ndarray:
+    rng = np.random.default_rng(seed)
+    U = np.asarray(belief.sample(draws, rng), dtype=float).reshape(draws, -1)
+    return np.sort(belief.logpdf(U))
+
+
+def highest_density_level(belief, U, draws: int = 20000, seed: int = 0) -> np.ndarray:
+    """For each cube point, the belief's mass denser than it: the smallest highest-density
+    region that contains the point holds this share of the belief (0 at the mode, near 1 far
+    out). A point drawn from the belief itself has a level uniform on [0, 1].
+
+    Monte Carlo on a fixed stream of ``draws`` belief samples: level(u) = P(log p(Z) > log p(u)).
+    """
+    logs = _log_density_draws(belief, draws, seed)
+    at = belief.logpdf(np.atleast_2d(np.asarray(U, dtype=float)))
+    return 1.0 - np.searchsorted(logs, at, side="right") / len(logs)
+
+
+def mass_within(belief, points, radius: float, draws: int = 4096, seed: int = 0) -> float:
+    """The belief's mass within ``radius`` (Euclidean, cube units) of the nearest of ``points``,
+    a Monte-Carlo estimate from ``draws`` samples of a fixed stream."""
+    X = np.asarray(belief.sample(draws, np.random.default_rng(seed)), dtype=float)
+    X = X.reshape(draws, -1)
+    P = np.atleast_2d(np.asarray(points, dtype=float))
+    gaps = np.linalg.norm(X[:, None, :] - P[None, :, :], axis=2).min(axis=1)
+    return float(np.mean(gaps <= radius))
 
 
 def summarise(belief, space: Space) -> BeliefSummary:

@@ -18,6 +18,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from ..validation import InputError, check_choice, check_number, check_string
+from .beliefs import mass_within
 
 __all__ = ["EXACT", "MISPLACE", "Distortion", "Severity", "severity"]
 
@@ -103,6 +104,5 @@ def severity(
     samples of a fixed stream, so the same belief always reports the same number."""
     mode = np.atleast_1d(np.asarray(belief.mode(), dtype=float))
     distance = float(placement.nearest_minimiser_distance(mode))
-    X = np.asarray(belief.sample(draws, np.random.default_rng(seed))).reshape(draws, -1)
-    gaps = np.linalg.norm(X[:, None, :] - placement.minimisers[None, :, :], axis=2).min(axis=1)
-    return Severity(distance, float(np.mean(gaps <= radius)), radius)
+    mass = mass_within(belief, placement.minimisers, radius, draws=draws, seed=seed)
+    return Severity(distance, mass, radius)

@@ -125,6 +125,8 @@ class Fitted:
     noise_sd: float | None = None
     features: int = surfaces.DEFAULT_FEATURES
     digest: str = ""
+    response: str = ""
+    goal: str = "minimise"
     kind: str = field(default="fitted", init=False)
 
     @property
@@ -135,11 +137,12 @@ class Fitted:
         """The GP fitted to the data (deterministic: the fit's restarts use a fixed seed)."""
         return _fit(self.X, self.y, self.noise_sd)
 
-    def landscape(self, name: str, dim: int, rng: np.random.Generator) -> Landscape:
+    def surface(self, rng: np.random.Generator) -> surfaces.FeatureSurface:
+        """One posterior draw given the data (pathwise conditioning)."""
         model = self.model()
         h = model.hyperparameters
         scale = model.y_scale
-        surface = surfaces.draw_posterior(
+        return surfaces.draw_posterior(
             np.array(self.X),
             np.array(self.y),
             length_scale=np.asarray(h.lengthscales),
@@ -150,6 +153,17 @@ class Fitted:
             rng=rng,
             n_features=self.features,
         )
+
+    def optima(self, draws: int, rng: np.random.Generator, n_dense: int = 2**12) -> np.ndarray:
+        """Where the optimum lies in ``draws`` posterior draws: their argmins, (draws, d)."""
+        dim = len(self.X[0])
+        out = [
+            surfaces.global_minimum(self.surface(rng), dim, rng, n_dense)[0] for _ in range(draws)
+        ]
+        return np.array(out)
+
+    def landscape(self, name: str, dim: int, rng: np.random.Generator) -> Landscape:
+        surface = self.surface(rng)
         u, value = surfaces.global_minimum(surface, dim, rng)
         return _cube_landscape(
             name, dim, surface, value, u, f"a GP-posterior draw given {self.source}"

@@ -1,0 +1,110 @@
+"""The audit's and the monitor's words and pages: plain lines for the terminal, Markdown and a
+self-contained HTML page (figure embedded, no external reference, every user string escaped)."""
+
+from __future__ import annotations
+
+import base64
+import html
+from pathlib import Path
+
+import numpy as np
+
+from ..storage import write_text
+from ..world.space import Space
+from .audit import CONSISTENT_AT, CONTRADICTED_BELOW, Audit
+
+__all__ = ["CAUTIONS", "audit_lines", "write_page"]
+
+CAUTIONS = (
+    "This rests on a simulation and on a Gaussian-process model of your data; both can be wrong "
+    "about the real process.",
+    "It advises and does not decide: the team decides, with what it knows of the process.",
+    "The process's safety limits come first; keep every evaluation inside them, and where the "
+    "process can hurt someone, defer to local codes and licensed practice.",
+)
+
+
+def _pct(v: float) -> str:
+    return f"{100 * v:.0f} %"
+
+
+def _point(space: Space, u: np.ndarray) -> str:
+    return ", ".join(
+        f"{k} = {v:.4g}" if isinstance(v, float) else f"{k} = {v}"
+        for k, v in space.format_point(u).items()
+    )
+
+
+def audit_lines(a: Audit, space: Space, data: str) -> list[str]:
+    """The audit in plain lines (the terminal prints them; the pages reuse them)."""
+    lines = [
+        f"audit of the belief against {a.rows} earlier evaluations in {data}",
+        f"verdict: {a.verdict} (consistent when the data put the optimum inside the belief's "
+        f"90 % region with probability ≥ {CONSISTENT_AT:g}; contradicted below "
+        f"{CONTRADICTED_BELOW:g}; doubtful between)",
+        f"good evaluations (best {_pct(a.top)}, {len(a.good_levels)} points): median "
+        f"highest-density level {a.good_median_level:.2f} (an exact belief gives 0.5), "
+        f"{_pct(a.good_outside_90)} outside the 90 % region (an exact belief gives 10 %)",
+        f"where the data put the optimum ({len(a.argmin_levels)} posterior draws): inside the "
+        f"50 % region with probability {a.inside_50:.2f}, inside the 90 % region with "
+        f"probability {a.inside_90:.2f}",
+        f"median optimum: {_point(space, a.median_argmin)}; belief's mode: {_point(space, a.mode)}",
+        f"distance from the belief's mode to it: {a.distance:.2f} of the range; belief mass "
+        f"within {a.radius:g} of it: {_pct(a.mass_within)}",
+    ]
+    if a.distortion is not None:
+        d, m = a.distortion_distances[a.distortion]
+        lines.append(
+            f"most like the simulated distortion '{a.distortion}' (distance {d:.2f}, mass "
+            f"{_pct(m)})"
+        )
+    if a.cost is not None:
+        est, lo, hi = a.cost
+        word, lo, hi = ("costs", lo, hi) if est > 0 else ("saves", -hi, -lo)
+        lines.append(
+            f"there the recommended setting ({a.setting}) {word} {abs(est):.3g} evaluations "
+            f"to target against no belief (95 % interval {lo:.3g} to {hi:.3g})"
+        )
+    return lines
+
+
+_STYLE = (
+    "body{font-family:system-ui,sans-serif;max-width:60rem;margin:2rem auto;padding:0 1rem;"
+    "line-height:1.45;color:#222}img{max-width:100%}li{margin:.3rem 0}"
+    ".verdict{font-size:1.2rem;font-weight:600}"
+)
+
+
+def write_page(
+    out: Path, stem: str, title: str, lines: list[str], png: bytes | None
+) -> tuple[Path, Path]:
+    """Write ``stem.md`` and ``stem.html`` (figure ``stem.png`` beside and embedded)."""
+    figure = out / f"{stem}.png"
+    if png is not None:
+        from ..storage import atomic_path
+
+        with atomic_path(figure) as tmp:
+            tmp.write_bytes(png)
+    md = [f"# {title}", "", *(f"- {line}" for line in lines), ""]
+    if png is not None:
+        md += [f"![{title}]({figure.name})", ""]
+    md += ["## Cautions", "", *(f"- {c}" for c in CAUTIONS), ""]
+    page = [
+        "<!DOCTYPE html>",
+        '<html lang="en"><head><meta charset="utf-8">',
+        f"<title>{html.escape(title)}</title><style>{_STYLE}</style></head><body>",
+        f"<h1>{html.escape(title)}</h1>",
+        f'<p class="verdict">{html.escape(lines[1] if len(lines) > 1 else "")}</p>',
+        "<ul>",
+        *(f"<li>{html.escape(line)}</li>" for line in lines),
+        "</ul>",
+    ]
+    if png is not None:
+        data = base64.b64encode(png).decode("ascii")
+        page.append(f'<img alt="{html.escape(title)}" src="data:image/png;base64,{data}">')
+    page += ["<h2>Cautions</h2>", "<ul>", *(f"<li>{html.escape(c)}</li>" for c in CAUTIONS)]
+    page += ["</ul>", "</body></html>"]
+    return (
+        write_text(out / f"{stem}.md", "\n".join(md)),
+        write_text(out / f"{stem}.html", "\n".join(page) + "\n"),
+    )
