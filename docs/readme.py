@@ -8,7 +8,8 @@ README.md; everything between the markers is replaced, nothing else is touched:
 
 - ``belief``: what ``workbench belief studies/demo.toml`` prints;
 - ``demo-output``: what ``workbench demo`` printed (its wall time is this machine's);
-- ``demo-summary``: the recommendation section of the report's ``summary.md``.
+- ``demo-summary``: the recommendation section of the report's ``summary.md``;
+- ``demo-by-kind``: its table by kind of landscape.
 
 The figures ``docs/figures/demo-*.png`` are the belief command's and the report's. The test
 ``tests/test_readme.py`` fails when the quoted recommendation no longer matches the demo's grid.
@@ -60,11 +61,11 @@ def fenced(lines: str) -> str:
     return "```\n" + lines.rstrip("\n") + "\n```\n"
 
 
-def summary_section(summary: str) -> str:
-    """The '## Recommendation' section of summary.md, without its heading."""
-    found = re.search(r"## Recommendation\n\n(.*?)\n## ", summary, re.S)
+def summary_section(summary: str, heading: str = "Recommendation") -> str:
+    """A '## heading' section of summary.md, without its heading."""
+    found = re.search(rf"## {heading}\n\n(.*?)\n## ", summary, re.S)
     if found is None:
-        raise SystemExit("summary.md: no '## Recommendation' section")
+        raise SystemExit(f"summary.md: no '## {heading}' section")
     return found.group(1).strip("\n") + "\n"
 
 
@@ -109,6 +110,7 @@ def main(argv: list[str] | None = None) -> int:
     text = replace_block(text, "demo-output", fenced(demo))
     summary = (results / "summary.md").read_text(encoding="utf-8")
     text = replace_block(text, "demo-summary", summary_section(summary))
+    text = replace_block(text, "demo-by-kind", summary_section(summary, "By kind of landscape"))
 
     for source, target in FIGURES.items():
         shutil.copyfile(results / "figures" / source, ROOT / "docs" / "figures" / target)

@@ -437,16 +437,18 @@ def _drawn(entry, key, space, noise) -> LandscapeEntry:
         float(check_number(v, f"{key}.drawn.length_scale", low=0.0, high=10.0, closed="right"))
         for v in scales
     )
-    features = check_number(
-        table.get("features", surfaces.DEFAULT_FEATURES),
-        f"{key}.drawn.features",
-        low=16,
-        high=65536,
-        integer=True,
-    )
+    features = _features(table, f"{key}.drawn")
     spec = kinds.Drawn(float(smoothness), scales, features)
     label = f"drawn-{smoothness:g}-{'-'.join(f'{v:g}' for v in scales)}"
     return LandscapeEntry("drawn", dim, noise, label, "drawn", spec)
+
+
+def _features(table, key) -> int:
+    """Random Fourier features of a drawn or fitted surface."""
+    from ..world import surfaces
+
+    value = table.get("features", surfaces.DEFAULT_FEATURES)
+    return check_number(value, f"{key}.features", low=16, high=65536, integer=True)
 
 
 def _goal(entry, key) -> str:
@@ -457,7 +459,7 @@ def _goal(entry, key) -> str:
 
 def _fitted(entry, key, space, noise, base) -> LandscapeEntry:
     from ..evidence.history import read_history
-    from ..world import kinds, surfaces
+    from ..world import kinds
 
     file = check_string(entry["data"], f"{key}.data")
     if "response" not in entry:
@@ -469,13 +471,7 @@ def _fitted(entry, key, space, noise, base) -> LandscapeEntry:
         data_noise = float(check_number(data_noise, f"{key}.data_noise", low=0.0, closed="neither"))
     else:
         data_noise = None
-    features = check_number(
-        entry.get("features", surfaces.DEFAULT_FEATURES),
-        f"{key}.features",
-        low=16,
-        high=65536,
-        integer=True,
-    )
+    features = _features(entry, key)
     history = read_history(base / file, space, response, goal)
     spec = kinds.Fitted(
         X=tuple(map(tuple, history.X.tolist())),
