@@ -482,21 +482,21 @@ def _study_grid(study, folder: str):
     return ds
 
 
-def _history(study, file: str, response: str | None, goal: str | None):
+def _history(study, file: str, response: str | None, goal: str | None, min_rows=None):
     """Evaluations in ``file``; the response and goal default to those of the study's fitted
-    landscape reading a file of the same name."""
+    landscape (the one reading a file of the same name, if several)."""
     from .evidence.history import GOALS, read_history
     from .validation import check_choice
 
-    name = Path(file).name
-    for e in study.landscapes:
-        if e.kind == "fitted" and e.spec.source.endswith(f" in {name}"):
-            response = response or e.spec.response
-            goal = goal or e.spec.goal
+    fitted = [e.spec for e in study.landscapes if e.kind == "fitted"]
+    same = [f for f in fitted if f.source.endswith(f" in {Path(file).name}")]
+    if same or fitted:
+        spec = (same or fitted)[0]
+        response, goal = response or spec.response, goal or spec.goal
     if response is None:
         raise InputError("--response", "the response column's name", raw("nothing"), "command line")
     goal = check_choice(goal or "minimise", "--goal", GOALS)
-    return read_history(file, study.space, response, goal)
+    return read_history(file, study.space, response, goal, min_rows=min_rows)
 
 
 def _figure_png(draw, dim: int) -> bytes:
@@ -566,6 +566,58 @@ def cmd_audit(args) -> int:
         _figure_png(draw, study.space.dim),
     )
     print(f"audit: {page} and {md.name}")
+    print(" ".join(CAUTIONS))
+    return 0
+
+
+def monitor_steps(study) -> list[int]:
+    """The t at which the monitor trains a classifier: every ``MONITOR_EVERY``-th evaluation
+    after the initial design, and the budget (between them, the step below serves)."""
+    first = study.design_size(study.space.dim) + 1
+    return sorted({*range(first, study.budget + 1, MONITOR_EVERY), study.budget})
+
+
+MONITOR_EVERY = 4
+
+
+def cmd_monitor(args) -> int:
+    from . import analysis as an
+    from .evidence import monitor as mo
+    from .evidence.pages import CAUTIONS, monitor_lines, write_page
+
+    study = _study_with_space(args.study)
+    ds = _study_grid(study, args.grid)
+    live = _history(study, args.observations, args.response, args.goal, min_rows=2)
+    setting = args.setting or an.recommend(ds).setting
+    start = time.perf_counter()
+    table = mo.training_table(ds, mo.grid_beliefs(study, ds), monitor_steps(study))
+    # Learn from the campaigns of the live campaign's strategy (all its decays and quantiles).
+    strategy = setting.split(",")[0]
+    table = mo.restrict(table, [str(x).split(",")[0] == strategy for x in table.settings])
+    monitor = mo.train(table, seed=0)
+    try:
+        advice = mo.advise(monitor, ds, live.X, live.y, study.belief, setting)
+    except InputError as err:
+        raise err.located(args.observations) from None
+    seconds = time.perf_counter() - start
+    if args.json:
+        out = advice.to_dict()
+        out["validation"] = json.loads(monitor.validation.to_dataframe().to_json(orient="index"))
+        print(json.dumps(out, indent=2, ensure_ascii=False))
+        return 0
+    lines = monitor_lines(monitor, advice, args.observations, seconds)
+    print("\n".join(lines))
+    out = Path(args.out) if args.out else Path("results") / study.name / "monitor"
+
+    def draw(axes, fig):
+        from .report.figures import distortion_probabilities
+
+        distortion_probabilities(axes[0], advice.t, advice.probabilities, advice.distortions)
+        fig.suptitle(f"The live campaign read against the grid: {study.title}", fontsize="medium")
+
+    title = f"Monitor of the live campaign: {study.title}"
+    md, page = write_page(out, "monitor", title, lines, _figure_png(draw, 1))
+    print(f"monitor: {page} and {md.name}")
     print(" ".join(CAUTIONS))
     return 0
 
@@ -660,6 +712,17 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("--out", default=None, help="output folder (default results/<study>/audit)")
     p.add_argument("--json", action="store_true", help="print one JSON object")
     p.set_defaults(func=cmd_audit)
+
+    p = sub.add_parser("monitor", help="read a live campaign against the grid: distortions, advice")
+    p.add_argument("study")
+    p.add_argument("--observations", required=True, help="CSV of the campaign's evaluations")
+    p.add_argument("--grid", required=True, help="results folder of this study's grid")
+    p.add_argument("--setting", default=None, help="the campaign's setting (default: recommended)")
+    p.add_argument("--response", default=None, help="response column (default: the study's)")
+    p.add_argument("--goal", default=None, help="minimise or maximise (default: the study's)")
+    p.add_argument("--out", default=None, help="output folder (default results/<study>/monitor)")
+    p.add_argument("--json", action="store_true", help="print one JSON object")
+    p.set_defaults(func=cmd_monitor)
 
     for name, func, helptext in (
         ("recommend", cmd_recommend, "pick the setting of a grid under a decision rule"),

@@ -89,10 +89,17 @@ def _cell(param, text: str, where: str, key: str) -> float:
     return float(param.to_unit(np.array([value]))[0])
 
 
-def read_history(path: str | Path, space: Space, response: str, goal: str = "minimise") -> History:
+def read_history(
+    path: str | Path,
+    space: Space,
+    response: str,
+    goal: str = "minimise",
+    min_rows: int | None = None,
+) -> History:
     """Read and check the table at ``path`` against ``space``; see the module docstring.
 
-    Raises :class:`InputError` naming the file, row (1 = first data row) and column.
+    Raises :class:`InputError` naming the file, row (1 = first data row) and column. At least
+    ``min_rows`` rows (default: the dimension plus two, what a GP fit needs) must be there.
     """
     path = Path(path)
     where = str(path)
@@ -139,13 +146,12 @@ def read_history(path: str | Path, space: Space, response: str, goal: str = "min
             ]
         )
         y.append(_number(row[index[response]].strip(), where, f"row {r}, column '{response}'"))
-    need = space.dim + 2
+    need = space.dim + 2 if min_rows is None else min_rows
     if len(y) < need:
-        raise InputError(
-            "data", f"at least {need} rows (the dimension plus two)", raw(f"{len(y)} rows"), where
-        )
+        words = "the dimension plus two" if min_rows is None else "evaluations so far"
+        raise InputError("data", f"at least {need} rows ({words})", raw(f"{len(y)} rows"), where)
     y = np.array(y, dtype=float)
-    if np.ptp(y) == 0.0:
+    if min_rows is None and np.ptp(y) == 0.0:  # a GP cannot be fitted to a constant
         raise InputError(
             f"column '{response}'", "a response that varies", raw(f"every row {y[0]:g}"), where
         )

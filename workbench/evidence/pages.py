@@ -13,7 +13,7 @@ from ..storage import write_text
 from ..world.space import Space
 from .audit import CONSISTENT_AT, CONTRADICTED_BELOW, Audit
 
-__all__ = ["CAUTIONS", "audit_lines", "write_page"]
+__all__ = ["CAUTIONS", "audit_lines", "monitor_lines", "write_page"]
 
 CAUTIONS = (
     "This rests on a simulation and on a Gaussian-process model of your data; both can be wrong "
@@ -65,6 +65,40 @@ def audit_lines(a: Audit, space: Space, data: str) -> list[str]:
             f"there the recommended setting ({a.setting}) {word} {abs(est):.3g} evaluations "
             f"to target against no belief (95 % interval {lo:.3g} to {hi:.3g})"
         )
+    return lines
+
+
+def monitor_lines(monitor, advice, data: str, seconds: float) -> list[str]:
+    """The monitor's validation and its reading of the live campaign, in plain lines."""
+    v = monitor.validation
+    last = int(advice.t[-1])
+    i = len(advice.t) - 1
+    probs = ", ".join(
+        f"{d} {p:.2f}" for d, p in zip(advice.distortions, advice.probabilities[i], strict=True)
+    )
+    lines = [
+        f"monitor of the live campaign in {data} ({last} evaluations), setting {advice.setting}",
+        f"after evaluation {last}: {probs}; advice: {advice.best_action[i]} (sure to "
+        f"{advice.confidence[i]:.0%}: the probability of the distortions under which it is "
+        f"the cheapest)",
+        f"validation on held-out replicates of the grid ({v.attrs['campaigns']} campaigns, "
+        f"{v.attrs['replicates']} replicates, trained in {seconds:.0f} s): per t, accuracy "
+        f"against the base rate and Brier score against the base rate's (lower is better):",
+    ]
+    for k, step in enumerate(v["step"].values):
+        lines.append(
+            f"  t = {int(step)}: accuracy {float(v['accuracy'][k]):.2f} (base "
+            f"{float(v['base_accuracy'][k]):.2f}), Brier {float(v['brier'][k]):.3f} (base "
+            f"{float(v['base_brier'][k]):.3f}), {v['model'].values[k]}"
+        )
+    lines.append("after each evaluation (probabilities per distortion; cheapest action):")
+    for k, t in enumerate(advice.t):
+        row = " ".join(f"{p:.2f}" for p in advice.probabilities[k])
+        lines.append(f"  t = {int(t)}: {row}  {advice.best_action[k]} ({advice.confidence[k]:.0%})")
+    lines.append(
+        "expected cost = the grid's mean evaluations to target of each action's setting, "
+        "weighted by the probabilities; a switch is costed as a whole campaign of that decay"
+    )
     return lines
 
 

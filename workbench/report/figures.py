@@ -14,6 +14,7 @@ from ..world.space import Categorical, Continuous, Space
 
 __all__ = [
     "belief_marginals",
+    "distortion_probabilities",
     "evidence_marginals",
     "regret_curves",
     "robustness_frontier",
@@ -383,3 +384,24 @@ def evidence_marginals(
             twin.set_ylim(bottom=0)
         ax.set_ylim(rug * 2, top)
     axes[0].legend(frameon=False, fontsize="small")
+
+
+def distortion_probabilities(ax, t, probabilities, distortions) -> None:
+    """The monitor's probability of each distortion after every evaluation t."""
+    colours = _colours(len(distortions))
+    for k, name in enumerate(distortions):
+        ax.plot(
+            t,
+            probabilities[:, k],
+            _STYLES[k % 4],
+            marker="o",
+            ms=3.5,
+            color=colours[k],
+            label=str(name),
+            linewidth=1.6,
+        )
+    ax.set_xlabel("evaluations so far")
+    ax.set_ylabel("probability of the distortion")
+    ax.set_ylim(0, 1)
+    ax.grid(alpha=0.3, linewidth=0.5)
+    ax.legend(frameon=False, fontsize="small")

@@ -1,0 +1,90 @@
+"""`workbench monitor` from the command line: it prints its validation with the answer, and bad
+observation files or a grid of another study end in one line, exit code 2, nothing written."""
+
+import textwrap
+
+import pytest
+
+from workbench.cli import main
+
+STUDY = """
+title = "monitor"
+budget = 9
+replicates = 4
+seed = {seed}
+baselines = ["no-belief"]
+[initial]
+size = 3
+[space.x1]
+lower = 0
+upper = 10
+[space.x2]
+lower = 0
+upper = 10
+[belief.x1]
+centre = 5
+spread = 0.15
+[belief.x2]
+centre = 5
+spread = 0.15
+[[landscape]]
+name = "branin"
+[distortion]
+misplaced = {{ misplace = "worst" }}
+[strategy.prior-weighted]
+decay = ["hyperbolic:2", "hyperbolic:8"]
+"""
+GOOD = "x1,x2,y\n5,5,3.1\n4,6,2.0\n6,4,2.5\n5.5,5.2,1.1\n4.8,5.1,0.9\n"
+
+
+@pytest.fixture(scope="module")
+def grid(tmp_path_factory):
+    root = tmp_path_factory.mktemp("monitor")
+    for seed in (1, 2):
+        (root / f"s{seed}.toml").write_text(textwrap.dedent(STUDY.format(seed=seed)))
+    assert main(["run", str(root / "s1.toml"), "--out", str(root / "g1"), "--quiet"]) == 0
+    assert main(["run", str(root / "s2.toml"), "--out", str(root / "g2"), "--quiet"]) == 0
+    return root
+
+
+def _monitor(root, out, observations: str, grid: str = "g1", study: str = "s1.toml"):
+    path = out.parent / "live.csv"
+    path.write_text(observations)
+    argv = ["monitor", str(root / study), "--observations", str(path), "--grid", str(root / grid)]
+    return main([*argv, "--response", "y", "--out", str(out)]), out
+
+
+@pytest.mark.slow
+def test_monitor_prints_its_validation_with_the_advice_and_writes_its_pages(grid, tmp_path, capsys):
+    code, out = _monitor(grid, tmp_path / "out", GOOD)
+    printed = capsys.readouterr().out
+    assert code == 0
+    assert "validation on held-out replicates" in printed and "base" in printed
+    assert "advice:" in printed and "safety limits" in printed
+    assert (out / "monitor.html").exists() and (out / "monitor.md").exists()
+
+
+@pytest.mark.slow
+@pytest.mark.parametrize(
+    ("text", "words"),
+    [
+        (GOOD.replace("x1,x2,y", "x1,x3,y"), "column"),
+        (GOOD.replace("6,4,2.5", "16,4,2.5"), "row 3, column 'x1'"),
+        ("x1,x2,y\n5,5,3.1\n", "at least 2 rows"),
+    ],
+)
+def test_a_bad_observations_file_is_one_line_and_writes_nothing(
+    grid, text, words, tmp_path, capsys
+):
+    code, out = _monitor(grid, tmp_path / "out", text)
+    err = capsys.readouterr().err.strip()
+    assert code == 2 and len(err.splitlines()) == 1 and "live.csv" in err and words in err
+    assert not out.exists()
+
+
+@pytest.mark.slow
+def test_a_grid_of_another_study_is_refused(grid, tmp_path, capsys):
+    code, out = _monitor(grid, tmp_path / "out", GOOD, grid="g2")
+    err = capsys.readouterr().err.strip()
+    assert code == 2 and len(err.splitlines()) == 1 and "'--grid'" in err
+    assert not out.exists()
