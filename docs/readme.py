@@ -9,7 +9,8 @@ README.md; everything between the markers is replaced, nothing else is touched:
 - ``belief``: what ``workbench belief studies/demo.toml`` prints;
 - ``demo-output``: what ``workbench demo`` printed (its wall time is this machine's);
 - ``demo-summary``: the recommendation section of the report's ``summary.md``;
-- ``demo-by-kind``: its table by kind of landscape.
+- ``demo-by-kind``: its table by kind of landscape;
+- ``audit-output`` (and ``monitor-output``): what those commands print on the demo's files.
 
 The figures ``docs/figures/demo-*.png`` are the belief command's and the report's. The test
 ``tests/test_readme.py`` fails when the quoted recommendation no longer matches the demo's grid.
@@ -20,6 +21,7 @@ from __future__ import annotations
 import argparse
 import contextlib
 import io
+import os
 import re
 import shutil
 import sys
@@ -37,6 +39,19 @@ FIGURES = {
 
 # The lines of the demo's output that state the recommendation (``Recommendation.lines``).
 RECOMMENDATION = ("recommendation:", "  ")
+
+
+# The commands on real data run on the demo's files after the demo (``results/demo``).
+EVIDENCE = {
+    "audit": [
+        "audit",
+        "studies/demo.toml",
+        "--data",
+        "studies/bakery-history.csv",
+        "--grid",
+        "results/demo",
+    ],
+}
 
 
 def block(text: str, name: str) -> str:
@@ -85,7 +100,8 @@ def main(argv: list[str] | None = None) -> int:
     parser.add_argument("--no-run", action="store_true", help="use results/demo as it is")
     parser.add_argument("--results", default=str(ROOT / "results" / "demo"))
     args = parser.parse_args(argv)
-    results = Path(args.results)
+    results = Path(args.results).resolve()
+    os.chdir(ROOT)  # the quoted commands name files relative to the project
     text = README.read_text(encoding="utf-8")
 
     with tempfile.TemporaryDirectory() as tmp:
@@ -111,6 +127,13 @@ def main(argv: list[str] | None = None) -> int:
     summary = (results / "summary.md").read_text(encoding="utf-8")
     text = replace_block(text, "demo-summary", summary_section(summary))
     text = replace_block(text, "demo-by-kind", summary_section(summary, "By kind of landscape"))
+
+    with tempfile.TemporaryDirectory() as tmp:
+        for name, argv in EVIDENCE.items():
+            argv = [str(results) if a == "results/demo" else a for a in argv]
+            printed = _printed([*argv, "--out", str(Path(tmp) / name)])
+            printed = printed.replace(str(Path(tmp) / name), f"results/demo/{name}")
+            text = replace_block(text, f"{name}-output", fenced(printed))
 
     for source, target in FIGURES.items():
         shutil.copyfile(results / "figures" / source, ROOT / "docs" / "figures" / target)
