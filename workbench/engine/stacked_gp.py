@@ -285,9 +285,7 @@ def fit(
             value, grad = lml_and_grad(T, D[owner[idx]], ys[owner[idx]])
             return -value, -grad
 
-        result = minimise(
-            negative, x0, box[:, 0], box[:, 1], maxiter=iters, maxfun=2 * iters
-        )
+        result = minimise(negative, x0, box[:, 0], box[:, 1], maxiter=iters, maxfun=2 * iters)
         theta = np.empty((R, p + 2))
         for r in range(R):
             mine = np.flatnonzero(owner == r)
@@ -297,5 +295,7 @@ def fit(
         theta = np.where(ok[:, None], theta, default[None, :])
         stack, ok = build(F, y, theta)
         if not ok.all():
-            raise np.linalg.LinAlgError("covariance matrix is not positive definite even with jitter")
+            raise np.linalg.LinAlgError(
+                "covariance matrix is not positive definite even with jitter"
+            )
     return stack
