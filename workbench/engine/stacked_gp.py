@@ -143,7 +143,11 @@ def lml_and_grad(theta: np.ndarray, D: np.ndarray, y: np.ndarray) -> tuple[np.nd
     grad = np.empty((B, p + 2))
     DG = np.matmul(D.reshape(B, p, n * n), G.reshape(B, n * n, 1))[:, :, 0]
     grad[:, :p] = (0.5 * 5.0 / 3.0) * signal[:, None] * inv_l2 * DG
-    grad[:, p] = 0.5 * signal * np.einsum("bij,bij->b", W, k)
+    # A matrix product, not einsum: einsum's buffered reduction over more than 8,192
+    # elements splits where the stack's size says, which would make a campaign's numbers
+    # depend on its batch.
+    Wk = np.matmul(W.reshape(B, 1, n * n), k.reshape(B, n * n, 1))[:, 0, 0]
+    grad[:, p] = 0.5 * signal * Wk
     grad[:, p + 1] = 0.5 * noise * np.trace(W, axis1=1, axis2=2)
     ok &= np.isfinite(grad).all(axis=1)
     value = np.where(ok, value, -np.inf)
