@@ -99,7 +99,7 @@ def main() -> None:
         times = {"ours": [], "base": []}
         regret = {"ours": [], "base": []}
 
-        def streams(r):
+        def streams(r, name=name):
             return seeding.campaign_streams(seeding.derive(2026, name, r))
 
         for r in range(R):

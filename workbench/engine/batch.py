@@ -234,7 +234,9 @@ def _run(campaigns, streams_list) -> list[Trace]:
 
 def _models(states: list[_Campaign], data: list) -> sg.Stack:
     """Refit or condition every campaign's GP; one stack in the order of ``states``."""
-    F = np.stack([s.space.features(s.points[rows]) for s, (rows, _) in zip(states, data)])
+    F = np.stack(
+        [s.space.features(s.points[rows]) for s, (rows, _) in zip(states, data, strict=True)]
+    )
     Y = np.stack([y for _, y in data])
     n = F.shape[1]
     refit = np.array([s.theta is None or gp.refit_due(n, s.last_fit) for s in states])
@@ -273,7 +275,11 @@ def _models(states: list[_Campaign], data: list) -> sg.Stack:
 def _scores(states, kinds, refs, lams, stack, U, gradient=False):
     """Scores ``(R, m)`` of cube points ``U`` ``(R, m, d)``, and with ``gradient`` their
     derivatives in ``U`` (model term analytic, belief term by forward differences)."""
-    F = np.stack([s.space.features(u) for s, u in zip(states, U)])
+    if all(s.space._continuous for s in states):
+        # Features of a continuous space are the clipped points: one call for the batch.
+        F = np.clip(U, 0.0, 1.0)
+    else:
+        F = np.stack([s.space.features(u) for s, u in zip(states, U, strict=True)])
     out = stack.predict(F, gradient=gradient)
     mean, sd = out[0], out[1]
     ref = refs[:, None]
@@ -331,7 +337,7 @@ def _propose(states: list[_Campaign], data: list, lams: np.ndarray, stack: sg.St
     R = len(states)
     kinds = np.array([s.kind for s in states])
     refs = np.empty(R)
-    for i, (s, (_, y)) in enumerate(zip(states, data)):
+    for i, (s, (_, y)) in enumerate(zip(states, data, strict=True)):
         if s.kind == _GOOD:
             refs[i] = float(np.quantile(y, s.c.quantile))
             s.threshold[t] = refs[i]
@@ -345,7 +351,7 @@ def _propose(states: list[_Campaign], data: list, lams: np.ndarray, stack: sg.St
             candidates(
                 Step(s.space, s.points[rows], y, s.belief, s.log_belief_max, lam, 0.0), s.rng
             )
-            for s, (rows, y), lam in zip(states, data, lams)
+            for s, (rows, y), lam in zip(states, data, lams, strict=True)
         ]
     )
     score = _scores(states, kinds, refs, lams, stack, C)
@@ -357,19 +363,16 @@ def _propose(states: list[_Campaign], data: list, lams: np.ndarray, stack: sg.St
     # 2. polish the best few of every campaign at once, each start its own problem.
     k = POLISHES
     d = C.shape[2]
-    owner = np.repeat(np.arange(R), k)
+    # Every evaluation scores all R·k current points as one (R, k) block, so the arithmetic
+    # of a campaign is the same whatever its batch; rows not asked for are ignored.
+    current = C[:, :k].copy()
 
     def negative(X, idx):
-        camps = owner[idx]
-        sub = [states[j] for j in camps]
-        v, g = _scores(
-            sub, kinds[camps], refs[camps], lams[camps], stack.take(camps), X[:, None, :], True
-        )
-        v, g = v[:, 0], g[:, 0]
+        current.reshape(R * k, d)[idx] = X
+        v, g = _scores(states, kinds, refs, lams, stack, current, True)
+        v, g = v.reshape(R * k)[idx], g.reshape(R * k, d)[idx]
         bad = ~np.isfinite(v)
-        v = np.where(bad, 1e300, -v)
-        g = np.where(bad[:, None], 0.0, -g)
-        return v, g
+        return np.where(bad, 1e300, -v), np.where(bad[:, None], 0.0, -g)
 
     result = minimise(
         negative,

@@ -45,20 +45,24 @@ class BatchResult:
     nfev: np.ndarray  # (B,)
 
 
-def _two_loop(g: np.ndarray, S: np.ndarray, Y: np.ndarray, rho: np.ndarray) -> np.ndarray:
+def _two_loop(
+    g: np.ndarray, S: np.ndarray, Y: np.ndarray, rho: np.ndarray, used: int
+) -> np.ndarray:
     """``H g`` for each row by the two-loop recursion; unused memory slots are zero
-    (``rho = 0``), which leaves them without effect. Slot ``-1`` is the newest."""
+    (``rho = 0``), which leaves them without effect. Slot ``-1`` is the newest; only the last
+    ``used`` slots are visited."""
     q = g.copy()
     m = S.shape[1]
+    first = m - max(used, 1)
     a = np.zeros((len(g), m))
-    for j in range(m - 1, -1, -1):
+    for j in range(m - 1, first - 1, -1):
         a[:, j] = rho[:, j] * np.einsum("ij,ij->i", S[:, j], q)
         q -= a[:, j, None] * Y[:, j]
     sy = np.einsum("ij,ij->i", S[:, -1], Y[:, -1])
     yy = np.einsum("ij,ij->i", Y[:, -1], Y[:, -1])
     gamma = np.where((rho[:, -1] > 0) & (yy > 0), sy / np.where(yy > 0, yy, 1.0), 1.0)
     r = gamma[:, None] * q
-    for j in range(m):
+    for j in range(first, m):
         b = rho[:, j] * np.einsum("ij,ij->i", Y[:, j], r)
         r += S[:, j] * (a[:, j] - b)[:, None]
     return r
@@ -99,6 +103,7 @@ def minimise(
     S = np.zeros((B, memory, q))
     Y = np.zeros((B, memory, q))
     rho = np.zeros((B, memory))
+    stored = np.zeros(B, dtype=int)
 
     def projected_gradient(i):
         return np.clip(x[i] - g[i], lo[i], hi[i]) - x[i]
@@ -110,16 +115,17 @@ def minimise(
         xi, gi = x[idx], g[idx]
         held = ((xi <= lo[idx]) & (gi > 0)) | ((xi >= hi[idx]) & (gi < 0))
         gf = np.where(held, 0.0, gi)
-        d = -_two_loop(gf, S[idx], Y[idx], rho[idx])
+        d = -_two_loop(gf, S[idx], Y[idx], rho[idx], int(stored[idx].max()))
         d[held] = 0.0
         slope = np.einsum("ij,ij->i", gi, d)
         bad = ~(slope < 0)
         if bad.any():
             rho[idx[bad]] = 0.0
+            stored[idx[bad]] = 0
             S[idx[bad]] = 0.0
             Y[idx[bad]] = 0.0
             d[bad] = -gf[bad]
-        fresh = ~(rho[idx] > 0).any(axis=1)
+        fresh = stored[idx] == 0
         norm = np.sqrt(np.einsum("ij,ij->i", d, d))
         alpha = np.where(fresh, np.minimum(1.0, 1.0 / np.where(norm > 0, norm, 1.0)), 1.0)
 
@@ -158,10 +164,10 @@ def minimise(
         yy = np.einsum("ij,ij->i", yv, yv)
         keep = sy > _EPS * yy
         k = ia[keep]
-        S[k] = np.roll(S[k], -1, axis=1)
-        Y[k] = np.roll(Y[k], -1, axis=1)
-        rho[k] = np.roll(rho[k], -1, axis=1)
-        S[k, -1], Y[k, -1], rho[k, -1] = s[keep], yv[keep], 1.0 / sy[keep]
+        if k.size:
+            S[k, :-1], Y[k, :-1], rho[k, :-1] = S[k, 1:], Y[k, 1:], rho[k, 1:]
+            S[k, -1], Y[k, -1], rho[k, -1] = s[keep], yv[keep], 1.0 / sy[keep]
+            stored[k] = np.minimum(stored[k] + 1, memory)
         reduction = (f[ia] - new_f[a]) / np.maximum.reduce(
             [np.abs(f[ia]), np.abs(new_f[a]), np.ones(len(a))]
         )

@@ -48,8 +48,8 @@ class Step:
     """What a strategy sees before proposing evaluation ``t + 1``.
 
     ``X`` are the evaluated cube points, ``y`` the values the model sees (failed evaluations
-    imputed, see :mod:`workbench.engine.campaign`), ``weight`` is λ(t) with ``t = len(X)`` evaluations
-    spent, ``model`` the fitted surrogate (None for model-free strategies).
+    imputed, see :mod:`workbench.engine.campaign`), ``weight`` is λ(t) with ``t = len(X)``
+    evaluations spent, ``model`` the fitted surrogate (None for model-free strategies).
     """
 
     space: Space
