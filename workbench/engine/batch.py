@@ -12,9 +12,10 @@ Per step, for the campaigns that use a model:
    the last hyper-parameters on the new data;
 2. candidates as :func:`workbench.engine.strategies.base.candidates`, scored over ``(R, m)``
    with each campaign's belief weight λ, threshold f_γ and best value;
-3. the ``POLISHES`` best candidates of every campaign polished at once by the vectorised
-   L-BFGS-B with the analytic gradient of the model term (log EI or the log odds of good) and
-   a forward-difference gradient of the belief term (each campaign's belief on its own rows),
+3. the ``POLISHES`` best candidates of every campaign polished by scipy's L-BFGS-B driver
+   per campaign (``POLISH_ITERATIONS`` iterations and evaluations), all requests answered at
+   once, with the analytic gradient of the model term (log EI or the log odds of good) and a
+   forward-difference gradient of the belief term (each campaign's belief on its own rows),
    keeping the best point seen;
 4. the first new point (no repeated evaluation), checked for all campaigns at once.
 
@@ -45,7 +46,7 @@ from .campaign import (
     _mode_point,
     _model_targets,
 )
-from .lbfgsb import minimise
+from .lbfgsb import minimise_driven
 from .strategies import Step, get
 from .strategies.base import (
     _FD_STEP,
@@ -363,27 +364,36 @@ def _propose(states: list[_Campaign], data: list, lams: np.ndarray, stack: sg.St
     # 2. polish the best few of every campaign at once, each start its own problem.
     k = POLISHES
     d = C.shape[2]
-    # Every evaluation scores all R·k current points as one (R, k) block, so the arithmetic
-    # of a campaign is the same whatever its batch; rows not asked for are ignored.
+    # As the lone engine: one L-BFGS-B problem per campaign over its k starts (their scores
+    # add up, so each start moves independently), keeping the best point seen for each start.
+    # Every evaluation scores all R·k current points as one (R, k) block, so a campaign's
+    # arithmetic is the same whatever its batch; rows not asked for are ignored.
     current = C[:, :k].copy()
+    best_points = current.copy()
+    best_scores = np.full((R, k), -np.inf)
 
     def negative(X, idx):
-        current.reshape(R * k, d)[idx] = X
+        current[idx] = X.reshape(len(idx), k, d)
         v, g = _scores(states, kinds, refs, lams, stack, current, True)
-        v, g = v.reshape(R * k)[idx], g.reshape(R * k, d)[idx]
-        bad = ~np.isfinite(v)
-        return np.where(bad, 1e300, -v), np.where(bad[:, None], 0.0, -g)
+        v, g = v[idx], g[idx]
+        v = np.where(np.isfinite(v), v, -1e300)
+        better = v > best_scores[idx]
+        rows, cols = np.nonzero(better)
+        best_points[idx[rows], cols] = current[idx[rows], cols]
+        best_scores[idx[rows], cols] = v[rows, cols]
+        g = np.where(np.isfinite(g), g, 0.0)
+        return -v.sum(axis=1), -g.reshape(len(idx), k * d)
 
-    result = minimise(
+    minimise_driven(
         negative,
-        C[:, :k].reshape(R * k, d),
+        C[:, :k].reshape(R, k * d),
         0.0,
         1.0,
         maxiter=POLISH_ITERATIONS,
         maxfun=POLISH_ITERATIONS,
     )
-    polished = result.x.reshape(R, k, d)
-    polished_score = -result.fun.reshape(R, k)
+    polished = best_points
+    polished_score = best_scores.copy()
     discrete = [i for i, s in enumerate(states) if s.space.is_discrete.any()]
     if discrete:
         # Snapping moves a polished point to its bins: score it where it will be evaluated.

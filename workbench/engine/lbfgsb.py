@@ -13,7 +13,8 @@ Nocedal & Zhu 1995):
    pairs ``(s, y)`` scaled by ``γ = sᵀy / yᵀy``; if ``d`` is not a descent direction the
    memory is dropped and ``d = −g`` (projected);
 2. projected backtracking: ``x⁺ = clip(x + α d)`` with ``α = 1`` (``min(1, 1/‖d‖)`` without
-   memory), halved until ``f(x⁺) ≤ f(x) + c₁ gᵀ(x⁺ − x)``;
+   memory), shortened by quadratic interpolation (to between a tenth and a half) until
+   ``f(x⁺) ≤ f(x) + c₁ gᵀ(x⁺ − x)``;
 3. the pair is stored when ``sᵀy > ε yᵀy`` (curvature condition).
 
 A problem stops when its projected gradient is below ``pgtol`` (infinity norm), its relative
@@ -151,7 +152,14 @@ def minimise(
             acc = searching[ok]
             accepted[acc] = True
             new_x[acc], new_f[acc], new_g[acc] = trial[ok], ft[ok], gt[ok]
-            alpha[searching] *= 0.5
+            # Shorten by the minimiser of the quadratic through f(x), the slope gᵀ(x⁺ − x)/α
+            # and f(x⁺), kept within [0.1α, 0.5α] (Nocedal & Wright 2006, eq. 3.57).
+            a_old = alpha[searching]
+            excess = ft - f[ids] - decrease
+            with np.errstate(all="ignore"):
+                step = -decrease * a_old / (2.0 * excess)
+            step = np.where(finite & (excess > 0), step, 0.5 * a_old)
+            alpha[searching] = np.clip(step, 0.1 * a_old, 0.5 * a_old)
             searching = searching[~ok & (nfev[ids] < maxfun[ids])]
 
         # Problems whose line search failed stop where they are.
@@ -176,4 +184,102 @@ def minimise(
         done = (reduction <= factr * _EPS) | (nit[ia] >= maxiter[ia]) | (nfev[ia] >= maxfun[ia])
         done |= np.abs(projected_gradient(ia)).max(axis=1) <= pgtol
         active[ia[done]] = False
+    return BatchResult(best_x, best_f, nit, nfev)
+
+
+def minimise_driven(
+    fun: Callable[[np.ndarray, np.ndarray], tuple[np.ndarray, np.ndarray]],
+    x0: np.ndarray,
+    lower: np.ndarray,
+    upper: np.ndarray,
+    *,
+    maxiter: int | np.ndarray,
+    maxfun: int | np.ndarray,
+    memory: int = 10,
+    pgtol: float = 1e-5,
+    factr: float = 1e7,
+    maxls: int = 20,
+) -> BatchResult:
+    """The same ``B`` problems as :func:`minimise`, each driven by scipy's own L-BFGS-B (the
+    reverse-communication ``setulb`` behind ``scipy.optimize.fmin_l_bfgs_b``: generalised
+    Cauchy point, subspace minimisation, Moré–Thuente line search), with every problem's
+    request for a value and gradient answered in one call of ``fun``.
+
+    The stopping rules are ``fmin_l_bfgs_b``'s: ``maxiter`` iterations, or more than ``maxfun``
+    evaluations at the end of an iteration. A problem whose evaluation fails (non-finite) stops
+    with value ``inf``, as a failed start is skipped by :func:`workbench.gp.fit`.
+    """
+    from scipy.optimize import _lbfgsb  # the driver of fmin_l_bfgs_b
+
+    x = np.array(x0, dtype=float, ndmin=2)
+    B, q = x.shape
+    lo = np.ascontiguousarray(np.broadcast_to(np.asarray(lower, dtype=float), (B, q)))
+    hi = np.ascontiguousarray(np.broadcast_to(np.asarray(upper, dtype=float), (B, q)))
+    maxiter = np.broadcast_to(np.asarray(maxiter, dtype=int), (B,))
+    maxfun = np.broadcast_to(np.asarray(maxfun, dtype=int), (B,))
+    x = np.clip(x, lo, hi)
+    nbd = np.full(q, 2, dtype=np.int32)  # both bounds
+    m = memory
+    state = [
+        {
+            "x": x[i].copy(),
+            "f": np.array(0.0),
+            "g": np.zeros(q),
+            "wa": np.zeros(2 * m * q + 5 * q + 11 * m * m + 8 * m),
+            "iwa": np.zeros(3 * q, dtype=np.int32),
+            "task": np.zeros(2, dtype=np.int32),
+            "ln_task": np.zeros(2, dtype=np.int32),
+            "lsave": np.zeros(4, dtype=np.int32),
+            "isave": np.zeros(44, dtype=np.int32),
+            "dsave": np.zeros(29),
+        }
+        for i in range(B)
+    ]
+    nit = np.zeros(B, dtype=int)
+    nfev = np.zeros(B, dtype=int)
+    best_x, best_f = x.copy(), np.full(B, np.inf)
+    failed = np.zeros(B, dtype=bool)
+    last_x = [None] * B  # fmin_l_bfgs_b does not re-evaluate a repeated point
+    last_fg = [None] * B
+    pending = list(range(B))
+    while pending:
+        # Step every pending problem's driver until it asks for a value or stops.
+        asks = []
+        for i in pending:
+            s = state[i]
+            while True:
+                _lbfgsb.setulb(
+                    m, s["x"], lo[i], hi[i], nbd, s["f"], s["g"], factr, pgtol, s["wa"],
+                    s["iwa"], s["task"], s["lsave"], s["isave"], s["dsave"], maxls, s["ln_task"],
+                )  # fmt: skip
+                task = s["task"][0]
+                if task == 3:  # wants f and g at x
+                    if last_x[i] is not None and np.array_equal(last_x[i], s["x"]):
+                        s["f"], s["g"] = last_fg[i][0], last_fg[i][1].copy()
+                        continue
+                    asks.append(i)
+                    break
+                if task == 1:  # a new iteration
+                    nit[i] += 1
+                    if nit[i] >= maxiter[i] or nfev[i] > maxfun[i]:
+                        break
+                    continue
+                break
+        if not asks:
+            break
+        idx = np.array(asks)
+        X = np.stack([state[i]["x"] for i in asks])
+        fv, gv = fun(X, idx)
+        for j, i in enumerate(asks):
+            nfev[i] += 1
+            if not (np.isfinite(fv[j]) and np.isfinite(gv[j]).all()):
+                failed[i] = True
+                continue
+            s = state[i]
+            s["f"], s["g"] = np.array(float(fv[j])), np.array(gv[j], dtype=float)
+            last_x[i], last_fg[i] = s["x"].copy(), (s["f"], s["g"].copy())
+            if fv[j] < best_f[i]:
+                best_x[i], best_f[i] = s["x"], float(fv[j])
+        pending = [i for i in asks if not failed[i]]
+    best_f[failed] = np.inf
     return BatchResult(best_x, best_f, nit, nfev)

@@ -9,8 +9,9 @@ start and jitter policy of :mod:`workbench.gp`); only the arithmetic is stacked:
   matrix by matrix with ``gp.JITTER_STEPS`` (the same LAPACK routine, so the same factor);
 - the inverse factor ``L⁻¹`` is kept, so a prediction is matrix products only:
   ``μ = s² k*ᵀα``, ``σ² = s² − s⁴ ‖L⁻¹k*‖²`` (Algorithm 2.1);
-- the hyper-parameter fit is the L-BFGS-B of :mod:`workbench.engine.lbfgsb`, vectorised over
-  every start of every campaign, on the log marginal likelihood and its gradient (eq. 5.9).
+- the hyper-parameter fit runs scipy's L-BFGS-B driver per start of every campaign, all
+  their requests for the log marginal likelihood and its gradient (eq. 5.9) answered by one
+  stacked evaluation (:func:`workbench.engine.lbfgsb.minimise_driven`).
 
 Every operation acts slice by slice, so a campaign's numbers do not depend on the others in
 its stack.
@@ -25,7 +26,7 @@ import numpy as np
 from scipy.linalg.lapack import dtrtri
 
 from .. import gp
-from .lbfgsb import minimise
+from .lbfgsb import minimise_driven
 
 __all__ = [
     "Stack",
@@ -42,10 +43,17 @@ _VARIANCE_FLOOR = 1e-12
 
 
 def _unit_matern(z2: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
-    """Unit-signal Matérn 5/2 ``(1 + z + z²/3) e^(−z)``, ``z`` and ``e^(−z)`` from ``z²``."""
-    z = np.sqrt(z2)
-    e = np.exp(-z)
-    k = (1.0 + z * (1.0 + z * (1.0 / 3.0))) * e
+    """Unit-signal Matérn 5/2 ``(1 + z + z²/3) e^(−z)``, ``z`` and ``e^(−z)`` from ``z²``
+    (overwritten: it becomes ``z``). In place, as :func:`workbench.gp._unit_matern`: the
+    passes over the stack are the cost."""
+    z = np.sqrt(z2, out=z2)
+    e = np.negative(z)
+    np.exp(e, out=e)
+    k = z * (1.0 / 3.0)
+    k += 1.0
+    k *= z
+    k += 1.0
+    k *= e
     return k, z, e
 
 
@@ -280,7 +288,8 @@ def fit(
     (clipped into the bounds) for ``maxiter // 2`` iterations, or else the default plus
     ``restarts`` uniform draws in the log box from ``rngs[r]`` for ``maxiter`` iterations, at
     most ``2·iterations`` evaluations. The best optimum wins; if its factorisation fails the
-    default is used (and if that fails too, ``numpy.linalg.LinAlgError``).
+    default is used (and if that fails too, ``numpy.linalg.LinAlgError``). A start whose
+    evaluation fails is skipped, as in :func:`workbench.gp.fit`.
     """
     R, n, p = F.shape
     box = bounds.log_box(p)
@@ -306,11 +315,14 @@ def fit(
             value, grad = lml_and_grad(T, F[owner[idx]], ys[owner[idx]])
             return -value, -grad
 
-        result = minimise(negative, x0, box[:, 0], box[:, 1], maxiter=iters, maxfun=2 * iters)
+        result = minimise_driven(
+            negative, x0, box[:, 0], box[:, 1], maxiter=iters, maxfun=2 * iters
+        )
         theta = np.empty((R, p + 2))
         for r in range(R):
             mine = np.flatnonzero(owner == r)
-            theta[r] = result.x[mine[np.argmin(result.fun[mine])]]
+            best = mine[np.argmin(result.fun[mine])]
+            theta[r] = result.x[best] if np.isfinite(result.fun[best]) else default
     stack, ok = build(F, y, theta)
     if not ok.all():
         theta = np.where(ok[:, None], theta, default[None, :])
