@@ -134,13 +134,6 @@ class _Campaign:
     def uniform(self) -> np.ndarray:
         return self.space.snap(self.rng.random((1, self.d)))[0]
 
-    def belief_term(self, U: np.ndarray, lam: float) -> np.ndarray:
-        """λ times the belief's part of the score at cube points ``U``."""
-        log_belief = np.maximum(self.belief.logpdf(U), LOG_BELIEF_FLOOR)
-        if self.kind == _GOOD:
-            return lam * belief_log_odds(log_belief, self.log_belief_max)
-        return lam * log_belief
-
     def trace(self) -> Trace:
         placement = self.c.placement
         failed = ~np.isfinite(self.value)
@@ -273,6 +266,21 @@ def _models(states: list[_Campaign], data: list) -> sg.Stack:
     return whole.take(np.argsort(np.concatenate(order), kind="stable"))
 
 
+def _log_beliefs(states: list[_Campaign], rows: np.ndarray) -> np.ndarray:
+    """Each campaign's belief log density at its own rows ``(R, m, d)``; campaigns holding the
+    same belief object (the settings of one grid cell) share one call. A density is a
+    function of each row alone, so sharing the call changes no value."""
+    R, m, d = rows.shape
+    out = np.empty((R, m))
+    groups: dict[int, list[int]] = {}
+    for i, s in enumerate(states):
+        groups.setdefault(id(s.belief), []).append(i)
+    for members in groups.values():
+        dens = states[members[0]].belief.logpdf(rows[members].reshape(-1, d))
+        out[members] = np.asarray(dens, dtype=float).reshape(len(members), m)
+    return out
+
+
 def _scores(states, kinds, refs, lams, stack, U, gradient=False):
     """Scores ``(R, m)`` of cube points ``U`` ``(R, m, d)``, and with ``gradient`` their
     derivatives in ``U`` (model term analytic, belief term by forward differences)."""
@@ -296,20 +304,27 @@ def _scores(states, kinds, refs, lams, stack, U, gradient=False):
         dF = dm[:, :, None] * out[2] + ds[:, :, None] * out[3]
         jac = np.stack([s.jacobian for s in states])
         grad = np.matmul(dF, jac)
-    for i, s in enumerate(states):
-        if lams[i] == 0:
-            continue
-        u = U[i]
-        if not gradient:
-            value[i] += s.belief_term(u, lams[i])
-            continue
-        m, d = u.shape
-        sign = np.where(u + _FD_STEP > 1.0, -1.0, 1.0)
-        probes = u[:, None, :] + sign[:, None, :] * (_FD_STEP * np.eye(d))[None, :, :]
-        b = s.belief_term(np.vstack([u, probes.reshape(-1, d)]), lams[i])
-        b0, b1 = b[:m], b[m:].reshape(m, d)
-        value[i] += b0
-        grad[i] += (b1 - b0[:, None]) / (sign * _FD_STEP)
+    weighted = [i for i in range(len(states)) if lams[i] != 0]
+    if not weighted:
+        return (value, grad) if gradient else value
+    m, d = U.shape[1], U.shape[2]
+    if gradient:
+        # Forward differences of the belief term (backwards where a step would leave the cube).
+        sign = np.where(U[weighted] + _FD_STEP > 1.0, -1.0, 1.0)
+        probes = U[weighted][:, :, None, :] + sign[:, :, None, :] * (_FD_STEP * np.eye(d))
+        rows = np.concatenate([U[weighted], probes.reshape(len(weighted), m * d, d)], axis=1)
+    else:
+        rows = U[weighted]
+    # λ · log π (floored) for log EI; λ · log(P_g/P_b) for the log odds of good.
+    log_belief = np.maximum(_log_beliefs([states[i] for i in weighted], rows), LOG_BELIEF_FLOOR)
+    good = kinds[weighted] == _GOOD
+    if good.any():
+        lbm = np.array([states[i].log_belief_max for i in weighted])[good]
+        log_belief[good] = belief_log_odds(log_belief[good], lbm[:, None])
+    b = lams[weighted][:, None] * log_belief
+    value[weighted] += b[:, :m]
+    if gradient:
+        grad[weighted] += (b[:, m:].reshape(-1, m, d) - b[:, :m, None]) / (sign * _FD_STEP)
     return (value, grad) if gradient else value
 
 
