@@ -254,7 +254,7 @@ def minimise_driven(
                 )  # fmt: skip
                 task = s["task"][0]
                 if task == 3:  # wants f and g at x
-                    if last_x[i] is not None and np.array_equal(last_x[i], s["x"]):
+                    if last_x[i] is not None and last_x[i] == s["x"].tobytes():
                         s["f"], s["g"] = last_fg[i][0], last_fg[i][1].copy()
                         continue
                     asks.append(i)
@@ -270,16 +270,16 @@ def minimise_driven(
         idx = np.array(asks)
         X = np.stack([state[i]["x"] for i in asks])
         fv, gv = fun(X, idx)
-        for j, i in enumerate(asks):
-            nfev[i] += 1
-            if not (np.isfinite(fv[j]) and np.isfinite(gv[j]).all()):
-                failed[i] = True
-                continue
+        nfev[idx] += 1
+        finite = np.isfinite(fv) & np.isfinite(gv).all(axis=1)
+        failed[idx[~finite]] = True
+        better = finite & (fv < best_f[idx])
+        best_x[idx[better]], best_f[idx[better]] = X[better], fv[better]
+        for j in np.flatnonzero(finite):
+            i = asks[j]
             s = state[i]
             s["f"], s["g"] = np.array(float(fv[j])), np.array(gv[j], dtype=float)
-            last_x[i], last_fg[i] = s["x"].copy(), (s["f"], s["g"].copy())
-            if fv[j] < best_f[i]:
-                best_x[i], best_f[i] = s["x"], float(fv[j])
+            last_x[i], last_fg[i] = X[j].tobytes(), (s["f"], s["g"].copy())
         pending = [i for i in asks if not failed[i]]
     best_f[failed] = np.inf
     return BatchResult(best_x, best_f, nit, nfev)
