@@ -140,18 +140,20 @@ def minimise(
             if searching.size == 0:
                 break
             ids = idx[searching]
-            trial = np.clip(xi[searching] + alpha[searching, None] * d[searching], lo[ids], hi[ids])
-            ft, gt = fun(trial, ids)
+            step_x = np.clip(
+                xi[searching] + alpha[searching, None] * d[searching], lo[ids], hi[ids]
+            )
+            ft, gt = fun(step_x, ids)
             nfev[ids] += 1
             finite = np.isfinite(ft) & np.isfinite(gt).all(axis=1)
             ft = np.where(finite, ft, np.inf)
             improved = ft < best_f[ids]
-            best_x[ids[improved]], best_f[ids[improved]] = trial[improved], ft[improved]
-            decrease = np.einsum("ij,ij->i", gi[searching], trial - xi[searching])
+            best_x[ids[improved]], best_f[ids[improved]] = step_x[improved], ft[improved]
+            decrease = np.einsum("ij,ij->i", gi[searching], step_x - xi[searching])
             ok = finite & (ft <= f[ids] + _ARMIJO * decrease)
             acc = searching[ok]
             accepted[acc] = True
-            new_x[acc], new_f[acc], new_g[acc] = trial[ok], ft[ok], gt[ok]
+            new_x[acc], new_f[acc], new_g[acc] = step_x[ok], ft[ok], gt[ok]
             # Shorten by the minimiser of the quadratic through f(x), the slope gᵀ(x⁺ − x)/α
             # and f(x⁺), kept within [0.1α, 0.5α] (Nocedal & Wright 2006, eq. 3.57).
             a_old = alpha[searching]
