@@ -1,4 +1,5 @@
-"""Engine benchmark: our no-belief campaign against a plain scikit-learn loop, in one run.
+"""Engine benchmark: our no-belief campaigns, alone and in a batch, against a plain scikit-learn
+loop, in one run.
 
 The baseline refits scikit-learn's GaussianProcessRegressor (Matérn 5/2 with one length scale
 per dimension times a constant, plus a white-noise term, ``normalize_y=True``, two optimizer
@@ -7,8 +8,10 @@ candidates. Both run the same landscapes (Branin with budget 50, Hartmann 6-D wi
 the same seeds and the same Sobol initial design, in this process (start-up excluded), with
 BLAS single-threaded for both.
 
-Prints seconds per campaign, their ratio, the median final regret of each, and a one-sided
-Mann–Whitney test of "ours is worse" (p < 0.05 would say it is).
+Ours runs each replicate alone (R = 1, a batch of one) and all replicates in one lock-step
+batch (R = replicates, :func:`workbench.engine.batch.run_batch`); the traces are the same, so
+the regret is too. Prints seconds per campaign, the ratios to the baseline, the median final
+regret of each, and a one-sided Mann–Whitney test of "ours is worse" (p < 0.05 would say it is).
 
     python benchmarks/engine.py [--replicates R]
 """
@@ -30,6 +33,7 @@ from threadpoolctl import threadpool_limits
 from workbench import seeding
 from workbench.engine import campaign
 from workbench.engine.acquisition import expected_improvement
+from workbench.engine.batch import run_batch
 from workbench.world import landscapes
 from workbench.world.beliefs import gaussian_at
 from workbench.world.space import Space
@@ -61,41 +65,60 @@ def baseline(placement, budget: int, n0: int, streams) -> float:
     return float(y.min() - placement.minimum)
 
 
-def ours(placement, budget: int, n0: int, streams) -> float:
+def _spec(placement, budget: int, n0: int) -> campaign.Campaign:
     d = placement.minimisers.shape[1]
     space = Space.unit_cube(d)
-    spec = campaign.Campaign(
+    return campaign.Campaign(
         "no-belief", placement, space, gaussian_at(np.full(d, 0.5), 0.2), budget, "sobol", n0
     )
-    return float(campaign.run(spec, streams).regret[-1])
+
+
+def ours(placement, budget: int, n0: int, streams) -> float:
+    return float(campaign.run(_spec(placement, budget, n0), streams).regret[-1])
+
+
+def ours_batch(placement, budget: int, n0: int, streams_list) -> list[float]:
+    spec = _spec(placement, budget, n0)
+    traces = run_batch([spec] * len(streams_list), streams_list)
+    return [float(t.regret[-1]) for t in traces]
 
 
 def main() -> None:
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     parser.add_argument("--replicates", type=int, default=8)
     args = parser.parse_args()
+    R = args.replicates
     print(
-        f"{'landscape':<10} {'budget':>6} {'ours s':>8} {'sklearn s':>10} {'ratio':>7} "
-        f"{'ours regret':>12} {'sklearn regret':>15} {'p(ours worse)':>14}"
+        f"{'landscape':<10} {'budget':>6} {'sklearn s':>10} {'R=1 s':>8} {'ratio':>7} "
+        f"{f'R={R} s':>8} {'ratio':>7} {'ours regret':>12} {'sklearn regret':>15} "
+        f"{'p(ours worse)':>14} {'same':>5}"
     )
     for name, budget in CASES:
         placement = landscapes.get(name).placed()
         d = placement.minimisers.shape[1]
         times = {"ours": [], "base": []}
         regret = {"ours": [], "base": []}
-        for r in range(args.replicates):
+
+        def streams(r, name=name):
+            return seeding.campaign_streams(seeding.derive(2026, name, r))
+
+        for r in range(R):
             for label, fn in (("ours", ours), ("base", baseline)):
-                streams = seeding.campaign_streams(seeding.derive(2026, name, r))
                 start = time.perf_counter()
                 with threadpool_limits(limits=1, user_api="blas"):
-                    regret[label].append(fn(placement, budget, d + 1, streams))
+                    regret[label].append(fn(placement, budget, d + 1, streams(r)))
                 times[label].append(time.perf_counter() - start)
+        start = time.perf_counter()
+        batched = ours_batch(placement, budget, d + 1, [streams(r) for r in range(R)])
+        t_batch = (time.perf_counter() - start) / R
         t_ours, t_base = np.mean(times["ours"]), np.mean(times["base"])
         # One-sided: is our final regret stochastically greater than the baseline's?
         p = stats.mannwhitneyu(regret["ours"], regret["base"], alternative="greater").pvalue
+        same = "yes" if batched == regret["ours"] else "no"
         print(
-            f"{name:<10} {budget:>6} {t_ours:>8.3f} {t_base:>10.3f} {t_base / t_ours:>7.1f} "
-            f"{np.median(regret['ours']):>12.3g} {np.median(regret['base']):>15.3g} {p:>14.3f}"
+            f"{name:<10} {budget:>6} {t_base:>10.3f} {t_ours:>8.3f} {t_base / t_ours:>7.1f} "
+            f"{t_batch:>8.3f} {t_base / t_batch:>7.1f} {np.median(regret['ours']):>12.3g} "
+            f"{np.median(regret['base']):>15.3g} {p:>14.3f} {same:>5}"
         )
 
 

@@ -97,7 +97,7 @@ def main() -> None:
     )
     print(
         f"joblib, 2 workers: {rate:.2f} campaigns/s; projected full study "
-        f"{full_campaigns / rate / 60:.1f} min (goal: 30 min)"
+        f"{full_campaigns / rate / 60:.1f} min (goal: 5 min)"
     )
     large = measure(2 * reps, "joblib")
     print(

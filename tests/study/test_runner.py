@@ -137,15 +137,30 @@ def test_a_changed_study_is_refused_unless_fresh(study_file, tmp_path):
 def test_a_campaign_that_raises_keeps_the_finished_chunks_and_names_the_cell(
     study_file, tmp_path, monkeypatch
 ):
+    import dataclasses
+
     study = load(study_file)
-    original = grid.run_setting
+    original = grid.campaign_of
+
+    class Broken:
+        """A belief whose density raises: an error inside the engine, not a failed evaluation."""
+
+        def __init__(self, belief):
+            self.belief = belief
+
+        def __getattr__(self, name):
+            return getattr(self.belief, name)
+
+        def logpdf(self, U):
+            raise RuntimeError("belief server down")
 
     def failing(cell, setting):
+        c = original(cell, setting)
         if cell.distortion == 1 and cell.replicate == 1 and setting.strategy == "prior-weighted":
-            raise RuntimeError("landscape server down")
-        return original(cell, setting)
+            return dataclasses.replace(c, belief=Broken(c.belief))
+        return c
 
-    monkeypatch.setattr(grid, "run_setting", failing)
+    monkeypatch.setattr(grid, "campaign_of", failing)
     with pytest.raises(grid.CampaignError) as err:
         run_study(study, tmp_path / "out", jobs=1)
     message = str(err.value)

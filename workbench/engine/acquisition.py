@@ -13,7 +13,13 @@ from __future__ import annotations
 import numpy as np
 from scipy import special
 
-__all__ = ["expected_improvement", "log_expected_improvement", "log_odds_good"]
+__all__ = [
+    "expected_improvement",
+    "log_expected_improvement",
+    "log_expected_improvement_grad",
+    "log_odds_good",
+    "log_odds_good_grad",
+]
 
 _LOG_SQRT_2PI = 0.5 * np.log(2 * np.pi)
 _LOG_SQRT_PI_2 = 0.5 * np.log(np.pi / 2)
@@ -59,3 +65,26 @@ def log_odds_good(mean, sd, threshold: float) -> np.ndarray:
     """log(M_g / M_b) with M_g = Φ(z), M_b = 1 − M_g = Φ(−z), z = (f_γ − μ)/σ, via log Φ."""
     z = (threshold - np.asarray(mean, dtype=float)) / np.asarray(sd, dtype=float)
     return special.log_ndtr(z) - special.log_ndtr(-z)
+
+
+def log_expected_improvement_grad(mean, sd, best):
+    """log EI and its derivatives in μ and σ: with z = (f_min − μ)/σ and h' = Φ,
+    ∂/∂μ = −(Φ(z)/h(z))/σ and ∂/∂σ = (φ(z)/h(z))/σ (since h − zΦ = φ); the ratios are taken
+    in log space, so they stay finite far below the incumbent."""
+    mean, sd = np.asarray(mean, dtype=float), np.asarray(sd, dtype=float)
+    z = (best - mean) / sd
+    log_h = _log_h(z)
+    d_mean = -np.exp(special.log_ndtr(z) - log_h) / sd
+    d_sd = np.exp(-0.5 * z**2 - _LOG_SQRT_2PI - log_h) / sd
+    return np.log(sd) + log_h, d_mean, d_sd
+
+
+def log_odds_good_grad(mean, sd, threshold):
+    """log(M_g/M_b) and its derivatives in μ and σ: d/dz = φ(z)/Φ(z) + φ(z)/Φ(−z), with
+    ∂z/∂μ = −1/σ and ∂z/∂σ = −z/σ."""
+    mean, sd = np.asarray(mean, dtype=float), np.asarray(sd, dtype=float)
+    z = (threshold - mean) / sd
+    lo, hi = special.log_ndtr(z), special.log_ndtr(-z)
+    log_phi = -0.5 * z**2 - _LOG_SQRT_2PI
+    dz = np.exp(log_phi - lo) + np.exp(log_phi - hi)
+    return lo - hi, -dz / sd, -dz * z / sd

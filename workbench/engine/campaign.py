@@ -19,19 +19,14 @@ Policies stated here:
 
 from __future__ import annotations
 
-import time
 import warnings
 from collections.abc import Callable
 from dataclasses import dataclass
 
 import numpy as np
 from scipy.stats import qmc
-from threadpoolctl import threadpool_limits
 
-from .. import gp
-from ..world.beliefs import Product, Uniform
 from ..world.space import Space
-from .strategies import Step, get
 
 __all__ = ["BELIEF_USERS", "Campaign", "Trace", "run"]
 
@@ -120,99 +115,9 @@ def _model_targets(observed: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
 
 
 def run(campaign: Campaign, streams: dict[str, np.random.Generator]) -> Trace:
-    """Run ``campaign`` with the named streams of :func:`workbench.seeding.campaign_streams`.
+    """Run ``campaign`` with the named streams of :func:`workbench.seeding.campaign_streams`:
+    a batch of one (:func:`workbench.engine.batch.run_batch`)."""
+    # Imported here: the batch engine builds on this module's settings and helpers.
+    from .batch import run_batch
 
-    BLAS runs single-threaded inside: at these matrix sizes threads cost far more than they
-    save (measured here: 80× slower GP predictions with two threads on two busy cores).
-    """
-    with threadpool_limits(limits=1, user_api="blas"):
-        return _run(campaign, streams)
-
-
-def _run(campaign: Campaign, streams: dict[str, np.random.Generator]) -> Trace:
-    c = campaign
-    space, placement, budget = c.space, c.placement, c.budget
-    d = space.dim
-    strategy = get(c.strategy)
-    uses_belief = c.strategy in BELIEF_USERS
-    belief = c.belief if uses_belief else Product(tuple(Uniform() for _ in range(d)))
-    design = c.design
-    if c.strategy == "belief-sampling":
-        design = "belief"
-    elif not uses_belief and design == "belief":
-        design = "sobol"
-    n0 = min(c.n_initial, budget)
-    design_rng, rng, noise_rng = streams["design"], streams["strategy"], streams["noise"]
-
-    points = np.full((budget, d), np.nan)
-    observed = np.full(budget, np.nan)
-    value = np.full(budget, np.nan)
-    weight = np.full(budget, np.nan)
-    threshold = np.full(budget, np.nan)
-    seconds = np.zeros(budget)
-    # The expert's single best guess is the mode of the belief given, whatever the strategy.
-    mode_value = float(_evaluate(placement, _mode_point(space, c.belief))[0])
-    log_belief_max = float(belief.logpdf(_mode_point(space, belief))[0]) if uses_belief else 0.0
-
-    def evaluate(rows: slice, U: np.ndarray) -> None:
-        # Random search with k× evaluations: each row keeps the best of k draws, U among them.
-        k, m = max(1, c.multiple), len(U)
-        U = np.vstack([U, space.snap(rng.random((m * (k - 1), d)))]).reshape(k, m, d)
-        true = _evaluate(placement, U.reshape(k * m, d)).reshape(k, m)
-        noisy = true + c.noise_sd * noise_rng.standard_normal((k, m))
-        pick = np.argmin(np.where(np.isfinite(noisy), noisy, np.inf), axis=0)
-        cols = np.arange(m)
-        points[rows], value[rows], observed[rows] = (
-            U[pick, cols],
-            true[pick, cols],
-            noisy[pick, cols],
-        )
-
-    start = time.perf_counter()
-    evaluate(slice(0, n0), _design(design, n0, space, belief, design_rng))
-    seconds[:n0] = (time.perf_counter() - start) / max(n0, 1)
-
-    fitted, last_fit = None, 0
-    for t in range(n0, budget):
-        start = time.perf_counter()
-        lam = float(c.decay(t)) if (c.decay is not None and uses_belief) else 0.0
-        explore = rng.random() < c.exploration
-        rows, y = _model_targets(observed[:t])
-        model = None
-        if strategy.uses_model and not explore and len(rows) >= 2:
-            F = space.features(points[rows])
-            if fitted is None or gp.refit_due(len(rows), last_fit):
-                previous = None if fitted is None else fitted.hyperparameters
-                fitted = gp.fit(F, y, previous=previous, rng=rng, restarts=1, maxiter=16)
-                last_fit = len(rows)
-            else:
-                fitted = gp.condition(fitted, F, y)
-            model = fitted
-        if explore or (strategy.uses_model and model is None):
-            u, f_gamma = space.snap(rng.random((1, d)))[0], np.nan
-        else:
-            step = Step(space, points[rows], y, belief, log_belief_max, lam, c.quantile, model)
-            u, f_gamma = strategy.propose(step, rng)
-        evaluate(slice(t, t + 1), u[None, :])
-        if c.decay is not None and uses_belief:
-            weight[t] = lam
-        threshold[t] = f_gamma
-        seconds[t] = time.perf_counter() - start
-
-    failed = ~np.isfinite(value)
-    best = np.minimum.accumulate(np.where(failed, np.inf, value))
-    best = np.where(np.isfinite(best), best, np.nan)
-    regret = best - placement.minimum
-    return Trace(
-        points=points,
-        observed=observed,
-        value=value,
-        failed=failed,
-        best=best,
-        regret=regret,
-        normalized_regret=placement.normalized_regret(best),
-        weight=weight,
-        threshold=threshold,
-        mode_value=mode_value,
-        seconds=seconds,
-    )
+    return run_batch([campaign], [streams])[0]

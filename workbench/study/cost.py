@@ -8,7 +8,7 @@ import time
 from dataclasses import dataclass
 
 from .cells import Cell
-from .grid import chunks, run_setting, settings
+from .grid import chunks, run_chunk, settings
 from .spec import Study
 
 __all__ = ["Estimate", "duration", "probe", "size"]
@@ -30,32 +30,25 @@ class Estimate:
 
 
 def probe(study: Study, jobs: int | None = None) -> Estimate:
-    """Time one campaign of every strategy (first landscape, exact belief, replicate 0) and
-    weight them by how often each strategy runs in the grid."""
+    """Time the study's first chunk for real (one lock-step batch: every setting of the first
+    landscape, first distortion and replicate 0) and take its seconds per campaign; the grid
+    runs every chunk the same way."""
     every = chunks(study)
     guided, baseline = settings(study)
     campaigns = sum(len(c.settings) for c in every)
-    cell = Cell(study, 0, 0, 0)
+    first = every[0]
+    cell = Cell(study, first.landscape, first.distortion, first.replicate)
     cell.placement  # noqa: B018 - placement work is shared by a chunk, so keep it out of the timing
     cell.severity  # noqa: B018
-    seconds: dict[str, float] = {}
-    for setting in guided + baseline:
-        if setting.strategy in seconds:
-            continue
-        start = time.perf_counter()
-        run_setting(cell, setting)
-        seconds[setting.strategy] = time.perf_counter() - start
-    counts: dict[str, int] = {}
-    for c in every:
-        for s in c.settings:
-            counts[s.strategy] = counts.get(s.strategy, 0) + 1
-    per = sum(seconds[k] * n for k, n in counts.items()) / max(campaigns, 1)
+    start = time.perf_counter()
+    run_chunk(study, first)
+    per = (time.perf_counter() - start) / max(len(first.settings), 1)
     n_cells = len(study.landscapes) * len(study.distortions) * (len(guided) + len(baseline))
     return Estimate(
         cells=n_cells,
         campaigns=campaigns,
         evaluations=campaigns * study.budget,
-        probe_campaigns=len(seconds),
+        probe_campaigns=len(first.settings),
         per_campaign=per,
         jobs=jobs or os.cpu_count() or 1,
     )

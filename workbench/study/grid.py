@@ -6,7 +6,9 @@ the belief (no-belief, random) run once per landscape and replicate, with the st
 ``exact`` distortion; the grid repeats them across distortions.
 
 A **chunk** is every campaign of one (landscape, distortion, replicate): the unit of parallel
-work and of storage.
+work and of storage, and one lock-step batch of the engine (:func:`~workbench.engine.batch.
+run_batch`). Its campaigns share dimension, budget and design size, and a campaign's trace does
+not depend on its batch, so results are the same whatever the number of workers.
 """
 
 from __future__ import annotations
@@ -15,6 +17,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from ..engine.batch import run_batch
 from ..engine.campaign import Campaign, Trace, run
 from .cells import Cell
 from .decay import Schedule
@@ -29,6 +32,7 @@ __all__ = [
     "run_chunk",
     "run_setting",
     "settings",
+    "streams_of",
 ]
 
 # The per-evaluation arrays of a trace that a chunk file stacks over its settings
@@ -101,11 +105,15 @@ def campaign_of(cell: Cell, setting: Setting) -> Campaign:
     )
 
 
+def streams_of(cell: Cell, setting: Setting) -> dict[str, np.random.Generator]:
+    """Fresh streams of ``setting`` in ``cell``: the cell's, or for the baselines that ignore
+    the belief those of the cell's exact-distortion sibling."""
+    return cell.streams(exact=setting.strategy in BELIEF_FREE)
+
+
 def run_setting(cell: Cell, setting: Setting) -> Trace:
-    """Run the campaign of ``setting`` in ``cell`` with the cell's streams (the baselines that
-    ignore the belief take the streams of the cell's exact-distortion sibling)."""
-    exact = setting.strategy in BELIEF_FREE
-    return run(campaign_of(cell, setting), cell.streams(exact=exact))
+    """Run the campaign of ``setting`` in ``cell`` alone (a batch of one)."""
+    return run(campaign_of(cell, setting), streams_of(cell, setting))
 
 
 @dataclass(frozen=True)
@@ -142,12 +150,19 @@ def run_chunk(study: Study, chunk: Chunk) -> dict[str, np.ndarray]:
     """Run every campaign of ``chunk``; arrays stacked over its settings, plus the cell's
     context (minimum, gap, severity, value at the belief's mode)."""
     cell = Cell(study, chunk.landscape, chunk.distortion, chunk.replicate)
-    traces = []
-    for setting in chunk.settings:
-        try:
-            traces.append(run_setting(cell, setting))
-        except Exception as err:
-            raise CampaignError(f"campaign failed at {cell.label}, {setting.label}: {err}") from err
+    campaigns = [campaign_of(cell, s) for s in chunk.settings]
+    try:
+        traces = run_batch(campaigns, [streams_of(cell, s) for s in chunk.settings])
+    except Exception as err:
+        # Find the campaign that raised: alone, each does exactly what it does in the batch.
+        for setting in chunk.settings:
+            try:
+                run_setting(cell, setting)
+            except Exception as alone:
+                raise CampaignError(
+                    f"campaign failed at {cell.label}, {setting.label}: {alone}"
+                ) from alone
+        raise CampaignError(f"campaigns failed together at {cell.label}: {err}") from err
     stack = {name: np.stack([getattr(t, name) for t in traces]) for name in TRACE_ARRAYS}
     stack["user_points"] = np.stack([t.user_points(cell.space) for t in traces])
     stack["mode_value"] = np.array([cell.mode_value])
