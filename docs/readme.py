@@ -51,6 +51,14 @@ EVIDENCE = {
         "--grid",
         "results/demo",
     ],
+    "monitor": [
+        "monitor",
+        "studies/demo.toml",
+        "--observations",
+        "studies/bakery-campaign.csv",
+        "--grid",
+        "results/demo",
+    ],
 }
 
 

@@ -53,8 +53,6 @@ import xarray as xr
 from scipy import stats
 from threadpoolctl import threadpool_limits
 
-# The monitor reads the grid through the analysis stage (its setting axis and metrics), although
-# the layout lists analysis/ after evidence/.
 from ..analysis import campaign_metric, series
 from ..study.cells import Cell
 from ..study.decay import parse
