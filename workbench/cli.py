@@ -702,27 +702,41 @@ def build_parser() -> argparse.ArgumentParser:
         p.add_argument("--quiet", action="store_true", help="no progress bar")
         p.set_defaults(func=func)
 
-    p = sub.add_parser("audit", help="check the belief against earlier evaluations (CSV)")
-    p.add_argument("study")
-    p.add_argument("--data", required=True, help="CSV of earlier evaluations")
-    p.add_argument("--response", default=None, help="response column (default: the study's)")
-    p.add_argument("--goal", default=None, help="minimise or maximise (default: the study's)")
-    p.add_argument("--top", type=float, default=None, help="share of the data that is good")
-    p.add_argument("--grid", default=None, help="results folder of this study's grid")
-    p.add_argument("--out", default=None, help="output folder (default results/<study>/audit)")
-    p.add_argument("--json", action="store_true", help="print one JSON object")
-    p.set_defaults(func=cmd_audit)
-
-    p = sub.add_parser("monitor", help="read a live campaign against the grid: distortions, advice")
-    p.add_argument("study")
-    p.add_argument("--observations", required=True, help="CSV of the campaign's evaluations")
-    p.add_argument("--grid", required=True, help="results folder of this study's grid")
-    p.add_argument("--setting", default=None, help="the campaign's setting (default: recommended)")
-    p.add_argument("--response", default=None, help="response column (default: the study's)")
-    p.add_argument("--goal", default=None, help="minimise or maximise (default: the study's)")
-    p.add_argument("--out", default=None, help="output folder (default results/<study>/monitor)")
-    p.add_argument("--json", action="store_true", help="print one JSON object")
-    p.set_defaults(func=cmd_monitor)
+    for name, func, helptext, data, datahelp, grid_required in (
+        (
+            "audit",
+            cmd_audit,
+            "check the belief against earlier evaluations (CSV)",
+            "--data",
+            "CSV of earlier evaluations",
+            False,
+        ),
+        (
+            "monitor",
+            cmd_monitor,
+            "read a live campaign against the grid: distortions, advice",
+            "--observations",
+            "CSV of the campaign's evaluations",
+            True,
+        ),
+    ):
+        p = sub.add_parser(name, help=helptext)
+        p.add_argument("study")
+        p.add_argument(data, required=True, help=datahelp)
+        p.add_argument(
+            "--grid", required=grid_required, default=None, help="this study's results folder"
+        )
+        p.add_argument("--response", default=None, help="response column (default: the study's)")
+        p.add_argument("--goal", default=None, help="minimise or maximise (default: the study's)")
+        p.add_argument(
+            "--out", default=None, help=f"output folder (default results/<study>/{name})"
+        )
+        p.add_argument("--json", action="store_true", help="print one JSON object")
+        if name == "audit":
+            p.add_argument("--top", type=float, default=None, help="share of the data that is good")
+        else:
+            p.add_argument("--setting", default=None, help="the campaign's (default: recommended)")
+        p.set_defaults(func=func)
 
     for name, func, helptext in (
         ("recommend", cmd_recommend, "pick the setting of a grid under a decision rule"),

@@ -52,6 +52,7 @@ __all__ = [
     "matern52",
     "posterior",
     "refit_due",
+    "unit_matern",
 ]
 
 # Bounds in standardised-output units; length scales are in unit-cube units.
@@ -172,7 +173,7 @@ def _default_theta(p: int, bounds: Bounds) -> np.ndarray:
 # --- kernel ---------------------------------------------------------------------------------
 
 
-def _unit_matern(z2: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+def unit_matern(z2: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     """Matérn 5/2 with unit signal variance from ``z² = 5r²``, overwriting ``z2``.
 
     Returns ``(1 + z + z²/3) exp(-z)``, ``z = √5 r`` and ``exp(-z)`` (the last two for the
@@ -224,7 +225,7 @@ def matern52(
     p = lengthscales.size
     if lengthscales.ndim != 1 or A.ndim != 2 or B.ndim != 2 or not A.shape[1] == B.shape[1] == p:
         raise _fail("A, B", f"2-D arrays with {lengthscales.size} columns", (A.shape, B.shape))
-    k = _unit_matern(_sq_dist(_scaled(A, lengthscales), _scaled(B, lengthscales)))[0]
+    k = unit_matern(_sq_dist(_scaled(A, lengthscales), _scaled(B, lengthscales)))[0]
     k *= float(signal_variance)
     return k
 
@@ -282,7 +283,7 @@ def _lml_and_grad(theta: np.ndarray, D: np.ndarray, y: np.ndarray) -> tuple[floa
     inv_l2 = 1.0 / np.square(values[:p])
     signal, noise = values[p], values[p + 1]
 
-    k, z, e = _unit_matern((5.0 * inv_l2 @ D).reshape(n, n))
+    k, z, e = unit_matern((5.0 * inv_l2 @ D).reshape(n, n))
     K = k * signal
     K.ravel()[:: n + 1] += noise
     L, _ = _jittered_cholesky(K)
@@ -393,7 +394,7 @@ class GP:
         for start in range(0, m, rows):
             block = slice(start, start + rows)
             # The unit-signal cross-kernel; s² is applied to the length-m vectors instead.
-            Ks = _unit_matern(_sq_dist(a[block], b, bb))[0]
+            Ks = unit_matern(_sq_dist(a[block], b, bb))[0]
             np.dot(Ks, self.alpha, out=mean[block])
             # Ks.T is Fortran-ordered, as LAPACK wants it: no copy.
             V, info = dtrtrs(self.cholesky, Ks.T, lower=1)
@@ -447,7 +448,7 @@ def _build(
 ) -> GP:
     n = X.shape[0]
     a = _scaled(X, hp.lengthscales)
-    K = _unit_matern(_sq_dist(a, a))[0]
+    K = unit_matern(_sq_dist(a, a))[0]
     K *= hp.signal_variance
     K.ravel()[:: n + 1] += hp.noise_variance
     L, jitter = _jittered_cholesky(K)

@@ -26,6 +26,7 @@ import numpy as np
 from scipy.linalg.lapack import dtrtri
 
 from .. import gp
+from ..gp import unit_matern
 from .lbfgsb import minimise_driven
 
 __all__ = [
@@ -40,21 +41,6 @@ __all__ = [
 _SQRT5 = math.sqrt(5.0)
 _HALF_LOG_2PI = 0.5 * math.log(2.0 * math.pi)
 _VARIANCE_FLOOR = 1e-12
-
-
-def _unit_matern(z2: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
-    """Unit-signal Matérn 5/2 ``(1 + z + z²/3) e^(−z)``, ``z`` and ``e^(−z)`` from ``z²``
-    (overwritten: it becomes ``z``). In place, as :func:`workbench.gp._unit_matern`: the
-    passes over the stack are the cost."""
-    z = np.sqrt(z2, out=z2)
-    e = np.negative(z)
-    np.exp(e, out=e)
-    k = z * (1.0 / 3.0)
-    k += 1.0
-    k *= z
-    k += 1.0
-    k *= e
-    return k, z, e
 
 
 def standardise(y: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
@@ -121,7 +107,7 @@ def _kernel_stack(theta: np.ndarray, F: np.ndarray):
     a = X * (_SQRT5 / values[:, :p])[:, None, :]
     z2 = _sq_dist(a, a, np.einsum("bnk,bnk->bn", a, a))
     z2[:, np.arange(n), np.arange(n)] = 0.0
-    k, z, e = _unit_matern(z2)
+    k, z, e = unit_matern(z2)
     K = k * values[:, p, None, None]
     K[:, np.arange(n), np.arange(n)] += values[:, p + 1, None]
     return values, X, k, z, e, K
@@ -231,7 +217,7 @@ class Stack:
         ls = self.lengthscales
         s = self.signal
         a = F * (_SQRT5 / ls)[:, None, :]
-        k, z, e = _unit_matern(_sq_dist(a, self.b, self.bb))
+        k, z, e = unit_matern(_sq_dist(a, self.b, self.bb))
         mean = np.matmul(k, self.alpha[:, :, None])[:, :, 0]
         V = np.matmul(k, np.swapaxes(self.Linv, 1, 2))
         quad = np.einsum("rmn,rmn->rm", V, V)
