@@ -172,11 +172,20 @@ def _write_chunk(ds, study: Study, chunk: Chunk, data) -> float:
     bases = [b.strategy for b in baseline]
     li, d, r = chunk.landscape, chunk.distortion, chunk.replicate
     width = data["points"].shape[-1]
+    # The guided campaigns of one (landscape, distortion, replicate) fill one slab over
+    # (strategy, decay, quantile, exploration, initial): built here, written in one call.
+    slab_shape = (len(strategies), len(decay_index), len(quantiles), len(explorations))
+    slab_shape += (len(initials), study.budget)
+    width_all = ds.dimensions["coordinate"].size
+    slabs = {name: np.full(slab_shape, -1 if name == "failed" else np.nan) for name in _SERIES}
+    slabs |= {name: np.full((*slab_shape, width_all), np.nan) for name in ("point", "point_cube")}
+    any_guided = False
     for k, s in enumerate(chunk.settings):
         series = {name: data[name][k] for name in _SERIES}
         series["failed"] = series["failed"].astype("i1")
         pts = {"point": data["user_points"][k], "point_cube": data["points"][k]}
         if s.strategy in strategies:
+            any_guided = True
             qs = (
                 [quantiles.index(s.quantile)]
                 if s.strategy == "pseudo-posterior"
@@ -185,18 +194,15 @@ def _write_chunk(ds, study: Study, chunk: Chunk, data) -> float:
             for q in qs:
                 at = (
                     strategies.index(s.strategy),
-                    li,
-                    d,
                     decay_index[str(s.decay)],
                     q,
                     explorations.index(s.exploration),
                     initials.index(s.initial),
-                    r,
                 )
                 for name, v in series.items():
-                    ds[name][at] = v
+                    slabs[name][at] = v
                 for name, v in pts.items():
-                    ds[name][(*at, slice(None), slice(0, width))] = v
+                    slabs[name][(*at, slice(None), slice(0, width))] = v
         else:
             targets = (
                 range(len(study.distortions)) if s.strategy in ("no-belief", "random") else [d]
@@ -207,6 +213,12 @@ def _write_chunk(ds, study: Study, chunk: Chunk, data) -> float:
                     ds["baseline_" + name][at] = v
                 for name, v in pts.items():
                     ds["baseline_" + name][(*at, slice(None), slice(0, width))] = v
+    if any_guided:
+        every = slice(None)
+        for name, slab in slabs.items():
+            if name == "failed":
+                slab = slab.astype("i1")
+            ds[name][every, li, d, every, every, every, every, r] = slab
     for name in ("mode_value", "severity_distance", "severity_mass"):
         ds[name][li, d, r] = data[name][0]
     for name in ("minimum", "gap"):
@@ -230,8 +242,10 @@ def assemble(study: Study, chunk_dir: Path, path: Path, every: list[Chunk]) -> d
         with netCDF4.Dataset(tmp, "w", format="NETCDF4") as ds:
             _define(ds, study)
             for chunk in every:
-                with np.load(chunk_dir / f"{chunk.key}.npz") as data:
-                    low = _write_chunk(ds, study, chunk, data)
+                with np.load(chunk_dir / f"{chunk.key}.npz") as npz:
+                    # Read every array once: an npz member is decompressed on each access.
+                    data = {name: npz[name] for name in npz.files}
+                low = _write_chunk(ds, study, chunk, data)
                 label = study.landscapes[chunk.landscape].label
                 lowest[label] = min(lowest.get(label, np.inf), low)
     return lowest
