@@ -1,0 +1,180 @@
+"""The commands on real data, ``workbench audit`` and ``workbench monitor``: they read the
+study, the grid and the CSV files, call the pure functions of this stage and print (with
+:mod:`workbench.cli`, the only modules that print)."""
+
+from __future__ import annotations
+
+import json
+import time
+from dataclasses import replace
+from pathlib import Path
+
+from ..validation import InputError, raw
+
+__all__ = ["MONITOR_EVERY", "cmd_audit", "cmd_monitor", "monitor_steps"]
+
+
+def _study_with_space(path: str):
+    from ..study.spec import load
+
+    study = load(path)
+    if study.space is None:
+        raise InputError(
+            "space", "a [space] section (real evaluations live on the user's space)", None, path
+        )
+    return study
+
+
+def _study_grid(study, folder: str):
+    """The grid of ``folder``, refused unless it was run from this very study."""
+    from ..analysis import open_grid
+
+    ds = open_grid(folder)
+    if ds.attrs.get("study") != study.text:
+        raise InputError(
+            "--grid",
+            f"the grid of this study ({study.path})",
+            raw(f"the grid in {folder}, run from another study (its study text differs)"),
+            "command line",
+        )
+    return ds
+
+
+def _history(study, file: str, response: str | None, goal: str | None, min_rows=None):
+    """Evaluations in ``file``; the response and goal default to those of the study's fitted
+    landscape (the one reading a file of the same name, if several)."""
+    from ..validation import check_choice
+    from .history import GOALS, read_history
+
+    fitted = [e.spec for e in study.landscapes if e.kind == "fitted"]
+    same = [f for f in fitted if f.source.endswith(f" in {Path(file).name}")]
+    if same or fitted:
+        spec = (same or fitted)[0]
+        response, goal = response or spec.response, goal or spec.goal
+    if response is None:
+        raise InputError("--response", "the response column's name", raw("nothing"), "command line")
+    goal = check_choice(goal or "minimise", "--goal", GOALS)
+    return read_history(file, study.space, response, goal, min_rows=min_rows)
+
+
+def _figure_png(draw, dim: int) -> bytes:
+    import io
+
+    import matplotlib
+
+    matplotlib.use("Agg")
+    import matplotlib.pyplot as plt
+
+    fig, axes = plt.subplots(1, dim, figsize=(4.4 * dim, 3.6), squeeze=False, layout="constrained")
+    draw(list(axes[0]), fig)
+    buffer = io.BytesIO()
+    fig.savefig(buffer, format="png", dpi=110)
+    plt.close(fig)
+    return buffer.getvalue()
+
+
+def cmd_audit(args) -> int:
+    from .. import analysis as an
+    from ..report.figures import evidence_marginals
+    from ..seeding import derive, generator
+    from ..study.cells import SEVERITY_RADIUS
+    from ..validation import check_number
+    from . import audit as au
+    from .pages import CAUTIONS, audit_lines, write_page
+
+    study = _study_with_space(args.study)
+    ds = _study_grid(study, args.grid) if args.grid else None
+    history = _history(study, args.data, args.response, args.goal)
+    top = study.quantile_levels[0] if args.top is None else args.top
+    top = check_number(top, "--top", low=0.0, high=1.0, closed="right", where="command line")
+    result = au.audit(
+        history,
+        study.belief,
+        top=top,
+        radius=SEVERITY_RADIUS,
+        rng=generator(derive(study.seed, "audit")),
+        severities=au.study_severities(study, ds),
+    )
+    if ds is not None and result.distortion is not None:
+        rec = an.recommend(ds)
+        cost = an.summarise(an.belief_cost(ds)).sel(
+            setting=rec.setting, distortion=result.distortion
+        )
+        result = replace(
+            result,
+            cost=(float(cost["estimate"]), float(cost["low"]), float(cost["high"])),
+            setting=rec.setting,
+        )
+    lines = audit_lines(result, study.space, args.data)
+    if args.json:
+        print(json.dumps(au.to_dict(result, study.space), indent=2, ensure_ascii=False))
+        return 0
+    print("\n".join(lines))
+    out = Path(args.out) if args.out else Path("results") / study.name / "audit"
+
+    def draw(axes, fig):
+        evidence_marginals(axes, study.space, study.belief, history.X, result.good, result.argmins)
+        fig.suptitle(f"Belief and earlier evaluations: {study.title}", fontsize="medium")
+
+    md, page = write_page(
+        out,
+        "audit",
+        f"Audit of the belief: {study.title}",
+        lines,
+        _figure_png(draw, study.space.dim),
+    )
+    print(f"audit: {page} and {md.name}")
+    print(" ".join(CAUTIONS))
+    return 0
+
+
+def monitor_steps(study) -> list[int]:
+    """The t at which the monitor trains a classifier: every ``MONITOR_EVERY``-th evaluation
+    after the initial design, and the budget (between them, the step below serves)."""
+    first = study.design_size(study.space.dim) + 1
+    return sorted({*range(first, study.budget + 1, MONITOR_EVERY), study.budget})
+
+
+MONITOR_EVERY = 4
+
+
+def cmd_monitor(args) -> int:
+    from .. import analysis as an
+    from . import monitor as mo
+    from .pages import CAUTIONS, monitor_lines, write_page
+
+    study = _study_with_space(args.study)
+    ds = _study_grid(study, args.grid)
+    live = _history(study, args.observations, args.response, args.goal, min_rows=2)
+    setting = args.setting or an.recommend(ds).setting
+    start = time.perf_counter()
+    table = mo.training_table(ds, mo.grid_beliefs(study, ds), monitor_steps(study))
+    # Learn from the campaigns of the live campaign's strategy (all its decays and quantiles).
+    strategy = setting.split(",")[0]
+    table = mo.restrict(table, [str(x).split(",")[0] == strategy for x in table.settings])
+    monitor = mo.train(table, seed=0)
+    try:
+        advice = mo.advise(monitor, ds, live.X, live.y, study.belief, setting)
+    except InputError as err:
+        raise err.located(args.observations) from None
+    seconds = time.perf_counter() - start
+    if args.json:
+        out = advice.to_dict()
+        out["validation"] = json.loads(monitor.validation.to_dataframe().to_json(orient="index"))
+        print(json.dumps(out, indent=2, ensure_ascii=False))
+        return 0
+    lines = monitor_lines(monitor, advice, args.observations, seconds)
+    print("\n".join(lines))
+    out = Path(args.out) if args.out else Path("results") / study.name / "monitor"
+
+    def draw(axes, fig):
+        from ..report.figures import distortion_probabilities
+
+        distortion_probabilities(axes[0], advice.t, advice.probabilities, advice.distortions)
+        fig.suptitle(f"The live campaign read against the grid: {study.title}", fontsize="medium")
+
+    title = f"Monitor of the live campaign: {study.title}"
+    md, page = write_page(out, "monitor", title, lines, _figure_png(draw, 1))
+    print(f"monitor: {page} and {md.name}")
+    print(" ".join(CAUTIONS))
+    return 0
