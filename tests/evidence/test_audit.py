@@ -107,20 +107,14 @@ def _files(tmp_path, seed=1):
     return study
 
 
+def _audit(tmp_path, study, *extra):
+    data = ["--data", str(tmp_path / "h.csv"), "--response", "f"]
+    return main(["audit", str(study), *data, *extra, "--out", str(tmp_path / "audit")])
+
+
 def test_audit_writes_its_pages_and_prints_the_verdict(tmp_path, capsys):
     study = _files(tmp_path)
-    code = main(
-        [
-            "audit",
-            str(study),
-            "--data",
-            str(tmp_path / "h.csv"),
-            "--response",
-            "f",
-            "--out",
-            str(tmp_path / "audit"),
-        ]
-    )
+    code = _audit(tmp_path, study)
     out = capsys.readouterr().out
     assert code == 0 and "verdict:" in out and "safety limits" in out
     page = (tmp_path / "audit" / "audit.html").read_text()
@@ -132,20 +126,7 @@ def test_a_grid_of_another_study_is_refused(tmp_path, capsys):
     study, other = _files(tmp_path, 1), _files(tmp_path, 2)
     assert main(["run", str(other), "--out", str(tmp_path / "g"), "--quiet", "--jobs", "1"]) == 0
     capsys.readouterr()
-    code = main(
-        [
-            "audit",
-            str(study),
-            "--data",
-            str(tmp_path / "h.csv"),
-            "--response",
-            "f",
-            "--grid",
-            str(tmp_path / "g"),
-            "--out",
-            str(tmp_path / "audit"),
-        ]
-    )
+    code = _audit(tmp_path, study, "--grid", str(tmp_path / "g"))
     err = capsys.readouterr().err.strip()
     assert code == 2 and len(err.splitlines()) == 1 and "'--grid'" in err
     assert not (tmp_path / "audit").exists()

@@ -115,10 +115,7 @@ def audit(
     order = np.argsort(history.y, kind="stable")
     good = history.X[order[:k]]
     good_levels = highest_density_level(belief, good)
-    fitted = kinds.Fitted(
-        X=tuple(map(tuple, history.X.tolist())), y=tuple(history.y.tolist()), source=history.path
-    )
-    argmins = fitted.optima(draws, rng)
+    argmins = kinds.Fitted.from_history(history).optima(draws, rng)
     argmin_levels = highest_density_level(belief, argmins)
     median = np.median(argmins, axis=0)
     mode = np.atleast_1d(np.asarray(belief.mode(), dtype=float))

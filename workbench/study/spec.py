@@ -473,16 +473,7 @@ def _fitted(entry, key, space, noise, base) -> LandscapeEntry:
         data_noise = None
     features = _features(entry, key)
     history = read_history(base / file, space, response, goal)
-    spec = kinds.Fitted(
-        X=tuple(map(tuple, history.X.tolist())),
-        y=tuple(history.y.tolist()),
-        source=f"{history.rows} evaluations in {Path(file).name}",
-        noise_sd=data_noise,
-        features=features,
-        digest=history.digest,
-        response=response,
-        goal=goal,
-    )
+    spec = kinds.Fitted.from_history(history, noise_sd=data_noise, features=features)
     return LandscapeEntry("fitted", space.dim, noise, f"fitted-{Path(file).stem}", "fitted", spec)
 
 

@@ -133,6 +133,19 @@ class Fitted:
     def minimum_estimated(self) -> bool:
         return True
 
+    @classmethod
+    def from_history(cls, history, **options) -> Fitted:
+        """From earlier evaluations (a :class:`workbench.evidence.history.History`)."""
+        return cls(
+            X=tuple(map(tuple, history.X.tolist())),
+            y=tuple(history.y.tolist()),
+            source=f"{history.rows} evaluations in {Path(history.path).name}",
+            digest=history.digest,
+            response=history.response,
+            goal=history.goal,
+            **options,
+        )
+
     def model(self) -> gp.GP:
         """The GP fitted to the data (deterministic: the fit's restarts use a fixed seed)."""
         return _fit(self.X, self.y, self.noise_sd)
