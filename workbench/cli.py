@@ -202,24 +202,25 @@ def cmd_simulate(args) -> int:
     import numpy as np
 
     from .analysis.metrics import evaluations_to_target
-    from .study.grid import chunks
+    from .study.grid import chunks, split
     from .study.runner import execute
 
     study, settings = _simulation_study(args)
     rows = []
-    for chunk, result, _ in execute(study, chunks(study), jobs=args.jobs):
-        regret = result["regret"][0]
-        nr = result["normalized_regret"][0]
-        ett, reached = evaluations_to_target(nr, study.target)
-        rows.append(
-            {
-                "replicate": chunk.replicate,
-                "final_regret": float(regret[-1]),
-                "final_normalized_regret": float(nr[-1]),
-                "evaluations_to_target": int(ett) if reached else None,
-                "mode_value_regret": float(result["mode_value"][0] - result["minimum"][0]),
-            }
-        )
+    for chunk, arrays, _ in execute(study, chunks(study), jobs=args.jobs):
+        for replicate, result in split(chunk, arrays):
+            regret = result["regret"][0]
+            nr = result["normalized_regret"][0]
+            ett, reached = evaluations_to_target(nr, study.target)
+            rows.append(
+                {
+                    "replicate": replicate,
+                    "final_regret": float(regret[-1]),
+                    "final_normalized_regret": float(nr[-1]),
+                    "evaluations_to_target": int(ett) if reached else None,
+                    "mode_value_regret": float(result["mode_value"][0] - result["minimum"][0]),
+                }
+            )
     rows.sort(key=lambda r: r["replicate"])
     if args.json:
         print(json.dumps({"settings": settings, "replicates": rows}, indent=2))

@@ -77,21 +77,29 @@ def test_pilot_uses_first_middle_and_last_settings_and_every_baseline():
     assert [s.strategy for s in design.baselines] == list(study.baselines)
     pilot, todo = pl.pilot_chunks(study, design)
     assert pilot.replicates == 4 and study.replicates == 8
-    assert len(todo) == len(study.landscapes) * len(study.distortions) * 4
+    # Four pilot replicates fit in one block: one chunk per landscape and distortion.
+    assert len(todo) == len(study.landscapes) * len(study.distortions)
+    assert all(c.replicates == (0, 1, 2, 3) for c in todo)
     assert {s.label for c in todo for s in c.settings} == {s.label for s in design.settings}
 
 
 def test_pilot_campaigns_are_the_studys_first_replicates(tiny):
     study = load(tiny)
     pilot, todo = pl.pilot_chunks(study, pl.pilot_design(study, 2))
-    full = {c.key: c for c in grid.chunks(study)}
     chunk = todo[-1]
-    small = grid.run_chunk(pilot, chunk)
-    whole = grid.run_chunk(study, full[chunk.key])
-    labels = [s.label for s in full[chunk.key].settings]
-    for k, s in enumerate(chunk.settings):
-        j = labels.index(s.label)
-        np.testing.assert_array_equal(small["value"][k], whole["value"][j])
+    full = next(
+        c
+        for c in grid.chunks(study)
+        if (c.landscape, c.distortion) == (chunk.landscape, chunk.distortion)
+    )
+    assert set(chunk.replicates) <= set(full.replicates)
+    small = dict(grid.split(chunk, grid.run_chunk(pilot, chunk)))
+    whole = dict(grid.split(full, grid.run_chunk(study, full)))
+    labels = [s.label for s in full.settings]
+    for r in chunk.replicates:
+        for k, s in enumerate(chunk.settings):
+            j = labels.index(s.label)
+            np.testing.assert_array_equal(small[r]["value"][k], whole[r]["value"][j])
 
 
 def test_compute_estimate_is_within_a_factor_of_two_of_a_real_run(demo_pilot, tmp_path):

@@ -20,6 +20,7 @@ title = "runner check"
 budget = 8
 replicates = 3
 seed = 7
+block = 1
 baselines = ["no-belief", "belief-sampling"]
 [[landscape]]
 name = "branin"
@@ -79,6 +80,17 @@ def test_grid_has_the_named_dimensions_and_attributes(study_file, tmp_path):
 def test_one_and_two_workers_give_identical_grids(study_file, tmp_path):
     one = _grid(run_study(load(study_file), tmp_path / "one", jobs=1).grid)
     two = _grid(run_study(load(study_file), tmp_path / "two", jobs=2).grid)
+    xr.testing.assert_identical(one, two)
+
+
+def test_the_block_size_changes_the_chunks_but_not_the_grid(study_file, tmp_path):
+    import dataclasses
+
+    study = load(study_file)
+    blocked = dataclasses.replace(study, block=2)
+    assert [c.replicates for c in grid.chunks(blocked)][:2] == [(0, 1), (2,)]
+    one = _grid(run_study(study, tmp_path / "one", jobs=1).grid)
+    two = _grid(run_study(blocked, tmp_path / "two", jobs=1).grid)
     xr.testing.assert_identical(one, two)
 
 

@@ -138,7 +138,8 @@ def test_distortion_levels_come_named_and_from_a_factorial():
     names = [d.name for d in s.distortions]
     assert names[:2] == ["exact", "misplaced"] and len(names) == 6
     assert "shift 0.3 scale 2" in names
-    assert len(chunks(s)) == 6 * s.replicates
+    # One chunk per distortion: the 8 replicates make one block.
+    assert [c.distortion for c in chunks(s)] == list(range(6))
 
 
 def test_a_dimension_mismatch_between_space_and_landscape_is_refused():

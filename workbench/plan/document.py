@@ -322,8 +322,9 @@ def _design_section(plan: Plan) -> Section:
                 "distortion's streams and are repeated across distortions."
             ),
             _p(
-                "Work is split into chunks, one per landscape, distortion and replicate; each "
-                "is written to disk as it finishes, and a stopped run resumes."
+                "Work is split into chunks, one per landscape, distortion and block of "
+                f"{s.block} replicates, whose campaigns advance together; each chunk is "
+                "written to disk as it finishes, and a stopped run resumes."
             ),
         ),
     )

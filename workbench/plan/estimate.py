@@ -193,8 +193,9 @@ def compute_estimate(
 ) -> Compute:
     """The cost of ``study`` at ``replicates`` replicates, from the pilot's timings.
 
-    Each chunk takes its cell's overhead plus, for each of its campaigns, the pilot's mean
-    seconds per campaign of that strategy in that landscape and distortion. Wall time is
+    Each chunk takes, for each of its replicates, the cell's overhead plus, for each of its
+    settings, the pilot's mean seconds per campaign of that strategy in that landscape and
+    distortion. Wall time is
     max(Σ chunk seconds / processes, longest chunk) plus the pilot's start-up time (its wall
     time beyond that same bound). Dask workers are taken as fast as one core here, without
     the start-up. Disk: the chunk files as the pilot's arrays measured, plus grid.nc as its
@@ -208,17 +209,25 @@ def compute_estimate(
         overhead = np.nan_to_num(np.nanmean(pilot.overhead, axis=-1), nan=0.0)
     chunk_seconds = np.array(
         [
-            overhead[c.landscape, c.distortion]
-            + sum(_lookup(per, s.strategy, c.landscape, c.distortion) for s in c.settings)
+            len(c.replicates)
+            * (
+                overhead[c.landscape, c.distortion]
+                + sum(_lookup(per, s.strategy, c.landscape, c.distortion) for s in c.settings)
+            )
             for c in every
         ]
     )
-    campaigns = sum(len(c.settings) for c in every)
+    campaigns = sum(c.campaigns for c in every)
     cpu = float(chunk_seconds.sum())
     longest = float(chunk_seconds.max()) if every else 0.0
     parallel = parallel_processes(jobs, cores)
-    pilot_chunks_seconds = np.nansum(pilot.seconds, axis=0) + np.nan_to_num(pilot.overhead)
-    pilot_bound = max(pilot.cpu / pilot.jobs, float(pilot_chunks_seconds.max()))
+    # The pilot's chunks: its replicates' seconds summed block by block, as chunks() cuts them.
+    per_replicate = np.nansum(pilot.seconds, axis=0) + np.nan_to_num(pilot.overhead)
+    pilot_longest = max(
+        float(per_replicate[..., r : r + study.block].sum(axis=-1).max())
+        for r in range(0, per_replicate.shape[-1], study.block)
+    )
+    pilot_bound = max(pilot.cpu / pilot.jobs, pilot_longest)
     startup = max(pilot.wall - pilot_bound, 0.0)
     local = max(cpu / parallel, longest) + startup
     cluster = max(cpu / workers, longest)
@@ -231,8 +240,7 @@ def compute_estimate(
         jobs=parallel,
     )
     chunk_bytes = sum(
-        pilot.chunk_bytes + len(c.settings) * float(pilot.campaign_bytes[c.landscape])
-        for c in every
+        pilot.chunk_bytes + c.campaigns * float(pilot.campaign_bytes[c.landscape]) for c in every
     )
     return Compute(
         estimate=estimate,

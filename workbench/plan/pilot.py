@@ -12,7 +12,7 @@ from dataclasses import dataclass, replace
 import numpy as np
 
 from ..analysis.metrics import evaluations_to_target
-from ..study.grid import BELIEF_FREE, TRACE_ARRAYS, Chunk, Setting, chunks, settings
+from ..study.grid import BELIEF_FREE, TRACE_ARRAYS, Chunk, Setting, chunks, settings, split
 from ..study.spec import Study
 from ..validation import check_number
 
@@ -142,7 +142,7 @@ def pilot_chunks(study: Study, design: PilotDesign) -> tuple[Study, list[Chunk]]
     for c in chunks(pilot):
         picked = tuple(s for s in c.settings if s.label in keep)
         if picked:
-            out.append(Chunk(c.landscape, c.distortion, c.replicate, picked))
+            out.append(Chunk(c.landscape, c.distortion, c.replicates, picked))
     return pilot, out
 
 
@@ -152,8 +152,9 @@ class Pilot:
 
     ``evaluations`` to target (censored at the budget) and ``reached``: the belief-free
     baselines run in the exact distortion only and are repeated across distortions, as in the
-    grid. ``seconds`` per campaign (NaN where a campaign did not run); ``overhead`` per chunk
-    (its seconds beyond its campaigns') over (landscape, distortion, replicate); ``wall`` the
+    grid. ``seconds`` per campaign (NaN where a campaign did not run); ``overhead`` per replicate
+    of a chunk (its seconds beyond its campaigns', shared out over its replicates) over
+    (landscape, distortion, replicate); ``wall`` the
     pilot's wall time on ``jobs`` processes; ``campaign_bytes`` per campaign in a chunk file,
     per landscape, and ``chunk_bytes`` the rest of a chunk file.
     """
@@ -202,16 +203,21 @@ def _collect(study: Study, design: PilotDesign, results, wall: float, jobs: int)
     sizes: dict[int, list[float]] = {}
     fixed = []
     for chunk, arrays, seconds in results:
-        at = (chunk.landscape, chunk.distortion, chunk.replicate)
-        t, hit = evaluations_to_target(arrays["normalized_regret"], study.target)
-        spent = arrays["seconds"].sum(axis=-1)
-        for k, s in enumerate(chunk.settings):
-            i = labels.index(s.label)
-            ett[(i, *at)], reached[(i, *at)], secs[(i, *at)] = t[k], hit[k], spent[k]
-        overhead[at] = max(seconds - float(spent.sum()), 0.0)
+        ran = 0.0
+        for r, part in split(chunk, arrays):
+            at = (chunk.landscape, chunk.distortion, r)
+            t, hit = evaluations_to_target(part["normalized_regret"], study.target)
+            spent = part["seconds"].sum(axis=-1)
+            for k, s in enumerate(chunk.settings):
+                i = labels.index(s.label)
+                ett[(i, *at)], reached[(i, *at)], secs[(i, *at)] = t[k], hit[k], spent[k]
+            ran += float(spent.sum())
+        # The chunk's seconds beyond its campaigns', shared out over its replicates.
+        overhead[chunk.landscape, chunk.distortion, list(chunk.replicates)] = max(
+            seconds - ran, 0.0
+        ) / len(chunk.replicates)
         total, payload = _npz_bytes(arrays)
-        m = len(chunk.settings)
-        sizes.setdefault(chunk.landscape, []).append(payload / m)
+        sizes.setdefault(chunk.landscape, []).append(payload / chunk.campaigns)
         fixed.append(total - payload)
     exact = next(i for i, d in enumerate(study.distortions) if d.is_exact)
     for i, s in enumerate(design.settings):

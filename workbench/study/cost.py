@@ -31,24 +31,26 @@ class Estimate:
 
 def probe(study: Study, jobs: int | None = None) -> Estimate:
     """Time the study's first chunk for real (one lock-step batch: every setting of the first
-    landscape, first distortion and replicate 0) and take its seconds per campaign; the grid
-    runs every chunk the same way."""
+    landscape and distortion over the first block of replicates) and take its seconds per
+    campaign; the grid runs every chunk the same way."""
     every = chunks(study)
     guided, baseline = settings(study)
-    campaigns = sum(len(c.settings) for c in every)
+    campaigns = sum(c.campaigns for c in every)
     first = every[0]
-    cell = Cell(study, first.landscape, first.distortion, first.replicate)
-    cell.placement  # noqa: B018 - placement work is shared by a chunk, so keep it out of the timing
-    cell.severity  # noqa: B018
+    for r in first.replicates:
+        # Placement work is shared by a chunk's distortions, so keep it out of the timing.
+        cell = Cell(study, first.landscape, first.distortion, r)
+        cell.placement  # noqa: B018
+        cell.severity  # noqa: B018
     start = time.perf_counter()
     run_chunk(study, first)
-    per = (time.perf_counter() - start) / max(len(first.settings), 1)
+    per = (time.perf_counter() - start) / max(first.campaigns, 1)
     n_cells = len(study.landscapes) * len(study.distortions) * (len(guided) + len(baseline))
     return Estimate(
         cells=n_cells,
         campaigns=campaigns,
         evaluations=campaigns * study.budget,
-        probe_campaigns=len(first.settings),
+        probe_campaigns=first.campaigns,
         per_campaign=per,
         jobs=jobs or os.cpu_count() or 1,
     )

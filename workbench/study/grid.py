@@ -5,10 +5,11 @@ k of two settings differs only by the setting: paired comparisons. The baselines
 the belief (no-belief, random) run once per landscape and replicate, with the streams of the
 ``exact`` distortion; the grid repeats them across distortions.
 
-A **chunk** is every campaign of one (landscape, distortion, replicate): the unit of parallel
-work and of storage, and one lock-step batch of the engine (:func:`~workbench.engine.batch.
-run_batch`). Its campaigns share dimension, budget and design size, and a campaign's trace does
-not depend on its batch, so results are the same whatever the number of workers.
+A **chunk** is every campaign of one landscape and distortion over a block of consecutive
+replicates (the study's ``block``, 8 unless set): the unit of parallel work and of storage, and one
+lock-step batch of the engine (:func:`~workbench.engine.batch.run_batch`). Its campaigns share
+dimension, budget and design size. The blocks are fixed by the study alone, and a campaign's
+trace does not depend on its batch, so results are the same whatever the number of workers.
 """
 
 from __future__ import annotations
@@ -32,6 +33,7 @@ __all__ = [
     "run_chunk",
     "run_setting",
     "settings",
+    "split",
     "streams_of",
 ]
 
@@ -118,28 +120,44 @@ def run_setting(cell: Cell, setting: Setting) -> Trace:
 
 @dataclass(frozen=True)
 class Chunk:
-    """One unit of work: a cell and the settings it runs."""
+    """One unit of work: the settings of one landscape and distortion over a block of
+    replicates."""
 
     landscape: int
     distortion: int
-    replicate: int
+    replicates: tuple[int, ...]
     settings: tuple[Setting, ...]
 
     @property
     def key(self) -> str:
-        return f"L{self.landscape:03d}-D{self.distortion:03d}-R{self.replicate:04d}"
+        first, last = self.replicates[0], self.replicates[-1]
+        return f"L{self.landscape:03d}-D{self.distortion:03d}-R{first:04d}-{last:04d}"
+
+    @property
+    def campaigns(self) -> int:
+        return len(self.replicates) * len(self.settings)
 
 
 def chunks(study: Study) -> list[Chunk]:
     """Every chunk of the study, in a fixed order."""
     guided, baseline = settings(study)
+    blocks = [
+        tuple(range(r, min(r + study.block, study.replicates)))
+        for r in range(0, study.replicates, study.block)
+    ]
     out = []
     for li in range(len(study.landscapes)):
         for di, dist in enumerate(study.distortions):
             extra = [b for b in baseline if dist.is_exact or b.strategy not in BELIEF_FREE]
-            for r in range(study.replicates):
-                out.append(Chunk(li, di, r, tuple(guided + extra)))
+            for block in blocks:
+                out.append(Chunk(li, di, block, tuple(guided + extra)))
     return out
+
+
+def split(chunk: Chunk, arrays: dict[str, np.ndarray]) -> list[tuple[int, dict[str, np.ndarray]]]:
+    """The arrays of ``chunk`` (as :func:`run_chunk` returns them) replicate by replicate:
+    ``(replicate, arrays)`` with the per-setting arrays stacked over the chunk's settings."""
+    return [(r, {k: v[i] for k, v in arrays.items()}) for i, r in enumerate(chunk.replicates)]
 
 
 class CampaignError(RuntimeError):
@@ -147,22 +165,31 @@ class CampaignError(RuntimeError):
 
 
 def run_chunk(study: Study, chunk: Chunk) -> dict[str, np.ndarray]:
-    """Run every campaign of ``chunk``; arrays stacked over its settings, plus the cell's
-    context (minimum, gap, severity, value at the belief's mode)."""
-    cell = Cell(study, chunk.landscape, chunk.distortion, chunk.replicate)
-    campaigns = [campaign_of(cell, s) for s in chunk.settings]
+    """Run every campaign of ``chunk`` in one batch. Arrays are stacked over (replicate,
+    setting), and each replicate's cell context (minimum, gap, severity, value at the belief's
+    mode) over replicate: :func:`split` takes them apart again."""
+    cells = [Cell(study, chunk.landscape, chunk.distortion, r) for r in chunk.replicates]
+    pairs = [(cell, s) for cell in cells for s in chunk.settings]
     try:
-        traces = run_batch(campaigns, [streams_of(cell, s) for s in chunk.settings])
+        traces = run_batch(
+            [campaign_of(c, s) for c, s in pairs], [streams_of(c, s) for c, s in pairs]
+        )
     except Exception as err:
         # Find the campaign that raised: alone, each does exactly what it does in the batch.
-        for setting in chunk.settings:
+        for cell, setting in pairs:
             try:
                 run_setting(cell, setting)
             except Exception as alone:
                 raise CampaignError(
                     f"campaign failed at {cell.label}, {setting.label}: {alone}"
                 ) from alone
-        raise CampaignError(f"campaigns failed together at {cell.label}: {err}") from err
+        raise CampaignError(f"campaigns failed together at {cells[0].label}: {err}") from err
+    m = len(chunk.settings)
+    parts = [_replicate_arrays(cell, traces[i * m : (i + 1) * m]) for i, cell in enumerate(cells)]
+    return {name: np.stack([p[name] for p in parts]) for name in parts[0]}
+
+
+def _replicate_arrays(cell: Cell, traces: list[Trace]) -> dict[str, np.ndarray]:
     stack = {name: np.stack([getattr(t, name) for t in traces]) for name in TRACE_ARRAYS}
     stack["user_points"] = np.stack([t.user_points(cell.space) for t in traces])
     stack["mode_value"] = np.array([cell.mode_value])

@@ -39,7 +39,7 @@ import numpy as np
 from .. import __version__
 from ..storage import atomic_path
 from .cells import SEVERITY_RADIUS
-from .grid import Chunk, settings
+from .grid import Chunk, settings, split
 from .spec import Study
 
 __all__ = ["BASELINE_DIMS", "GUIDED_DIMS", "assemble"]
@@ -161,8 +161,9 @@ def _define(ds, study: Study) -> None:
     )
 
 
-def _write_chunk(ds, study: Study, chunk: Chunk, data) -> float:
-    """Write one chunk; returns the lowest normalized regret among its campaigns."""
+def _write_replicate(ds, study: Study, chunk: Chunk, r: int, data) -> float:
+    """Write replicate ``r`` of one chunk (its arrays as :func:`~workbench.study.grid.split`
+    gives them); returns the lowest normalized regret among its campaigns."""
     guided, baseline = settings(study)
     strategies = list(dict.fromkeys(s.strategy for s in guided))
     decay_index = {d: i for i, d in enumerate(study.decay_levels)}
@@ -170,7 +171,7 @@ def _write_chunk(ds, study: Study, chunk: Chunk, data) -> float:
     explorations = list(study.exploration_levels)
     initials = list(study.initial)
     bases = [b.strategy for b in baseline]
-    li, d, r = chunk.landscape, chunk.distortion, chunk.replicate
+    li, d = chunk.landscape, chunk.distortion
     width = data["points"].shape[-1]
     # The guided campaigns of one (landscape, distortion, replicate) fill one slab over
     # (strategy, decay, quantile, exploration, initial): built here, written in one call.
@@ -245,7 +246,8 @@ def assemble(study: Study, chunk_dir: Path, path: Path, every: list[Chunk]) -> d
                 with np.load(chunk_dir / f"{chunk.key}.npz") as npz:
                     # Read every array once: an npz member is decompressed on each access.
                     data = {name: npz[name] for name in npz.files}
-                low = _write_chunk(ds, study, chunk, data)
                 label = study.landscapes[chunk.landscape].label
-                lowest[label] = min(lowest.get(label, np.inf), low)
+                for r, part in split(chunk, data):
+                    low = _write_replicate(ds, study, chunk, r, part)
+                    lowest[label] = min(lowest.get(label, np.inf), low)
     return lowest

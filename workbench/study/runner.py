@@ -189,8 +189,8 @@ def run_study(
         manifest = prepare(study, out, fresh)
         every = chunks(study)
         todo = [c for c in every if not _chunk_path(out, c).exists()]
-        total = sum(len(c.settings) for c in every)
-        done = resumed = total - sum(len(c.settings) for c in todo)
+        total = sum(c.campaigns for c in every)
+        done = resumed = total - sum(c.campaigns for c in todo)
         if progress:
             progress(done, total)
         for chunk, result, seconds in _parallel(study, todo, jobs, scheduler is not None):
@@ -199,7 +199,7 @@ def run_study(
                     np.savez(fh, **result)
             manifest["chunk_seconds"][chunk.key] = round(seconds, 4)
             write_text(out / MANIFEST, json.dumps(manifest, indent=1))
-            done += len(chunk.settings)
+            done += chunk.campaigns
             if progress:
                 progress(done, total)
     lowest = assemble(study, out / CHUNKS, out / GRID, every)

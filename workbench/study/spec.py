@@ -63,6 +63,7 @@ _TOP_KEYS = (
     "strategy",
     "decision",
     "random_multiple",
+    "block",
 )
 _RULES = ("expected", "minimax", "cvar")
 
@@ -141,6 +142,7 @@ class Study:
     decision: Decision
     path: str = "<study>"
     random_multiple: int = 1
+    block: int = 8
 
     @property
     def digest(self) -> str:
@@ -280,6 +282,7 @@ def _parse(doc: dict, text: str, name: str, where: str, base: Path) -> Study:
     )
     decision = _decision(doc.get("decision", {}), distortions)
     multiple = check_number(doc.get("random_multiple", 1), "random_multiple", low=1, integer=True)
+    block = check_number(doc.get("block", 8), "block", low=1, integer=True)
     return Study(
         name=name,
         title=title,
@@ -302,6 +305,7 @@ def _parse(doc: dict, text: str, name: str, where: str, base: Path) -> Study:
         decision=decision,
         path=where,
         random_multiple=multiple,
+        block=block,
     )
 
 
