@@ -71,3 +71,21 @@ def test_an_unknown_strategy_lists_the_valid_ones():
     with pytest.raises(InputError, match="pseudo-posterior") as err:
         get("pseudo_posterior")
     assert "did you mean 'pseudo-posterior'" in str(err.value)
+
+
+def test_candidate_sets_of_many_steps_are_each_steps_candidates_alone():
+    # Steps sharing one belief object share its transform; a step with a Beta belief samples
+    # on its own. Either way each set is the one its own stream gives alone, value for value.
+    from workbench.engine.strategies.base import candidate_sets, candidates
+    from workbench.world.beliefs import Beta, Product
+
+    shared = gaussian_at([0.8, 0.2], 0.05)
+    steps = [
+        _step(0.5, np.random.default_rng(k), belief=b)
+        for k, b in enumerate([shared, shared, Product((Beta(2.0, 3.0), Beta(3.0, 2.0))), shared])
+    ]
+    together = candidate_sets(steps, [np.random.default_rng(100 + k) for k in range(4)])
+    for k, step in enumerate(steps):
+        alone = candidates(step, np.random.default_rng(100 + k))
+        np.testing.assert_array_equal(together[k], alone)
+    assert not np.array_equal(together[0], together[1])

@@ -213,3 +213,21 @@ def test_volume_holding_ninety_percent_matches_the_chi_square_disc():
     assert bl.volume_fraction(bl.gaussian_at([0.5, 0.5], sd), draws=100_000) == pytest.approx(
         area, rel=0.05
     )
+
+
+def test_a_gaussian_product_samples_by_scipy_truncnorm_quantiles_of_its_uniform_draws():
+    # Reference: scipy.stats.truncnorm.ppf (inverse-cdf sampling, common practice).
+    b = bl.Product((bl.TruncatedGaussian(0.3, 0.2), bl.Uniform(), bl.TruncatedGaussian(0.9, 0.1)))
+    assert b.by_inverse_cdf
+    Q = b.uniforms(50, np.random.default_rng(8))
+    np.testing.assert_array_equal(Q, np.random.default_rng(8).random((3, 50)))
+    X = b.from_uniforms(Q)
+    ref0 = stats.truncnorm.ppf(Q[0], -1.5, 3.5, loc=0.3, scale=0.2)
+    ref2 = stats.truncnorm.ppf(Q[2], -9.0, 1.0, loc=0.9, scale=0.1)
+    np.testing.assert_allclose(X[:, 0], ref0, rtol=1e-9, atol=1e-12)
+    np.testing.assert_allclose(X[:, 2], ref2, rtol=1e-9, atol=1e-12)
+    np.testing.assert_array_equal(X[:, 1], Q[1])
+    # sample() is the same two steps on the same stream; stacked draws transform row by row.
+    np.testing.assert_array_equal(b.sample(50, np.random.default_rng(8)), X)
+    np.testing.assert_array_equal(b.from_uniforms(np.stack([Q, Q[::-1]]))[0], X)
+    assert not bl.Product((bl.Beta(2.0, 3.0),)).by_inverse_cdf

@@ -54,7 +54,7 @@ from .strategies.base import (
     LOG_BELIEF_FLOOR,
     POLISH_ITERATIONS,
     POLISHES,
-    candidates,
+    candidate_sets,
 )
 from .strategies.pseudo_posterior import belief_log_odds
 
@@ -352,23 +352,26 @@ def _propose(states: list[_Campaign], data: list, lams: np.ndarray, stack: sg.St
     stack = stack.take(np.array(stacked))
     R = len(states)
     kinds = np.array([s.kind for s in states])
-    refs = np.empty(R)
-    for i, (s, (_, y)) in enumerate(zip(states, data, strict=True)):
-        if s.kind == _GOOD:
-            refs[i] = float(np.quantile(y, s.c.quantile))
-            s.threshold[t] = refs[i]
-        else:
-            refs[i] = float(np.min(y))
-            s.threshold[t] = np.nan
+    # f_γ of the pseudo-posterior's campaigns, one call per quantile level (row by row, as
+    # alone); the best value seen for the others.
+    Y = np.stack([y for _, y in data])
+    refs = Y.min(axis=1)
+    quantiles = np.array([s.c.quantile if s.kind == _GOOD else np.nan for s in states])
+    for q in np.unique(quantiles[kinds == _GOOD]):
+        rows = np.flatnonzero(quantiles == q)
+        refs[rows] = np.quantile(Y[rows], q, axis=1)
+    for i, s in enumerate(states):
+        s.threshold[t] = refs[i] if s.kind == _GOOD else np.nan
 
     # 1. candidates (each from its own stream) and their scores.
     C = np.stack(
-        [
-            candidates(
-                Step(s.space, s.points[rows], y, s.belief, s.log_belief_max, lam, 0.0), s.rng
-            )
-            for s, (rows, y), lam in zip(states, data, lams, strict=True)
-        ]
+        candidate_sets(
+            [
+                Step(s.space, s.points[rows], y, s.belief, s.log_belief_max, lam, 0.0)
+                for s, (rows, y), lam in zip(states, data, lams, strict=True)
+            ],
+            [s.rng for s in states],
+        )
     )
     score = _scores(states, kinds, refs, lams, stack, C)
     score = np.where(np.isfinite(score), score, -np.inf)

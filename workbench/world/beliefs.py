@@ -328,7 +328,25 @@ class Product:
         return sum(m.logpdf(U[:, j]) for j, m in enumerate(self.marginals))
 
     def sample(self, n: int, rng: np.random.Generator) -> np.ndarray:
+        if self.by_inverse_cdf:
+            return self.from_uniforms(self.uniforms(n, rng))
         return np.column_stack([m.sample(n, rng) for m in self.marginals])
+
+    @cached_property
+    def by_inverse_cdf(self) -> bool:
+        """Whether every marginal samples as its ``ppf`` of uniform draws (truncated Gaussian,
+        uniform): then sampling splits into :meth:`uniforms` and :meth:`from_uniforms`, and
+        the transform of many draws can be one call."""
+        return all(isinstance(m, TruncatedGaussian | Uniform) for m in self.marginals)
+
+    def uniforms(self, n: int, rng: np.random.Generator) -> np.ndarray:
+        """The uniform draws behind :meth:`sample`, ``(dim, n)``, in the order it takes them."""
+        return np.stack([rng.random(n) for _ in self.marginals])
+
+    def from_uniforms(self, Q: np.ndarray) -> np.ndarray:
+        """Points ``(..., n, dim)`` from uniform draws ``(..., dim, n)`` (with
+        :attr:`by_inverse_cdf`); each value depends on its own draw only."""
+        return np.stack([m.ppf(Q[..., j, :]) for j, m in enumerate(self.marginals)], axis=-1)
 
     def mode(self) -> np.ndarray:
         return np.array([m.mode() for m in self.marginals], dtype=float)

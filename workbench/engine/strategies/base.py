@@ -26,7 +26,7 @@ from scipy.stats import qmc
 
 from ...world.space import Space
 
-__all__ = ["LOG_BELIEF_FLOOR", "Step", "Strategy", "maximise"]
+__all__ = ["LOG_BELIEF_FLOOR", "Step", "Strategy", "candidate_sets", "candidates", "maximise"]
 
 SOBOL_CANDIDATES = 128
 BELIEF_CANDIDATES = 32
@@ -89,14 +89,43 @@ def _sobol(dim: int) -> np.ndarray:
 
 def candidates(step: Step, rng: np.random.Generator) -> np.ndarray:
     """The candidate set of step 1 above (snapped)."""
-    d = step.space.dim
-    rotated = (_sobol(d) + rng.random(d)) % 1.0
-    parts = [rotated, np.atleast_2d(step.belief.sample(BELIEF_CANDIDATES, rng)).reshape(-1, d)]
-    if len(step.y):
-        best = step.X[np.argsort(step.y, kind="stable")[:INCUMBENTS]]
-        noise = LOCAL_SD * rng.standard_normal((len(best), LOCAL_CANDIDATES, d))
-        parts.append(np.clip(best[:, None, :] + noise, 0.0, 1.0).reshape(-1, d))
-    return step.space.snap(np.vstack(parts))
+    return candidate_sets([step], [rng])[0]
+
+
+def candidate_sets(steps: list[Step], rngs: list[np.random.Generator]) -> list[np.ndarray]:
+    """:func:`candidates` of every step, each drawn from its own stream in the same order.
+
+    The random draws are taken step by step; the belief transforms of steps that hold the same
+    belief object (the settings of one grid cell) are one call, which changes no value: each
+    point depends on its own draws only.
+    """
+    draws = []
+    for step, rng in zip(steps, rngs, strict=True):
+        d = step.space.dim
+        rotated = (_sobol(d) + rng.random(d)) % 1.0
+        belief = step.belief
+        if getattr(belief, "by_inverse_cdf", False):
+            drawn = belief.uniforms(BELIEF_CANDIDATES, rng)
+        else:
+            drawn = np.atleast_2d(belief.sample(BELIEF_CANDIDATES, rng)).reshape(-1, d)
+        local = None
+        if len(step.y):
+            best = step.X[np.argsort(step.y, kind="stable")[:INCUMBENTS]]
+            noise = LOCAL_SD * rng.standard_normal((len(best), LOCAL_CANDIDATES, d))
+            local = np.clip(best[:, None, :] + noise, 0.0, 1.0).reshape(-1, d)
+        draws.append([rotated, drawn, local])
+    groups: dict[int, list[int]] = {}
+    for i, step in enumerate(steps):
+        if getattr(step.belief, "by_inverse_cdf", False):
+            groups.setdefault(id(step.belief), []).append(i)
+    for members in groups.values():
+        points = steps[members[0]].belief.from_uniforms(np.stack([draws[i][1] for i in members]))
+        for i, p in zip(members, points, strict=True):
+            draws[i][1] = p
+    return [
+        step.space.snap(np.vstack([part for part in parts if part is not None]))
+        for step, parts in zip(steps, draws, strict=True)
+    ]
 
 
 def _polish(score, starts: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
