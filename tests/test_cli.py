@@ -67,9 +67,9 @@ def test_simulate_is_reproducible_and_baselines_run_without_a_model(capsys):
 def test_check_prints_counts_and_an_estimate(capsys):
     assert main(["check", "studies/demo.toml", "--jobs", "2"]) == 0
     out = capsys.readouterr().out
-    # 4 landscapes × 4 distortions × 8 replicates × (12 guided + belief-sampling)
-    # + 4 landscapes × 8 replicates × (no-belief + random) = 1728 campaigns of 20 evaluations.
-    assert "campaigns: 1728" in out and "evaluations in total: 34560" in out
+    # 4 landscapes × 4 distortions × 32 replicates × (12 guided + belief-sampling)
+    # + 4 landscapes × 32 replicates × (no-belief + random) = 6912 campaigns of 20 evaluations.
+    assert "campaigns: 6912" in out and "evaluations in total: 138240" in out
     assert "estimated wall time on 2 worker(s)" in out
 
 

@@ -76,7 +76,7 @@ def test_pilot_uses_first_middle_and_last_settings_and_every_baseline():
     assert [s.label for s in design.guided] == [guided[i].label for i in (0, n // 2, n - 1)]
     assert [s.strategy for s in design.baselines] == list(study.baselines)
     pilot, todo = pl.pilot_chunks(study, design)
-    assert pilot.replicates == 4 and study.replicates == 8
+    assert pilot.replicates == 4 < study.replicates
     # Four pilot replicates fit in one block: one chunk per landscape and distortion.
     assert len(todo) == len(study.landscapes) * len(study.distortions)
     assert all(c.replicates == (0, 1, 2, 3) for c in todo)

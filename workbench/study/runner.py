@@ -109,10 +109,30 @@ def _chunk_path(out: Path, chunk: Chunk) -> Path:
     return out / CHUNKS / f"{chunk.key}.npz"
 
 
-def _work(study: Study, chunk: Chunk) -> tuple[Chunk, dict, float]:
-    start = time.perf_counter()
-    result = run_chunk(study, chunk)
-    return chunk, result, time.perf_counter() - start
+def _work(
+    study: Study, group: list[Chunk]
+) -> tuple[list[tuple[Chunk, dict, float]], Exception | None]:
+    """Run a group's chunks in turn: what finished, and the error that stopped the rest (so
+    that the chunks finished before it are still written)."""
+    out = []
+    for chunk in group:
+        start = time.perf_counter()
+        try:
+            result = run_chunk(study, chunk)
+        except Exception as err:
+            return out, err
+        out.append((chunk, result, time.perf_counter() - start))
+    return out, None
+
+
+def _groups(todo: list[Chunk]) -> list[list[Chunk]]:
+    """The chunks of one landscape and block of replicates, whatever their distortion: one
+    task, so that its worker builds each replicate's landscape once for all of them (a drawn
+    or fitted surface and its minimum search; :mod:`workbench.study.cells` keeps it)."""
+    groups: dict[tuple, list[Chunk]] = {}
+    for c in todo:
+        groups.setdefault((c.landscape, c.replicates), []).append(c)
+    return list(groups.values())
 
 
 @contextlib.contextmanager
@@ -147,7 +167,8 @@ def _backend(scheduler: str | None) -> Iterator[None]:
 def execute(
     study: Study, todo: list[Chunk], *, jobs: int | None = None, scheduler: str | None = None
 ) -> Iterator[tuple[Chunk, dict, float]]:
-    """Run ``todo`` in parallel; yield (chunk, arrays, seconds) as each chunk finishes."""
+    """Run ``todo`` in parallel; yield (chunk, arrays, seconds) as each chunk finishes (the
+    chunks of one landscape and block of replicates finish together)."""
     with _backend(scheduler):
         yield from _parallel(study, todo, jobs, scheduler is not None)
 
@@ -163,7 +184,10 @@ def _parallel(
     parallel = joblib.Parallel(
         n_jobs=n_jobs, return_as="generator_unordered", batch_size=1, pre_dispatch="2*n_jobs"
     )
-    yield from parallel(joblib.delayed(_work)(study, c) for c in todo)
+    for finished, err in parallel(joblib.delayed(_work)(study, g) for g in _groups(todo)):
+        yield from finished
+        if err is not None:
+            raise err
 
 
 def run_study(
