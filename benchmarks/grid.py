@@ -1,8 +1,9 @@
 """Runner benchmark: throughput, flat memory, and Dask workers, on studies/reference.toml.
 
 The reference study has about 10,000 campaigns (budget 50, 2-D to 6-D landscapes). This script
-runs a share of its replicates (``--share``, default 1/18: 2 of 36 replicates, 560 campaigns)
-and projects the whole. Each measurement runs in a fresh process, so the peak memory it
+runs a share of its replicates (``--share``, default 8 of 36: one block of replicates, so its
+chunks are the lock-step batches of the full study, 2,240 campaigns) and projects the whole;
+``--share 1`` runs the whole study. Each measurement runs in a fresh process, so the peak memory it
 reports (largest resident set of the runner and of any worker) belongs to that run alone.
 
 It prints, in one run:
@@ -12,7 +13,7 @@ It prints, in one run:
 - the same share on a Dask LocalCluster with 1 and with 2 workers: their time ratio shows the
   work divides by the number of workers.
 
-    python benchmarks/grid.py [--share 0.056] [--no-dask]
+    python benchmarks/grid.py [--share 0.222] [--no-dask]
 """
 
 from __future__ import annotations
@@ -74,7 +75,7 @@ def measure(replicates: int, mode: str) -> dict:
 
 def main() -> None:
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
-    parser.add_argument("--share", type=float, default=2 / 36)
+    parser.add_argument("--share", type=float, default=8 / 36)
     parser.add_argument("--no-dask", action="store_true")
     parser.add_argument("--child", default=None, help=argparse.SUPPRESS)
     parser.add_argument("--replicates", type=int, default=None, help=argparse.SUPPRESS)

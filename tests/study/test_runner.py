@@ -191,3 +191,64 @@ def test_an_unreachable_scheduler_is_one_error_and_writes_nothing(study_file, tm
     with pytest.raises(InputError, match="--scheduler"):
         run_study(load(study_file), out, scheduler="tcp://127.0.0.1:1")
     assert not out.exists()
+
+
+SURFACE_STUDY = """
+title = "surface tasks"
+budget = 6
+replicates = 2
+seed = 3
+baselines = ["no-belief"]
+[space.x1]
+lower = 0
+upper = 1
+[space.x2]
+lower = 0
+upper = 1
+[belief.x1]
+centre = 0.4
+spread = 0.2
+[belief.x2]
+centre = 0.6
+spread = 0.2
+[[landscape]]
+name = "branin"
+[[landscape]]
+drawn = { smoothness = 2.5, length_scale = 0.3 }
+label = "drawn"
+[distortion]
+shifted = { shift = 0.2 }
+[strategy.prior-weighted]
+decay = ["hyperbolic:3"]
+"""
+
+
+def test_a_drawn_surface_is_one_task_per_block_and_a_failure_keeps_its_finished_chunks(
+    tmp_path, monkeypatch
+):
+    from workbench.study import runner
+
+    path = tmp_path / "surface.toml"
+    path.write_text(textwrap.dedent(SURFACE_STUDY), encoding="utf-8")
+    study = load(path)
+    tasks = runner._groups(study, grid.chunks(study))
+    # Textbook chunks one by one; the drawn landscape's two distortions of its one block together.
+    assert [[(c.landscape, c.distortion) for c in g] for g in tasks] == [
+        [(0, 0)],
+        [(0, 1)],
+        [(1, 0), (1, 1)],
+    ]
+    original = grid.campaign_of
+
+    def failing(cell, setting):
+        if cell.landscape == 1 and cell.distortion == 1:
+            raise RuntimeError("surface lost")
+        return original(cell, setting)
+
+    monkeypatch.setattr(grid, "campaign_of", failing)
+    with pytest.raises(RuntimeError, match="surface lost"):
+        run_study(study, tmp_path / "out", jobs=1)
+    kept = sorted(p.name for p in (tmp_path / "out" / "chunks").glob("*.npz"))
+    # The drawn landscape's exact chunk finished before its task failed: it is on disk.
+    assert "L001-D000-R0000-0001.npz" in kept and len(kept) == 3
+    assert not (tmp_path / "out" / "grid.nc").exists()

@@ -125,13 +125,17 @@ def _work(
     return out, None
 
 
-def _groups(todo: list[Chunk]) -> list[list[Chunk]]:
-    """The chunks of one landscape and block of replicates, whatever their distortion: one
-    task, so that its worker builds each replicate's landscape once for all of them (a drawn
-    or fitted surface and its minimum search; :mod:`workbench.study.cells` keeps it)."""
+def _groups(study: Study, todo: list[Chunk]) -> list[list[Chunk]]:
+    """The tasks: on a landscape built per replicate (drawn, fitted, objective), the chunks of
+    one block of replicates, whatever their distortion, so that one worker builds each
+    replicate's surface and searches its minimum once for all of them
+    (:mod:`workbench.study.cells` keeps it); a textbook landscape's chunks one by one, which
+    spreads small studies over more workers."""
     groups: dict[tuple, list[Chunk]] = {}
     for c in todo:
-        groups.setdefault((c.landscape, c.replicates), []).append(c)
+        shared = study.landscapes[c.landscape].kind != "textbook"
+        key = (c.landscape, c.replicates) if shared else (c.landscape, c.replicates, c.distortion)
+        groups.setdefault(key, []).append(c)
     return list(groups.values())
 
 
@@ -184,7 +188,7 @@ def _parallel(
     parallel = joblib.Parallel(
         n_jobs=n_jobs, return_as="generator_unordered", batch_size=1, pre_dispatch="2*n_jobs"
     )
-    for finished, err in parallel(joblib.delayed(_work)(study, g) for g in _groups(todo)):
+    for finished, err in parallel(joblib.delayed(_work)(study, g) for g in _groups(study, todo)):
         yield from finished
         if err is not None:
             raise err
