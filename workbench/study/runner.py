@@ -171,8 +171,8 @@ def _backend(scheduler: str | None) -> Iterator[None]:
 def execute(
     study: Study, todo: list[Chunk], *, jobs: int | None = None, scheduler: str | None = None
 ) -> Iterator[tuple[Chunk, dict, float]]:
-    """Run ``todo`` in parallel; yield (chunk, arrays, seconds) as each chunk finishes (the
-    chunks of one landscape and block of replicates finish together)."""
+    """Run ``todo`` in parallel; yield (chunk, arrays, seconds) as each chunk finishes (on a
+    drawn, fitted or objective landscape, the chunks of one block finish together)."""
     with _backend(scheduler):
         yield from _parallel(study, todo, jobs, scheduler is not None)
 

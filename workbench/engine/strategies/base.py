@@ -100,12 +100,14 @@ def candidate_sets(steps: list[Step], rngs: list[np.random.Generator]) -> list[n
     point depends on its own draws only.
     """
     draws = []
-    for step, rng in zip(steps, rngs, strict=True):
+    groups: dict[int, list[int]] = {}  # steps whose belief draws wait for a shared transform
+    for i, (step, rng) in enumerate(zip(steps, rngs, strict=True)):
         d = step.space.dim
         rotated = (_sobol(d) + rng.random(d)) % 1.0
         belief = step.belief
         if getattr(belief, "by_inverse_cdf", False):
             drawn = belief.uniforms(BELIEF_CANDIDATES, rng)
+            groups.setdefault(id(belief), []).append(i)
         else:
             drawn = np.atleast_2d(belief.sample(BELIEF_CANDIDATES, rng)).reshape(-1, d)
         local = None
@@ -114,10 +116,6 @@ def candidate_sets(steps: list[Step], rngs: list[np.random.Generator]) -> list[n
             noise = LOCAL_SD * rng.standard_normal((len(best), LOCAL_CANDIDATES, d))
             local = np.clip(best[:, None, :] + noise, 0.0, 1.0).reshape(-1, d)
         draws.append([rotated, drawn, local])
-    groups: dict[int, list[int]] = {}
-    for i, step in enumerate(steps):
-        if getattr(step.belief, "by_inverse_cdf", False):
-            groups.setdefault(id(step.belief), []).append(i)
     for members in groups.values():
         points = steps[members[0]].belief.from_uniforms(np.stack([draws[i][1] for i in members]))
         for i, p in zip(members, points, strict=True):
