@@ -183,7 +183,8 @@ def run_chunk(study: Study, chunk: Chunk) -> dict[str, np.ndarray]:
                 raise CampaignError(
                     f"campaign failed at {cell.label}, {setting.label}: {alone}"
                 ) from alone
-        raise CampaignError(f"campaigns failed together at {cells[0].label}: {err}") from err
+        where = cells[0].label + (f" to {cells[-1].replicate}" if len(cells) > 1 else "")
+        raise CampaignError(f"campaigns failed together at {where}: {err}") from err
     m = len(chunk.settings)
     parts = [_replicate_arrays(cell, traces[i * m : (i + 1) * m]) for i, cell in enumerate(cells)]
     return {name: np.stack([p[name] for p in parts]) for name in parts[0]}
