@@ -142,7 +142,7 @@ def saving(
 
     after averaging ``average_over`` (default: the replicates); with ``with_baseline`` the
     spread is taken over the settings and the baseline together, which bounds the saving
-    (|b − m| / sd ≤ √(k + 1) for k settings) where the settings barely differ among themselves
+    (|b − m| / sd ≤ √(2(k + 1)) for k settings) where the settings barely differ among themselves
     but all differ much from the baseline. ``baseline`` is a setting label
     of ``values`` (default no-belief; that row is then left out of the result and of the
     spread) or a DataArray without ``setting``. Where ``s ≤ floor · max(|m|, |b|)`` (the
