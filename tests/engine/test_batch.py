@@ -3,8 +3,8 @@
 import numpy as np
 import pytest
 
-from workbench.engine.batch import run_batch
-from workbench.engine.campaign import Campaign, Trace, run
+from workbench.engine.batch import run, run_batch
+from workbench.engine.campaign import Campaign, Trace
 from workbench.seeding import campaign_streams, derive
 from workbench.study.decay import parse
 from workbench.world import landscapes as ls

@@ -18,8 +18,8 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from ..engine.batch import run_batch
-from ..engine.campaign import Campaign, Trace, run
+from ..engine.batch import run, run_batch
+from ..engine.campaign import Campaign, Trace
 from .cells import Cell
 from .decay import Schedule
 from .spec import Study
