@@ -12,7 +12,7 @@ from pathlib import Path
 import pytest
 
 from workbench import analysis as an
-from workbench.engine.strategies import base
+from workbench.engine import campaign as base
 from workbench.study.runner import run_study
 from workbench.study.spec import load
 
