@@ -33,7 +33,7 @@ from threadpoolctl import threadpool_limits
 from workbench import seeding
 from workbench.engine import campaign
 from workbench.engine.acquisition import expected_improvement
-from workbench.engine.batch import run_batch
+from workbench.engine.batch import run, run_batch
 from workbench.world import landscapes
 from workbench.world.beliefs import gaussian_at
 from workbench.world.space import Space
@@ -74,7 +74,7 @@ def _spec(placement, budget: int, n0: int) -> campaign.Campaign:
 
 
 def ours(placement, budget: int, n0: int, streams) -> float:
-    return float(campaign.run(_spec(placement, budget, n0), streams).regret[-1])
+    return float(run(_spec(placement, budget, n0), streams).regret[-1])
 
 
 def ours_batch(placement, budget: int, n0: int, streams_list) -> list[float]:

@@ -12,7 +12,7 @@ from pathlib import Path
 import pytest
 
 from workbench import analysis as an
-from workbench.engine.strategies import base
+from workbench.engine import campaign
 from workbench.study.runner import run_study
 from workbench.study.spec import load
 
@@ -77,10 +77,10 @@ def test_the_search_described_in_the_readme_uses_the_engine_constants():
     )
     assert found, "README: the acquisition search sentence is missing"
     assert tuple(int(g) for g in found.groups()) == (
-        base.SOBOL_CANDIDATES,
-        base.BELIEF_CANDIDATES,
-        base.LOCAL_CANDIDATES,
-        base.INCUMBENTS,
-        base.POLISHES,
-        base.POLISH_ITERATIONS,
+        campaign.SOBOL_CANDIDATES,
+        campaign.BELIEF_CANDIDATES,
+        campaign.LOCAL_CANDIDATES,
+        campaign.INCUMBENTS,
+        campaign.POLISHES,
+        campaign.POLISH_ITERATIONS,
     )

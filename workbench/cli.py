@@ -15,6 +15,7 @@ import time
 import warnings
 from pathlib import Path
 
+from .engine.strategies import DEFAULT_QUANTILE
 from .evidence.commands import cmd_audit, cmd_monitor
 from .study.grid import CampaignError
 from .validation import InputError
@@ -104,9 +105,9 @@ def _write_belief_figure(s, path: Path) -> Path:
 
 def _simulation_study(args):
     """A one-cell study built from the command line (every value validated, keys = options)."""
-    from .engine.strategies import STRATEGIES
+    from .engine.strategies import STRATEGIES, belief_strategies
     from .study.decay import parse
-    from .study.spec import BELIEF_STRATEGIES, Decision, LandscapeEntry, StrategyFactors, Study
+    from .study.spec import Decision, LandscapeEntry, StrategyFactors, Study
     from .validation import check_choice, check_number
     from .world import landscapes as ls
     from .world.distortions import EXACT, MISPLACE, Distortion
@@ -147,7 +148,7 @@ def _simulation_study(args):
             distortion = EXACT
     except InputError as err:
         raise err.located(where) from None
-    guided = name in BELIEF_STRATEGIES
+    guided = name in belief_strategies()
     entry = LandscapeEntry(land.name, land.dim, noise, land.name)
     study = Study(
         name="simulate",
@@ -487,7 +488,7 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("--scale", type=float, default=1.0, help="multiply the belief's spread")
     p.add_argument("--misplace", default=None, help="centre the belief on 'worst' or 'decoy'")
     p.add_argument("--decay", default="hyperbolic:10", help="family:value")
-    p.add_argument("--quantile", type=float, default=0.25, help="threshold quantile γ")
+    p.add_argument("--quantile", type=float, default=DEFAULT_QUANTILE, help="threshold quantile γ")
     p.add_argument("--exploration", type=float, default=0.0, help="share of uniform proposals")
     p.add_argument("--initial", default="belief", help="belief|sobol|lhs[:N]")
     p.add_argument("--target", type=float, default=0.05, help="normalized regret to reach")

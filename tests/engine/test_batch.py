@@ -1,10 +1,13 @@
 """Campaigns in lock-step: a campaign's trace does not depend on its batch."""
 
+from dataclasses import replace
+
 import numpy as np
 import pytest
+from scipy.stats import qmc
 
-from workbench.engine.batch import run_batch
-from workbench.engine.campaign import Campaign, Trace, run
+from workbench.engine.batch import run, run_batch
+from workbench.engine.campaign import Campaign, Trace
 from workbench.seeding import campaign_streams, derive
 from workbench.study.decay import parse
 from workbench.world import landscapes as ls
@@ -77,11 +80,27 @@ def test_batches_on_discrete_coordinates_stay_independent_and_on_bin_centres():
         np.testing.assert_array_equal(t.points, space.snap(t.points))
 
 
-def test_run_is_a_batch_of_one():
-    c = _mixed()[0]
-    t = run(c, _streams(1)[0])
-    assert isinstance(t, Trace) and t.points.shape == (c.budget, 2)
-    _same(t, run_batch([c], _streams(1))[0])
+@pytest.mark.filterwarnings("ignore:The balance properties")
+@pytest.mark.parametrize(
+    ("strategy", "asked", "taken"),
+    [
+        ("no-belief", "belief", "sobol"),
+        ("random", "belief", "sobol"),
+        ("belief-sampling", "lhs", "belief"),
+    ],
+)
+def test_the_initial_design_follows_what_the_strategy_uses(strategy, asked, taken):
+    # A strategy that ignores the belief takes Sobol points for a belief design; belief
+    # sampling always draws from the belief. The design comes from the design stream alone.
+    c = replace(_mixed()[0], strategy=strategy, design=asked)
+    trace = run(c, _streams(1)[0])
+    n0 = c.n_initial
+    rng = _streams(1)[0]["design"]
+    if taken == "sobol":
+        expected = qmc.Sobol(2, scramble=True, seed=rng).random(n0)
+    else:
+        expected = c.belief.sample(n0, rng)
+    np.testing.assert_array_equal(trace.points[:n0], c.space.snap(expected))
 
 
 def test_a_batch_refuses_campaigns_of_different_shapes():

@@ -4,7 +4,8 @@ import numpy as np
 import pytest
 from helpers import make_study
 
-from workbench.engine.campaign import Campaign, run
+from workbench.engine.batch import run
+from workbench.engine.campaign import Campaign
 from workbench.seeding import campaign_streams, derive
 from workbench.study.grid import chunks, split
 from workbench.study.runner import execute

@@ -14,10 +14,11 @@ from pathlib import Path
 import numpy as np
 import xarray as xr
 
+from ..engine.strategies import reference, uses_quantile
 from ..validation import InputError, raw
 
 GRID = "grid.nc"
-NO_BELIEF = "no-belief"
+NO_BELIEF = reference()
 RULES = ("expected", "minimax", "cvar")
 METRICS = ("evaluations_to_target", "final_normalized_regret", "log_regret_area")
 # What each decision metric is called in tables and figures, and its unit.
@@ -27,8 +28,6 @@ METRIC_NAMES = {
     "log_regret_area": ("area under the log10 normalized-regret curve", "log10 regret"),
 }
 SETTING_FACTORS = ("strategy", "decay", "quantile", "exploration", "initial")
-# The grid repeats these strategies' values across the quantile levels (see gridfile).
-QUANTILE_FREE = ("prior-weighted",)
 _CAMPAIGN = ("setting", "landscape", "distortion", "replicate")
 POOLED = ("landscape", "replicate")
 # Survival that is ½ in exact arithmetic may come out a rounding error above it.
@@ -83,7 +82,9 @@ def _picks(ds: xr.Dataset) -> list[tuple[tuple[int, ...], dict]]:
         si, di, qi, ei, ii = (int(i) for i in index)
         strategy = str(ds["strategy"].values[si])
         quantile = float(ds["quantile"].values[qi])
-        if strategy in QUANTILE_FREE:
+        # The grid repeats the values of a strategy that does not use the quantile across
+        # the quantile levels (see gridfile).
+        if not uses_quantile(strategy):
             if (si, di, ei, ii) in seen:
                 continue
             seen.add((si, di, ei, ii))

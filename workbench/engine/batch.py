@@ -1,27 +1,29 @@
 """Campaigns in lock-step: R campaigns of one dimension, budget and design size advance
 together, their GP algebra and acquisition search stacked into batched numpy calls.
+:func:`run` is a batch of one: there is no second, single-campaign path.
 
 Each campaign keeps its own streams and draws from them in the order a lone campaign would
 (exploration, fit starts, candidates, fallbacks), and every stacked operation acts campaign by
 campaign, so a campaign's trace does not depend on the others in its batch.
 
-Per step, for the campaigns that use a model:
+Per step, for the campaigns whose strategy uses a model:
 
 1. refit (:func:`workbench.gp.refit_due`) by the stacked fit of
    :mod:`workbench.engine.stacked_gp` (one vectorised L-BFGS-B over every start), or condition
    the last hyper-parameters on the new data;
-2. candidates as :func:`workbench.engine.strategies.base.candidates`, scored over ``(R, m)``
-   with each campaign's belief weight λ, threshold f_γ and best value;
+2. candidates (:func:`workbench.engine.campaign.candidate_sets`), scored over ``(R, m)`` by
+   each strategy's :meth:`~workbench.engine.strategies.base.Strategy.score` on the rows of its
+   campaigns, with each campaign's reference (best value or f_γ), belief weight λ and belief
+   log density;
 3. the ``POLISHES`` best candidates of every campaign polished by scipy's L-BFGS-B driver
    per campaign (``POLISH_ITERATIONS`` iterations and evaluations), all requests answered at
-   once, with the analytic gradient of the model term (log EI or the log odds of good) and a
-   forward-difference gradient of the belief term (each campaign's belief on its own rows),
-   keeping the best point seen;
+   once, with the score's gradient (model term by the chain rule through the GP's mean and sd,
+   belief term by forward differences, each campaign's belief on its own rows), keeping the
+   best point seen;
 4. the first new point (no repeated evaluation), checked for all campaigns at once.
 
-Strategies without a model (random, belief sampling) and model-based strategies without a
-stacked score propose one campaign at a time through their ``propose``.
-The wall time of a step is shared equally by the campaigns of the batch.
+Strategies without a model (random, belief sampling) propose one campaign at a time through
+their ``propose`` hook. The wall time of a step is shared equally by the campaigns of the batch.
 """
 
 from __future__ import annotations
@@ -36,34 +38,24 @@ from .. import gp
 from ..world.beliefs import Product, Uniform
 from ..world.space import Categorical
 from . import stacked_gp as sg
-from .acquisition import log_expected_improvement_grad, log_odds_good_grad
 from .campaign import (
-    BELIEF_USERS,
-    Campaign,
-    Trace,
-    _design,
-    _evaluate,
-    _mode_point,
-    _model_targets,
-)
-from .lbfgsb import minimise_driven
-from .strategies import Step, get
-from .strategies.base import (
-    _FD_STEP,
-    _SAME_POINT,
-    LOG_BELIEF_FLOOR,
+    FD_STEP,
     POLISH_ITERATIONS,
     POLISHES,
+    Campaign,
+    Trace,
     candidate_sets,
+    design,
+    evaluate,
+    mode_point,
+    model_targets,
 )
-from .strategies.pseudo_posterior import belief_log_odds
+from .lbfgsb import minimise_driven
+from .strategies import Derivatives, Step, get
+from .strategies.base import SAME_POINT
 
-__all__ = ["run_batch"]
+__all__ = ["run", "run_batch"]
 
-# Stacked scores: log EI (prior-weighted; no-belief is it at weight 0) or the model's log odds
-# of good (pseudo-posterior), each plus λ times its belief term.
-_EI, _GOOD = "ei", "good"
-_KINDS = {"prior-weighted": _EI, "no-belief": _EI, "pseudo-posterior": _GOOD}
 # How many of the best-ranked points the first-new rule checks before looking at the rest.
 _FIRST_LOOK = 8
 
@@ -76,17 +68,16 @@ class _Campaign:
         self.space = c.space
         self.d = c.space.dim
         self.strategy = get(c.strategy)
-        self.kind = _KINDS.get(c.strategy)
-        self.uses_belief = c.strategy in BELIEF_USERS
+        self.uses_belief = self.strategy.uses_belief
         self.belief = (
             c.belief if self.uses_belief else Product(tuple(Uniform() for _ in range(self.d)))
         )
-        design = c.design
-        if c.strategy == "belief-sampling":
-            design = "belief"
-        elif not self.uses_belief and design == "belief":
-            design = "sobol"
-        self.design = design
+        kind = c.design
+        if self.strategy.design is not None:
+            kind = self.strategy.design
+        elif not self.uses_belief and kind == "belief":
+            kind = "sobol"
+        self.design = kind
         self.design_rng, self.rng, self.noise_rng = (
             streams["design"],
             streams["strategy"],
@@ -101,9 +92,9 @@ class _Campaign:
         self.seconds = np.zeros(budget)
         self.theta: np.ndarray | None = None
         self.last_fit = 0
-        self.mode_value = float(_evaluate(c.placement, _mode_point(c.space, c.belief))[0])
+        self.mode_value = float(evaluate(c.placement, mode_point(c.space, c.belief))[0])
         self.log_belief_max = (
-            float(self.belief.logpdf(_mode_point(c.space, self.belief))[0])
+            float(self.belief.logpdf(mode_point(c.space, self.belief))[0])
             if self.uses_belief
             else 0.0
         )
@@ -123,7 +114,7 @@ class _Campaign:
         c, d = self.c, self.d
         k, m = max(1, c.multiple), len(U)
         U = np.vstack([U, self.space.snap(self.rng.random((m * (k - 1), d)))]).reshape(k, m, d)
-        true = _evaluate(c.placement, U.reshape(k * m, d)).reshape(k, m)
+        true = evaluate(c.placement, U.reshape(k * m, d)).reshape(k, m)
         noisy = true + c.noise_sd * self.noise_rng.standard_normal((k, m))
         pick = np.argmin(np.where(np.isfinite(noisy), noisy, np.inf), axis=0)
         cols = np.arange(m)
@@ -152,6 +143,12 @@ class _Campaign:
             mode_value=self.mode_value,
             seconds=self.seconds,
         )
+
+
+def run(campaign: Campaign, streams: dict[str, np.random.Generator]) -> Trace:
+    """Run ``campaign`` with the named streams of :func:`workbench.seeding.campaign_streams`:
+    a batch of one."""
+    return run_batch([campaign], [streams])[0]
 
 
 def run_batch(
@@ -189,7 +186,7 @@ def _run(campaigns, streams_list) -> list[Trace]:
 
     start = time.perf_counter()
     for s in states:
-        s.evaluate(slice(0, n0), _design(s.design, n0, s.space, s.belief, s.design_rng))
+        s.evaluate(slice(0, n0), design(s.design, n0, s.space, s.belief, s.design_rng))
     for s in states:
         s.seconds[:n0] = (time.perf_counter() - start) / max(n0, 1) / R
 
@@ -201,7 +198,7 @@ def _run(campaigns, streams_list) -> list[Trace]:
             c = s.c
             lams[i] = float(c.decay(t)) if (c.decay is not None and s.uses_belief) else 0.0
             explore = s.rng.random() < c.exploration
-            rows, y = _model_targets(s.observed[:t])
+            rows, y = model_targets(s.observed[:t])
             data[i] = (rows, y)
             if s.strategy.uses_model and not explore and len(rows) >= 2:
                 modelled.append(i)
@@ -209,9 +206,8 @@ def _run(campaigns, streams_list) -> list[Trace]:
                 s.threshold[t] = np.nan
                 s.evaluate(slice(t, t + 1), s.uniform()[None, :])
             else:
-                step = Step(s.space, s.points[rows], y, s.belief, s.log_belief_max, lams[i], 0.0)
-                u, f_gamma = s.strategy.propose(step, s.rng)
-                s.threshold[t] = f_gamma
+                u = s.strategy.propose(Step(s.space, s.points[rows], y, s.belief, lams[i]), s.rng)
+                s.threshold[t] = np.nan
                 s.evaluate(slice(t, t + 1), u[None, :])
         if modelled:
             stack = _models([states[i] for i in modelled], [data[i] for i in modelled])
@@ -281,9 +277,17 @@ def _log_beliefs(states: list[_Campaign], rows: np.ndarray) -> np.ndarray:
     return out
 
 
-def _scores(states, kinds, refs, lams, stack, U, gradient=False):
-    """Scores ``(R, m)`` of cube points ``U`` ``(R, m, d)``, and with ``gradient`` their
-    derivatives in ``U`` (model term analytic, belief term by forward differences)."""
+def _groups(states: list[_Campaign]) -> list[tuple[object, np.ndarray]]:
+    """The campaigns of each strategy: (strategy, their indices), in order of first use."""
+    out: dict[str, list[int]] = {}
+    for i, s in enumerate(states):
+        out.setdefault(s.strategy.name, []).append(i)
+    return [(states[idx[0]].strategy, np.array(idx)) for idx in out.values()]
+
+
+def _scores(states, refs, lams, stack, U, gradient=False):
+    """Scores ``(R, m)`` of cube points ``U`` ``(R, m, d)``, each strategy's score on the rows
+    of its campaigns, and with ``gradient`` their derivatives in ``U``."""
     if all(s.space._continuous for s in states):
         # Features of a continuous space are the clipped points: one call for the batch.
         F = np.clip(U, 0.0, 1.0)
@@ -291,89 +295,67 @@ def _scores(states, kinds, refs, lams, stack, U, gradient=False):
         F = np.stack([s.space.features(u) for s, u in zip(states, U, strict=True)])
     out = stack.predict(F, gradient=gradient)
     mean, sd = out[0], out[1]
-    ref = refs[:, None]
-    ei, good = kinds == _EI, kinds == _GOOD
-    value = np.empty_like(mean)
-    dm, ds = np.empty_like(mean), np.empty_like(mean)
-    for mask, fn in ((ei, log_expected_improvement_grad), (good, log_odds_good_grad)):
-        if mask.any():
-            v, a, b = fn(mean[mask], sd[mask], ref[mask])
-            value[mask], dm[mask], ds[mask] = v, a, b
-    grad = None
+    R, m, d = U.shape
+    # Belief log densities, only for the campaigns whose λ is not zero (the others' rows are
+    # never read); with ``gradient`` also at forward-difference probes (backwards where a step
+    # would leave the cube).
+    log_belief = np.zeros((R, m))
+    probes = steps = None
+    weighted = np.flatnonzero(lams != 0)
     if gradient:
-        dF = dm[:, :, None] * out[2] + ds[:, :, None] * out[3]
-        jac = np.stack([s.jacobian for s in states])
-        grad = np.matmul(dF, jac)
-    weighted = [i for i in range(len(states)) if lams[i] != 0]
-    if not weighted:
-        return (value, grad) if gradient else value
-    m, d = U.shape[1], U.shape[2]
-    if gradient:
-        # Forward differences of the belief term (backwards where a step would leave the cube).
-        sign = np.where(U[weighted] + _FD_STEP > 1.0, -1.0, 1.0)
-        probes = U[weighted][:, :, None, :] + sign[:, :, None, :] * (_FD_STEP * np.eye(d))
-        rows = np.concatenate([U[weighted], probes.reshape(len(weighted), m * d, d)], axis=1)
-    else:
+        probes, steps = np.zeros((R, m, d)), np.ones((R, m, d))
+    if weighted.size:
         rows = U[weighted]
-    # λ · log π (floored) for log EI; λ · log(P_g/P_b) for the log odds of good.
-    log_belief = np.maximum(_log_beliefs([states[i] for i in weighted], rows), LOG_BELIEF_FLOOR)
-    good = kinds[weighted] == _GOOD
-    if good.any():
-        lbm = np.array([states[i].log_belief_max for i in weighted])[good]
-        log_belief[good] = belief_log_odds(log_belief[good], lbm[:, None])
-    b = lams[weighted][:, None] * log_belief
-    value[weighted] += b[:, :m]
-    if gradient:
-        grad[weighted] += (b[:, m:].reshape(-1, m, d) - b[:, :m, None]) / (sign * _FD_STEP)
+        if gradient:
+            sign = np.where(rows + FD_STEP > 1.0, -1.0, 1.0)
+            steps[weighted] = sign * FD_STEP
+            moved = rows[:, :, None, :] + sign[:, :, None, :] * (FD_STEP * np.eye(d))
+            rows = np.concatenate([rows, moved.reshape(len(weighted), m * d, d)], axis=1)
+        dens = _log_beliefs([states[i] for i in weighted], rows)
+        log_belief[weighted] = dens[:, :m]
+        if gradient:
+            probes[weighted] = dens[:, m:].reshape(-1, m, d)
+    top = np.array([s.log_belief_max for s in states])
+    value = np.empty((R, m))
+    grad = np.empty((R, m, d)) if gradient else None
+    jac = np.stack([s.jacobian for s in states]) if gradient else None
+    for strategy, idx in _groups(states):
+        derivatives = None
+        if gradient:
+            derivatives = Derivatives(out[2][idx], out[3][idx], jac[idx], probes[idx], steps[idx])
+        got = strategy.score(
+            mean[idx], sd[idx], refs[idx], lams[idx], log_belief[idx], top[idx], derivatives
+        )
+        if gradient:
+            value[idx], grad[idx] = got
+        else:
+            value[idx] = got
     return (value, grad) if gradient else value
 
 
 def _propose(states: list[_Campaign], data: list, lams: np.ndarray, stack: sg.Stack, t: int):
     """Propose and evaluate the next point of every modelled campaign."""
-    stacked = [i for i, s in enumerate(states) if s.kind is not None]
-    for i, s in enumerate(states):
-        if s.kind is None:
-            # A model-based strategy without a stacked score: its own propose on a GP object.
-            rows, y = data[i]
-            model = gp.posterior(
-                s.space.features(s.points[rows]), y, gp.Hyperparameters.from_log(s.theta)
-            )
-            step = Step(
-                s.space, s.points[rows], y, s.belief, s.log_belief_max, lams[i], s.c.quantile, model
-            )
-            u, f_gamma = s.strategy.propose(step, s.rng)
-            s.threshold[t] = f_gamma
-            s.evaluate(slice(t, t + 1), u[None, :])
-    if not stacked:
-        return
-    states = [states[i] for i in stacked]
-    data = [data[i] for i in stacked]
-    lams = lams[stacked]
-    stack = stack.take(np.array(stacked))
     R = len(states)
-    kinds = np.array([s.kind for s in states])
-    # f_γ of the pseudo-posterior's campaigns, one call per quantile level (row by row, as
-    # alone); the best value seen for the others.
+    # Each strategy's reference per campaign: the best value seen, or f_γ (recorded as the
+    # threshold) for a strategy that uses the quantile.
     Y = np.stack([y for _, y in data])
-    refs = Y.min(axis=1)
-    quantiles = np.array([s.c.quantile if s.kind == _GOOD else np.nan for s in states])
-    for q in np.unique(quantiles[kinds == _GOOD]):
-        rows = np.flatnonzero(quantiles == q)
-        refs[rows] = np.quantile(Y[rows], q, axis=1)
+    refs = np.empty(R)
+    for strategy, idx in _groups(states):
+        refs[idx] = strategy.reference(Y[idx], np.array([states[i].c.quantile for i in idx]))
     for i, s in enumerate(states):
-        s.threshold[t] = refs[i] if s.kind == _GOOD else np.nan
+        s.threshold[t] = refs[i] if s.strategy.uses_quantile else np.nan
 
     # 1. candidates (each from its own stream) and their scores.
     C = np.stack(
         candidate_sets(
             [
-                Step(s.space, s.points[rows], y, s.belief, s.log_belief_max, lam, 0.0)
+                Step(s.space, s.points[rows], y, s.belief, lam)
                 for s, (rows, y), lam in zip(states, data, lams, strict=True)
             ],
             [s.rng for s in states],
         )
     )
-    score = _scores(states, kinds, refs, lams, stack, C)
+    score = _scores(states, refs, lams, stack, C)
     score = np.where(np.isfinite(score), score, -np.inf)
     order = np.argsort(-score, axis=1, kind="stable")
     C = np.take_along_axis(C, order[:, :, None], axis=1)
@@ -392,7 +374,7 @@ def _propose(states: list[_Campaign], data: list, lams: np.ndarray, stack: sg.St
 
     def negative(X, idx):
         current[idx] = X.reshape(len(idx), k, d)
-        v, g = _scores(states, kinds, refs, lams, stack, current, True)
+        v, g = _scores(states, refs, lams, stack, current, True)
         v, g = v[idx], g[idx]
         v = np.where(np.isfinite(v), v, -1e300)
         better = v > best_scores[idx]
@@ -420,7 +402,6 @@ def _propose(states: list[_Campaign], data: list, lams: np.ndarray, stack: sg.St
         idx = np.array(discrete)
         polished_score[idx] = _scores(
             [states[i] for i in idx],
-            kinds[idx],
             refs[idx],
             lams[idx],
             stack.take(idx),
@@ -437,13 +418,13 @@ def _propose(states: list[_Campaign], data: list, lams: np.ndarray, stack: sg.St
     X = np.stack([s.points[:t] for s in states])
     head = ranked[:, :_FIRST_LOOK]
     gaps = np.abs(head[:, :, None, :] - X[:, None, :, :]).max(axis=3).min(axis=2)
-    fresh = gaps > _SAME_POINT
+    fresh = gaps > SAME_POINT
     for i, s in enumerate(states):
         if fresh[i].any():
             u = head[i, np.argmax(fresh[i])]
         else:
             rest = ranked[i, _FIRST_LOOK:]
             g = np.abs(rest[:, None, :] - X[i][None, :, :]).max(axis=2).min(axis=1)
-            new = np.flatnonzero(g > _SAME_POINT)
+            new = np.flatnonzero(g > SAME_POINT)
             u = rest[new[0]] if new.size else s.uniform()
         s.evaluate(slice(t, t + 1), u[None, :])

@@ -1,6 +1,8 @@
-"""One simulated campaign: initial design, then propose and evaluate until the budget is spent.
+"""One simulated campaign's settings and trace, and the policies every campaign follows.
 
-Policies stated here:
+The engine (:func:`workbench.engine.batch.run` for one campaign, ``run_batch`` for many) runs
+an initial design, then proposes and evaluates until the budget is spent. Policies stated here,
+each a public helper of this module:
 
 - **initial design**: ``size`` points (default: dimension + 1) from the belief, a scrambled
   Sobol set or a Latin hypercube; they count towards the budget. Strategies that do not use the
@@ -15,6 +17,14 @@ Policies stated here:
   worst), and best-so-far ignores it.
 - **regret** is measured on the noise-free value: best noise-free value so far minus the
   landscape's minimum; normalized regret divides it by the landscape's reference gap.
+- **acquisition search** of a model-based strategy: candidates (:func:`candidate_sets`):
+  ``SOBOL_CANDIDATES`` Sobol points (one fixed scrambled set per dimension, randomly rotated
+  each step), ``BELIEF_CANDIDATES`` draws from the belief, and ``LOCAL_CANDIDATES`` Gaussian
+  perturbations (sd ``LOCAL_SD`` of the range) around each of the ``INCUMBENTS`` best
+  observations, discrete coordinates snapped to their bins; the ``POLISHES`` best polished by
+  L-BFGS-B (at most ``POLISH_ITERATIONS`` iterations and as many evaluations); the best point
+  that repeats no observation proposed (:func:`workbench.engine.strategies.base.first_new`;
+  a uniform draw if every candidate repeats one).
 """
 
 from __future__ import annotations
@@ -22,16 +32,41 @@ from __future__ import annotations
 import warnings
 from collections.abc import Callable
 from dataclasses import dataclass
+from functools import cache
 
 import numpy as np
 from scipy.stats import qmc
 
 from ..world.space import Space
+from .strategies.base import DEFAULT_EXPLORATION, DEFAULT_QUANTILE, Step
 
-__all__ = ["BELIEF_USERS", "Campaign", "Trace", "run"]
+__all__ = [
+    "BELIEF_CANDIDATES",
+    "FD_STEP",
+    "INCUMBENTS",
+    "LOCAL_CANDIDATES",
+    "LOCAL_SD",
+    "POLISHES",
+    "POLISH_ITERATIONS",
+    "SOBOL_CANDIDATES",
+    "Campaign",
+    "Trace",
+    "candidate_sets",
+    "design",
+    "evaluate",
+    "mode_point",
+    "model_targets",
+]
 
-# Strategies that use the belief (the others get a uniform one and a belief-free design).
-BELIEF_USERS = ("pseudo-posterior", "prior-weighted", "belief-sampling")
+SOBOL_CANDIDATES = 128
+BELIEF_CANDIDATES = 32
+LOCAL_CANDIDATES = 16
+INCUMBENTS = 3
+LOCAL_SD = 0.05
+POLISHES = 2
+POLISH_ITERATIONS = 6
+# The forward-difference step of the belief term's gradient in the polish.
+FD_STEP = 1e-6
 
 
 @dataclass(frozen=True)
@@ -47,8 +82,8 @@ class Campaign:
     design: str = "sobol"
     design_size: int | None = None
     decay: Callable[[int], float] | None = None
-    quantile: float = 0.25
-    exploration: float = 0.0
+    quantile: float = DEFAULT_QUANTILE
+    exploration: float = DEFAULT_EXPLORATION
     noise_sd: float = 0.0
     multiple: int = 1
 
@@ -78,7 +113,8 @@ class Trace:
         return space.to_user_array(self.points)
 
 
-def _design(kind: str, n: int, space: Space, belief, rng: np.random.Generator) -> np.ndarray:
+def design(kind: str, n: int, space: Space, belief, rng: np.random.Generator) -> np.ndarray:
+    """``n`` initial points of ``kind`` (belief, lhs or sobol), snapped."""
     d = space.dim
     if kind == "belief":
         U = np.atleast_2d(belief.sample(n, rng)).reshape(n, d)
@@ -92,11 +128,13 @@ def _design(kind: str, n: int, space: Space, belief, rng: np.random.Generator) -
     return space.snap(U)
 
 
-def _mode_point(space: Space, belief) -> np.ndarray:
+def mode_point(space: Space, belief) -> np.ndarray:
+    """The belief's mode as one snapped cube point ``(1, d)``."""
     return space.snap(np.atleast_1d(np.asarray(belief.mode(), dtype=float))[None, :])
 
 
-def _evaluate(placement, U: np.ndarray) -> np.ndarray:
+def evaluate(placement, U: np.ndarray) -> np.ndarray:
+    """The landscape's values at ``U``; NaN where an evaluation fails (see above)."""
     try:
         with np.errstate(all="ignore"):
             v = np.asarray(placement.value(U), dtype=float).reshape(len(U))
@@ -105,7 +143,7 @@ def _evaluate(placement, U: np.ndarray) -> np.ndarray:
     return np.where(np.isfinite(v), v, np.nan)
 
 
-def _model_targets(observed: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+def model_targets(observed: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     """Rows the model sees and their values: failed rows at the worst value observed so far."""
     valid = np.isfinite(observed)
     if not valid.any():
@@ -114,10 +152,41 @@ def _model_targets(observed: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     return np.arange(len(observed)), y
 
 
-def run(campaign: Campaign, streams: dict[str, np.random.Generator]) -> Trace:
-    """Run ``campaign`` with the named streams of :func:`workbench.seeding.campaign_streams`:
-    a batch of one (:func:`workbench.engine.batch.run_batch`)."""
-    # Imported here: the batch engine builds on this module's settings and helpers.
-    from .batch import run_batch
+@cache
+def _sobol(dim: int) -> np.ndarray:
+    return qmc.Sobol(dim, scramble=True, seed=12345).random(SOBOL_CANDIDATES)
 
-    return run_batch([campaign], [streams])[0]
+
+def candidate_sets(steps: list[Step], rngs: list[np.random.Generator]) -> list[np.ndarray]:
+    """The candidates of every step (see the acquisition search above), each drawn from its own
+    stream in a fixed order: rotation, belief draws, perturbations.
+
+    The random draws are taken step by step; the belief transforms of steps that hold the same
+    belief object (the settings of one grid cell) are one call, which changes no value: each
+    point depends on its own draws only.
+    """
+    draws = []
+    groups: dict[int, list[int]] = {}  # steps whose belief draws wait for a shared transform
+    for i, (step, rng) in enumerate(zip(steps, rngs, strict=True)):
+        d = step.space.dim
+        rotated = (_sobol(d) + rng.random(d)) % 1.0
+        belief = step.belief
+        if getattr(belief, "by_inverse_cdf", False):
+            drawn = belief.uniforms(BELIEF_CANDIDATES, rng)
+            groups.setdefault(id(belief), []).append(i)
+        else:
+            drawn = np.atleast_2d(belief.sample(BELIEF_CANDIDATES, rng)).reshape(-1, d)
+        local = None
+        if len(step.y):
+            best = step.X[np.argsort(step.y, kind="stable")[:INCUMBENTS]]
+            noise = LOCAL_SD * rng.standard_normal((len(best), LOCAL_CANDIDATES, d))
+            local = np.clip(best[:, None, :] + noise, 0.0, 1.0).reshape(-1, d)
+        draws.append([rotated, drawn, local])
+    for members in groups.values():
+        points = steps[members[0]].belief.from_uniforms(np.stack([draws[i][1] for i in members]))
+        for i, p in zip(members, points, strict=True):
+            draws[i][1] = p
+    return [
+        step.space.snap(np.vstack([part for part in parts if part is not None]))
+        for step, parts in zip(steps, draws, strict=True)
+    ]

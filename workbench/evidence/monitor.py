@@ -54,6 +54,7 @@ from scipy import stats
 from threadpoolctl import threadpool_limits
 
 from ..analysis import campaign_metric, series
+from ..engine.strategies import reference
 from ..study.cells import Cell
 from ..study.decay import parse
 from ..validation import InputError, check_choice, check_number, raw
@@ -88,7 +89,7 @@ FEATURES = (
     "failed_share",
 )
 MODELS = ("logistic", "boosted-trees")
-NO_BELIEF = "no-belief"
+NO_BELIEF = reference()
 # The fixed sample every belief's levels and spread are read from.
 REFERENCE_DRAWS = 4096
 REFERENCE_SEED = 0

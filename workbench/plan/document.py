@@ -17,6 +17,7 @@ from datetime import date
 from pathlib import Path
 
 from .. import __version__
+from ..engine.strategies import uses_quantile
 from ..storage import write_text
 from ..study.cost import duration, size
 from ..study.grid import settings
@@ -261,7 +262,7 @@ def _factors_section(plan: Plan) -> Section:
                     f.name,
                     ", ".join(str(d) for d in f.decay),
                     ", ".join(f"{q:g}" for q in f.quantile)
-                    if f.name == "pseudo-posterior"
+                    if uses_quantile(f.name)
                     else "– (does not use it)",
                     ", ".join(f"{e:g}" for e in f.exploration),
                 )

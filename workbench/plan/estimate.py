@@ -7,6 +7,7 @@ from dataclasses import dataclass, replace
 
 import numpy as np
 
+from ..engine.strategies import reference
 from ..seeding import derive
 from ..study.cost import Estimate
 from ..study.grid import chunks, settings
@@ -66,9 +67,9 @@ def _comparisons(design: PilotDesign) -> list[tuple[int, int, str]]:
         for j in guided[a + 1 :]
     ]
     labels = [s.strategy for s in design.settings]
-    if "no-belief" in labels:
-        nb = labels.index("no-belief")
-        out += [(i, nb, f"{design.guided[i].label} vs no-belief") for i in guided]
+    if reference() in labels:
+        nb = labels.index(reference())
+        out += [(i, nb, f"{design.guided[i].label} vs {reference()}") for i in guided]
     return out
 
 

@@ -12,7 +12,8 @@ from dataclasses import dataclass, replace
 import numpy as np
 
 from ..analysis.metrics import evaluations_to_target
-from ..study.grid import BELIEF_FREE, TRACE_ARRAYS, Chunk, Setting, chunks, settings, split
+from ..engine.strategies import uses_belief
+from ..study.grid import TRACE_ARRAYS, Chunk, Setting, chunks, settings, split
 from ..study.spec import Study
 from ..validation import check_number
 
@@ -221,7 +222,7 @@ def _collect(study: Study, design: PilotDesign, results, wall: float, jobs: int)
         fixed.append(total - payload)
     exact = next(i for i, d in enumerate(study.distortions) if d.is_exact)
     for i, s in enumerate(design.settings):
-        if s.strategy in BELIEF_FREE:
+        if not uses_belief(s.strategy):
             ett[i] = ett[i, :, exact : exact + 1]
             reached[i] = reached[i, :, exact : exact + 1]
     per_landscape = np.array(

@@ -18,16 +18,6 @@ SUMMARY = "summary.md"
 FIGURES = "figures"
 DPI = 110
 
-STRATEGY_TEXT = {
-    "pseudo-posterior": (
-        "combines the model's and the belief's odds that a point is good (better than the "
-        "threshold quantile γ of the values seen so far); the belief's weight is λ(t)"
-    ),
-    "prior-weighted": "expected improvement multiplied by the belief raised to the power λ(t)",
-    "no-belief": "a Gaussian-process model with expected improvement and no belief at all",
-    "random": "uniform random draws over the search space",
-    "belief-sampling": "every evaluation a fresh draw from the belief, with no model",
-}
 DECAY_TEXT = {
     "hyperbolic": "λ(t) = β/t: the belief counts as β evaluations' worth",
     "exponential": "λ(t) = exp(−t/τ)",

@@ -8,9 +8,9 @@ import numpy as np
 import xarray as xr
 
 from .. import analysis as an
+from ..engine.strategies import STRATEGIES, description
 from .content import (
     DECAY_TEXT,
-    STRATEGY_TEXT,
     Content,
     Group,
     beyond_budget,
@@ -291,7 +291,10 @@ def transfer_rows(c: Content) -> tuple[list, str]:
 
 def strategy_paragraphs(c: Content) -> list[str]:
     names = [str(s) for s in c.ds["strategy"].values] + [str(b) for b in c.ds["baseline"].values]
-    return [f"{s}: {STRATEGY_TEXT.get(s, 'a strategy of the workbench')}" for s in names]
+    return [
+        f"{s}: {description(s) if s in STRATEGIES else 'a strategy of the workbench'}"
+        for s in names
+    ]
 
 
 def method_paragraphs(c: Content) -> list[str]:

@@ -18,8 +18,9 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from ..engine.batch import run_batch
-from ..engine.campaign import Campaign, Trace, run
+from ..engine import strategies as st
+from ..engine.batch import run, run_batch
+from ..engine.campaign import Campaign, Trace
 from .cells import Cell
 from .decay import Schedule
 from .spec import Study
@@ -51,8 +52,6 @@ TRACE_ARRAYS = (
     "threshold",
     "seconds",
 )
-# Baselines that ignore the belief run only in the exact distortion's chunk.
-BELIEF_FREE = ("no-belief", "random")
 
 
 @dataclass(frozen=True)
@@ -71,7 +70,7 @@ class Setting:
         parts = [self.strategy]
         if self.decay is not None:
             parts.append(f"decay {self.decay}")
-        if self.strategy == "pseudo-posterior":
+        if st.uses_quantile(self.strategy):
             parts.append(f"quantile {self.quantile:g}")
         if self.exploration:
             parts.append(f"exploration {self.exploration:g}")
@@ -83,7 +82,11 @@ def settings(study: Study) -> tuple[list[Setting], list[Setting]]:
     """The belief-guided settings and the baseline settings of a study."""
     guided = [Setting(s, d, q, e, i) for s, d, q, e, i in study.settings()]
     baseline = [
-        Setting(b, initial=study.initial[0], multiple=study.random_multiple if b == "random" else 1)
+        Setting(
+            b,
+            initial=study.initial[0],
+            multiple=study.random_multiple if st.uses_multiple(b) else 1,
+        )
         for b in study.baselines
     ]
     return guided, baseline
@@ -110,7 +113,7 @@ def campaign_of(cell: Cell, setting: Setting) -> Campaign:
 def streams_of(cell: Cell, setting: Setting) -> dict[str, np.random.Generator]:
     """Fresh streams of ``setting`` in ``cell``: the cell's, or for the baselines that ignore
     the belief those of the cell's exact-distortion sibling."""
-    return cell.streams(exact=setting.strategy in BELIEF_FREE)
+    return cell.streams(exact=not st.uses_belief(setting.strategy))
 
 
 def run_setting(cell: Cell, setting: Setting) -> Trace:
@@ -148,7 +151,8 @@ def chunks(study: Study) -> list[Chunk]:
     out = []
     for li in range(len(study.landscapes)):
         for di, dist in enumerate(study.distortions):
-            extra = [b for b in baseline if dist.is_exact or b.strategy not in BELIEF_FREE]
+            # Baselines that ignore the belief run only in the exact distortion's chunk.
+            extra = [b for b in baseline if dist.is_exact or st.uses_belief(b.strategy)]
             for block in blocks:
                 out.append(Chunk(li, di, block, tuple(guided + extra)))
     return out

@@ -37,6 +37,7 @@ from pathlib import Path
 import numpy as np
 
 from .. import __version__
+from ..engine import strategies as st
 from ..storage import atomic_path
 from .cells import SEVERITY_RADIUS
 from .grid import Chunk, settings, split
@@ -189,7 +190,7 @@ def _write_replicate(ds, study: Study, chunk: Chunk, r: int, data) -> float:
             any_guided = True
             qs = (
                 [quantiles.index(s.quantile)]
-                if s.strategy == "pseudo-posterior"
+                if st.uses_quantile(s.strategy)
                 else range(len(quantiles))
             )
             for q in qs:
@@ -205,9 +206,7 @@ def _write_replicate(ds, study: Study, chunk: Chunk, r: int, data) -> float:
                 for name, v in pts.items():
                     slabs[name][(*at, slice(None), slice(0, width))] = v
         else:
-            targets = (
-                range(len(study.distortions)) if s.strategy in ("no-belief", "random") else [d]
-            )
+            targets = range(len(study.distortions)) if not st.uses_belief(s.strategy) else [d]
             for dd in targets:
                 at = (bases.index(s.strategy), li, dd, r)
                 for name, v in series.items():

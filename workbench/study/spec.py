@@ -15,6 +15,7 @@ from typing import Any
 
 import numpy as np
 
+from ..engine import strategies as st
 from ..validation import (
     InputError,
     check_choice,
@@ -31,8 +32,6 @@ from ..world.space import Categorical, Continuous, Integer, Space
 from .decay import Schedule, parse
 
 __all__ = [
-    "BASELINES",
-    "BELIEF_STRATEGIES",
     "DESIGNS",
     "LandscapeEntry",
     "StrategyFactors",
@@ -42,8 +41,6 @@ __all__ = [
     "parse_text",
 ]
 
-BELIEF_STRATEGIES = ("pseudo-posterior", "prior-weighted")
-BASELINES = ("no-belief", "random", "belief-sampling")
 DESIGNS = ("belief", "sobol", "lhs")
 
 _TOP_KEYS = (
@@ -102,8 +99,8 @@ class StrategyFactors:
 
     name: str
     decay: tuple[Schedule, ...]
-    quantile: tuple[float, ...] = (0.25,)
-    exploration: tuple[float, ...] = (0.0,)
+    quantile: tuple[float, ...] = (st.DEFAULT_QUANTILE,)
+    exploration: tuple[float, ...] = (st.DEFAULT_EXPLORATION,)
 
 
 @dataclass(frozen=True)
@@ -163,9 +160,7 @@ class Study:
 
     @property
     def quantile_levels(self) -> tuple[float, ...]:
-        levels = _union(
-            q for s in self.strategies if s.name == "pseudo-posterior" for q in s.quantile
-        )
+        levels = _union(q for s in self.strategies if st.uses_quantile(s.name) for q in s.quantile)
         return levels or StrategyFactors.__dataclass_fields__["quantile"].default
 
     @property
@@ -179,7 +174,7 @@ class Study:
         the grid repeats its result across the other levels.
         """
         for s in self.strategies:
-            quantiles = s.quantile if s.name == "pseudo-posterior" else s.quantile[:1]
+            quantiles = s.quantile if st.uses_quantile(s.name) else s.quantile[:1]
             for d, q, e, i in itertools.product(s.decay, quantiles, s.exploration, self.initial):
                 yield s.name, d, q, e, i
 
@@ -275,9 +270,9 @@ def _parse(doc: dict, text: str, name: str, where: str, base: Path) -> Study:
 
     distortions = _distortions(doc.get("distortion", {}))
     strategies = _strategies(doc.get("strategy"))
-    baselines = doc.get("baselines", list(BASELINES))
+    baselines = doc.get("baselines", list(st.baselines()))
     baselines = tuple(
-        check_choice(b, "baselines", BASELINES)
+        check_choice(b, "baselines", st.baselines())
         for b in check_sequence(baselines, "baselines", min_length=0, unique=True)
     )
     decision = _decision(doc.get("decision", {}), distortions)
@@ -647,11 +642,11 @@ def _strategies(table) -> tuple[StrategyFactors, ...]:
         raise InputError("strategy", "at least one [strategy.<name>] table", raw("an empty table"))
     out = []
     for name, spec in table.items():
-        check_choice(name, "strategy", BELIEF_STRATEGIES)
+        check_choice(name, "strategy", st.belief_strategies())
         key = f"strategy.{name}"
         spec = check_table(spec, key)
         allowed = ("decay", "quantile", "exploration")
-        if name == "prior-weighted":
+        if not st.uses_quantile(name):
             allowed = ("decay", "exploration")
         check_keys(spec, key, allowed, required=("decay",))
         decay = tuple(
@@ -660,12 +655,14 @@ def _strategies(table) -> tuple[StrategyFactors, ...]:
         )
         quantile = tuple(
             check_number(q, f"{key}.quantile", low=0.0, high=1.0, closed="neither")
-            for q in check_sequence(spec.get("quantile", [0.25]), f"{key}.quantile", unique=True)
+            for q in check_sequence(
+                spec.get("quantile", [st.DEFAULT_QUANTILE]), f"{key}.quantile", unique=True
+            )
         )
         exploration = tuple(
             check_number(e, f"{key}.exploration", low=0.0, high=1.0)
             for e in check_sequence(
-                spec.get("exploration", [0.0]), f"{key}.exploration", unique=True
+                spec.get("exploration", [st.DEFAULT_EXPLORATION]), f"{key}.exploration", unique=True
             )
         )
         out.append(StrategyFactors(name, decay, quantile, exploration))

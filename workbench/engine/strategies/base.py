@@ -1,183 +1,170 @@
-"""What every strategy shares: the step it sees and the acquisition search.
+"""What every strategy is: the base class, the step a model-free strategy sees, the defaults.
 
-A strategy proposes the next evaluation from a :class:`Step`. Model-based strategies only
-define a score over candidate points (higher is better); :func:`maximise` finds its best point:
-
-1. candidates: ``SOBOL_CANDIDATES`` Sobol points (one fixed scrambled set per dimension,
-   randomly rotated each step), ``BELIEF_CANDIDATES`` draws from the belief, and
-   ``LOCAL_CANDIDATES`` Gaussian perturbations (sd ``LOCAL_SD`` of the range) around each of
-   the ``INCUMBENTS`` best observations, discrete coordinates snapped to their bins;
-2. the ``POLISHES`` best candidates are polished together by one L-BFGS-B run (at most
-   ``POLISH_ITERATIONS`` iterations and as many evaluations), with a forward-difference
-   gradient computed in a single batched call, keeping the best point it saw;
-3. the best point that does not repeat an observation is proposed (a uniform draw if every
-   candidate repeats one).
+A strategy is one subclass of :class:`Strategy` that declares what it uses and fills small
+hooks; the engine (:func:`workbench.engine.batch.run_batch`) owns the search and calls the
+hooks over a stack of campaigns. This module imports numpy only, so the registry
+(:mod:`workbench.engine.strategies`) stays light for the stages above the engine.
 """
 
 from __future__ import annotations
 
 from dataclasses import dataclass
-from functools import cache
-from typing import Protocol
+from typing import ClassVar
 
 import numpy as np
-from scipy import optimize
-from scipy.stats import qmc
 
-from ...world.space import Space
+__all__ = [
+    "DEFAULT_EXPLORATION",
+    "DEFAULT_QUANTILE",
+    "LOG_BELIEF_FLOOR",
+    "SAME_POINT",
+    "Derivatives",
+    "Step",
+    "Strategy",
+    "first_new",
+]
 
-__all__ = ["LOG_BELIEF_FLOOR", "Step", "Strategy", "candidate_sets", "candidates", "maximise"]
-
-SOBOL_CANDIDATES = 128
-BELIEF_CANDIDATES = 32
-LOCAL_CANDIDATES = 16
-INCUMBENTS = 3
-LOCAL_SD = 0.05
-POLISHES = 2
-POLISH_ITERATIONS = 6
-_FD_STEP = 1e-6
-_SAME_POINT = 1e-9
-
+# The threshold quantile γ and the exploration rate ε when a study or command names none.
+DEFAULT_QUANTILE = 0.25
+DEFAULT_EXPLORATION = 0.0
 # A belief density of zero would make a log score −inf everywhere it vanishes; it is floored at
 # this log value (about 1e-300) so that the model still ranks such points.
 LOG_BELIEF_FLOOR = -690.0
+# Two points closer than this in every cube coordinate are the same evaluation.
+SAME_POINT = 1e-9
 
 
 @dataclass(frozen=True)
 class Step:
-    """What a strategy sees before proposing evaluation ``t + 1``.
+    """What a model-free strategy sees before proposing evaluation ``t + 1``: the space, the
+    evaluated cube points ``X``, the values the model would see ``y`` (failed evaluations
+    imputed, see :mod:`workbench.engine.campaign`), the belief and λ(t) (``weight``)."""
 
-    ``X`` are the evaluated cube points, ``y`` the values the model sees (failed evaluations
-    imputed, see :mod:`workbench.engine.campaign`), ``weight`` is λ(t) with ``t = len(X)``
-    evaluations spent, ``model`` the fitted surrogate (None for model-free strategies).
-    """
-
-    space: Space
+    space: object
     X: np.ndarray
     y: np.ndarray
     belief: object
-    log_belief_max: float
-    weight: float
-    quantile: float
-    model: object | None = None
+    weight: float = 0.0
 
     @property
     def t(self) -> int:
         return len(self.X)
 
-    def log_belief(self, U: np.ndarray) -> np.ndarray:
-        return np.maximum(self.belief.logpdf(U), LOG_BELIEF_FLOOR)
 
-    def predict(self, U: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-        return self.model.predict(self.space.features(U))
+@dataclass(frozen=True)
+class Derivatives:
+    """What the gradient of a score in the candidate points ``U`` needs (leading batch
+    dimensions ``...`` as the score's): ``mean`` and ``sd`` are ∂μ/∂F and ∂σ/∂F
+    ``(..., m, p)`` in the model's inputs F, ``inputs`` is ∂F/∂U ``(..., p, d)``;
+    ``log_belief`` is log π at the probes U + h_j e_j ``(..., m, d)``, ``step`` the signed h_j
+    (the belief term is differentiated by forward differences: a belief offers its density,
+    not its gradient)."""
 
-
-class Strategy(Protocol):
-    """The one interface: ``propose`` returns a cube point and the threshold f_γ it used
-    (NaN when it uses none)."""
-
-    name: str
-    uses_model: bool
-
-    def propose(self, step: Step, rng: np.random.Generator) -> tuple[np.ndarray, float]: ...
-
-
-@cache
-def _sobol(dim: int) -> np.ndarray:
-    return qmc.Sobol(dim, scramble=True, seed=12345).random(SOBOL_CANDIDATES)
+    mean: np.ndarray
+    sd: np.ndarray
+    inputs: np.ndarray
+    log_belief: np.ndarray
+    step: np.ndarray
 
 
-def candidates(step: Step, rng: np.random.Generator) -> np.ndarray:
-    """The candidate set of step 1 above (snapped)."""
-    return candidate_sets([step], [rng])[0]
+class Strategy:
+    """A rule that proposes the next evaluation.
 
+    Subclass contract. Declare, as class attributes:
 
-def candidate_sets(steps: list[Step], rngs: list[np.random.Generator]) -> list[np.ndarray]:
-    """:func:`candidates` of every step, each drawn from its own stream in the same order.
+    - ``name``: the strategy's name in study files; ``description``: one phrase for reports;
+    - ``is_baseline``: True for a baseline (listed under ``baselines`` in a study, no factors),
+      False for a belief-guided strategy (a ``[strategy.<name>]`` table with a decay);
+    - ``uses_model``: a GP is fitted and the hooks below score candidates;
+    - ``uses_belief``: False gives the strategy a uniform belief, λ = 0, a belief-free initial
+      design, and in a grid one run per landscape and replicate (the exact distortion's);
+    - ``uses_quantile``: the threshold quantile γ is one of its factors (and the reference it
+      scores against is recorded as the trace's threshold f_γ);
+    - ``uses_multiple``: each evaluation stands for the best of the study's ``random_multiple``
+      draws;
+    - ``design``: the initial design it always takes (None: the study's);
+    - ``is_reference``: the baseline that speedups and belief costs are measured against.
 
-    The random draws are taken step by step; the belief transforms of steps that hold the same
-    belief object (the settings of one grid cell) are one call, which changes no value: each
-    point depends on its own draws only.
+    A model-based strategy fills ``model_term`` and, when it differs from the defaults,
+    ``belief_term`` and ``reference``; the base class's :meth:`score` combines them for any
+    leading batch dimensions. A model-free strategy fills ``propose``. Register the class with
+    :func:`workbench.engine.strategies.register`; nothing else in the package names it.
     """
-    draws = []
-    groups: dict[int, list[int]] = {}  # steps whose belief draws wait for a shared transform
-    for i, (step, rng) in enumerate(zip(steps, rngs, strict=True)):
-        d = step.space.dim
-        rotated = (_sobol(d) + rng.random(d)) % 1.0
-        belief = step.belief
-        if getattr(belief, "by_inverse_cdf", False):
-            drawn = belief.uniforms(BELIEF_CANDIDATES, rng)
-            groups.setdefault(id(belief), []).append(i)
-        else:
-            drawn = np.atleast_2d(belief.sample(BELIEF_CANDIDATES, rng)).reshape(-1, d)
-        local = None
-        if len(step.y):
-            best = step.X[np.argsort(step.y, kind="stable")[:INCUMBENTS]]
-            noise = LOCAL_SD * rng.standard_normal((len(best), LOCAL_CANDIDATES, d))
-            local = np.clip(best[:, None, :] + noise, 0.0, 1.0).reshape(-1, d)
-        draws.append([rotated, drawn, local])
-    for members in groups.values():
-        points = steps[members[0]].belief.from_uniforms(np.stack([draws[i][1] for i in members]))
-        for i, p in zip(members, points, strict=True):
-            draws[i][1] = p
-    return [
-        step.space.snap(np.vstack([part for part in parts if part is not None]))
-        for step, parts in zip(steps, draws, strict=True)
-    ]
 
+    name: ClassVar[str]
+    description: ClassVar[str]
+    is_baseline: ClassVar[bool] = False
+    uses_model: ClassVar[bool] = True
+    uses_belief: ClassVar[bool] = True
+    uses_quantile: ClassVar[bool] = False
+    uses_multiple: ClassVar[bool] = False
+    design: ClassVar[str | None] = None
+    is_reference: ClassVar[bool] = False
 
-def _polish(score, starts: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-    """One L-BFGS-B run over all starts at once (their scores add up, so each start moves
-    independently); value and forward-difference gradient come from one batched call.
+    # ------------------------------------------------------------- hooks (model-based)
 
-    Returns the best point seen for each start and its score, so nothing is scored twice.
-    """
-    k, d = starts.shape
-    eye = _FD_STEP * np.eye(d)
-    best_points = starts.copy()
-    best_scores = np.full(k, -np.inf)
+    def model_term(self, mean, sd, reference):
+        """The model's term of the score at ``mean``, ``sd`` ``(..., m)`` against
+        ``reference`` ``(..., 1)``, and its derivatives in the mean and the sd."""
+        raise NotImplementedError(f"{type(self).__name__} has no model term")
 
-    def value_and_grad(flat):
-        P = flat.reshape(k, d)
-        # Step backwards where a forward step would leave the cube.
-        sign = np.where(P + _FD_STEP > 1.0, -1.0, 1.0)
-        probes = P[:, None, :] + sign[:, None, :] * eye[None, :, :]
-        s = -score(np.vstack([P, probes.reshape(-1, d)]))
-        s = np.where(np.isfinite(s), s, 1e300)
-        f0, f1 = s[:k], s[k:].reshape(k, d)
-        better = -f0 > best_scores
-        best_points[better], best_scores[better] = P[better], -f0[better]
-        grad = (f1 - f0[:, None]) / (sign * _FD_STEP)
-        return float(f0.sum()), grad.ravel()
+    def belief_term(self, log_belief, log_belief_max):
+        """The belief's term given log π (floored at ``LOG_BELIEF_FLOOR``) and log π at the
+        mode (broadcastable); by default log π itself."""
+        return log_belief
 
-    # fmin_l_bfgs_b is the same L-BFGS-B as minimize(method="L-BFGS-B") with less set-up per
-    # call, which matters at a few evaluations per polish.
-    optimize.fmin_l_bfgs_b(
-        value_and_grad,
-        starts.ravel(),
-        bounds=[(0.0, 1.0)] * (k * d),
-        maxiter=POLISH_ITERATIONS,
-        maxfun=POLISH_ITERATIONS,
-    )
-    return best_points, best_scores
+    def reference(self, y: np.ndarray, quantile: np.ndarray) -> np.ndarray:
+        """What the model term compares against, per campaign: by default the best value seen,
+        ``min y`` over the last axis. ``quantile`` holds each campaign's γ."""
+        return y.min(axis=-1)
 
+    # ------------------------------------------------------------- hook (model-free)
 
-def maximise(score, step: Step, rng: np.random.Generator) -> np.ndarray:
-    """The point proposed for ``score`` (a function of cube points, higher is better)."""
-    C = candidates(step, rng)
-    s = score(C)
-    order = np.argsort(-np.where(np.isfinite(s), s, -np.inf), kind="stable")
-    polished, polished_scores = _polish(score, C[order[:POLISHES]])
-    if step.space.is_discrete.any():
-        # Snapping moves a polished point to its bins: score it where it will be evaluated.
-        polished = step.space.snap(polished)
-        polished_scores = score(polished)
-    pool = np.vstack([polished, C[order]])
-    pool_scores = np.concatenate([polished_scores, s[order]])
-    ranked = pool[
-        np.argsort(-np.where(np.isfinite(pool_scores), pool_scores, -np.inf), kind="stable")
-    ]
-    return first_new(ranked, step, rng)
+    def propose(self, step: Step, rng: np.random.Generator) -> np.ndarray:
+        """The next cube point of a model-free strategy (snapped to the space's bins)."""
+        raise NotImplementedError(f"{type(self).__name__} proposes through its score")
+
+    # ------------------------------------------------------------- the public score
+
+    def score(
+        self,
+        mean: np.ndarray,
+        sd: np.ndarray,
+        reference: np.ndarray,
+        weight: np.ndarray,
+        log_belief: np.ndarray,
+        log_belief_max: np.ndarray,
+        derivatives: Derivatives | None = None,
+    ):
+        """Scores ``(..., m)`` of m candidates per campaign, higher is better:
+
+            s(U) = model_term(μ(U), σ(U), reference) + λ · belief_term(log π(U), log π(mode))
+
+        ``reference``, ``weight`` (λ) and ``log_belief_max`` have the leading shape ``...``;
+        ``log_belief`` ``(..., m)`` is read only where λ ≠ 0 (elsewhere the belief term is
+        left out). With ``derivatives``, also the gradient ``(..., m, d)`` in the candidate
+        points: the chain rule through μ and σ for the model term, forward differences for the
+        belief term.
+        """
+        value, d_mean, d_sd = self.model_term(mean, sd, np.asarray(reference)[..., None])
+        grad = None
+        if derivatives is not None:
+            dF = d_mean[..., None] * derivatives.mean + d_sd[..., None] * derivatives.sd
+            grad = np.matmul(dF, derivatives.inputs)
+        weight = np.asarray(weight, dtype=float)
+        w = weight != 0
+        if not w.any():
+            return value if grad is None else (value, grad)
+        lam = weight[w][:, None]
+        top = np.asarray(log_belief_max, dtype=float)[w][:, None]
+        b = lam * self.belief_term(np.maximum(log_belief[w], LOG_BELIEF_FLOOR), top)
+        value[w] += b
+        if grad is None:
+            return value
+        probes = np.maximum(derivatives.log_belief[w], LOG_BELIEF_FLOOR)
+        b1 = lam[:, :, None] * self.belief_term(probes, top[:, :, None])
+        grad[w] += (b1 - b[:, :, None]) / derivatives.step[w]
+        return value, grad
 
 
 def first_new(ranked: np.ndarray, step: Step, rng: np.random.Generator) -> np.ndarray:
@@ -187,7 +174,7 @@ def first_new(ranked: np.ndarray, step: Step, rng: np.random.Generator) -> np.nd
     # Look at the best few first: almost always one of them is new.
     for rows in (ranked[:8], ranked[8:]):
         gaps = np.abs(rows[:, None, :] - step.X[None, :, :]).max(axis=2).min(axis=1)
-        fresh = np.flatnonzero(gaps > _SAME_POINT)
+        fresh = np.flatnonzero(gaps > SAME_POINT)
         if fresh.size:
             return rows[fresh[0]]
     return step.space.snap(rng.random((1, step.space.dim)))[0]

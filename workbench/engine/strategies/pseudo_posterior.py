@@ -17,36 +17,38 @@ from __future__ import annotations
 
 import numpy as np
 
-from ..acquisition import log_odds_good
-from .base import Step, maximise
+from ..acquisition import log_odds_good_grad
+from .base import Strategy
 
-name = "pseudo-posterior"
 PROBABILITY_FLOOR = 1e-12
 
 
-def belief_log_odds(log_belief: np.ndarray, log_belief_max: float) -> np.ndarray:
+def belief_log_odds(log_belief: np.ndarray, log_belief_max) -> np.ndarray:
     """log(P_g/P_b) with P_g = π(x)/π(mode) clipped to [floor, 1 − floor]."""
     p_good = np.clip(np.exp(log_belief - log_belief_max), PROBABILITY_FLOOR, 1 - PROBABILITY_FLOOR)
     return np.log(p_good) - np.log1p(-p_good)
 
 
-def score(mean, sd, log_belief, log_belief_max: float, weight: float, threshold: float):
-    """log(M_g/M_b) + λ · log(P_g/P_b) over candidates."""
-    return log_odds_good(mean, sd, threshold) + weight * belief_log_odds(log_belief, log_belief_max)
+class PseudoPosterior(Strategy):
+    name = "pseudo-posterior"
+    description = (
+        "combines the model's and the belief's odds that a point is good (better than the "
+        "threshold quantile γ of the values seen so far); the belief's weight is λ(t)"
+    )
+    uses_quantile = True
 
+    def model_term(self, mean, sd, reference):
+        """log(M_g/M_b) against f_γ, and its derivatives in μ and σ."""
+        return log_odds_good_grad(mean, sd, reference)
 
-class PseudoPosterior:
-    name = name
-    uses_model = True
+    def belief_term(self, log_belief, log_belief_max):
+        return belief_log_odds(log_belief, log_belief_max)
 
-    def threshold(self, step: Step) -> float:
-        return float(np.quantile(step.y, step.quantile))
-
-    def propose(self, step: Step, rng: np.random.Generator) -> tuple[np.ndarray, float]:
-        f_gamma = self.threshold(step)
-
-        def objective(U):
-            mean, sd = step.predict(U)
-            return score(mean, sd, step.log_belief(U), step.log_belief_max, step.weight, f_gamma)
-
-        return maximise(objective, step, rng), f_gamma
+    def reference(self, y: np.ndarray, quantile: np.ndarray) -> np.ndarray:
+        """f_γ: the γ-quantile of the values seen, one call per level of γ (row by row)."""
+        out = np.empty(y.shape[:-1])
+        quantile = np.broadcast_to(quantile, out.shape)
+        for q in np.unique(quantile):
+            rows = quantile == q
+            out[rows] = np.quantile(y[rows], q, axis=-1)
+        return out

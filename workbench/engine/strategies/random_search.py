@@ -5,14 +5,16 @@ from __future__ import annotations
 
 import numpy as np
 
-from .base import Step
-
-name = "random"
+from .base import Step, Strategy
 
 
-class RandomSearch:
-    name = name
+class RandomSearch(Strategy):
+    name = "random"
+    description = "uniform random draws over the search space"
+    is_baseline = True
     uses_model = False
+    uses_belief = False
+    uses_multiple = True
 
-    def propose(self, step: Step, rng: np.random.Generator) -> tuple[np.ndarray, float]:
-        return step.space.snap(rng.random((1, step.space.dim)))[0], float("nan")
+    def propose(self, step: Step, rng: np.random.Generator) -> np.ndarray:
+        return step.space.snap(rng.random((1, step.space.dim)))[0]
