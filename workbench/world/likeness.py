@@ -151,7 +151,8 @@ class Warp:
 
     def __call__(self, z: ArrayLike) -> NDArray[np.float64]:
         """Response values at normal-score values z (any shape)."""
-        z = np.asarray(z, dtype=float)
+        shape = np.shape(z)
+        z = np.asarray(z, dtype=float).reshape(-1)
         out = np.interp(z, self.z, self.y)
         for side, (slope, extent) in ((-1.0, self.low), (1.0, self.high)):
             if extent <= 0.0:
@@ -161,7 +162,7 @@ class Warp:
             mask = beyond > 0
             value = self.y[0] if side < 0 else self.y[-1]
             out[mask] = value + side * extent * -np.expm1(-beyond[mask] * slope / extent)
-        return out
+        return out.reshape(shape)
 
 
 # --------------------------------------------------------------------------- the posterior
