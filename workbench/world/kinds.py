@@ -11,7 +11,11 @@ the textbook functions:
 - **fitted**: one draw per replicate from the posterior of a GP fitted to earlier evaluations
   (ARD Matérn 5/2 on cube coordinates, hyper-parameters by maximum marginal likelihood with
   :func:`workbench.gp.fit`), by pathwise conditioning: plausible versions of the team's real
-  response. The truth stays where the data put it.
+  response. The truth stays where the data put it. With ``warp`` the GP models the data's
+  normal scores and draws are mapped back through their empirical quantile function.
+- **likedata** (:mod:`.likeness`): GP-prior surfaces drawn like earlier evaluations, their
+  hyper-parameters from the posterior given the data, warped like the data; cut around their
+  placement as drawn surfaces are.
 - **objective**: the user's own function of the parameters in user units, imported from a
   file by path (in every worker process); an exception or a non-finite value is a failed
   evaluation. Its minimum is given, or estimated by the same search (and marked estimated).
