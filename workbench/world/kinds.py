@@ -11,7 +11,11 @@ the textbook functions:
 - **fitted**: one draw per replicate from the posterior of a GP fitted to earlier evaluations
   (ARD Matérn 5/2 on cube coordinates, hyper-parameters by maximum marginal likelihood with
   :func:`workbench.gp.fit`), by pathwise conditioning: plausible versions of the team's real
-  response. The truth stays where the data put it.
+  response. The truth stays where the data put it. With ``warp`` the GP models the data's
+  normal scores and draws are mapped back through their empirical quantile function.
+- **likedata** (:mod:`.likeness`): GP-prior surfaces drawn like earlier evaluations, their
+  hyper-parameters from the posterior given the data, warped like the data; cut around their
+  placement as drawn surfaces are.
 - **objective**: the user's own function of the parameters in user units, imported from a
   file by path (in every worker process); an exception or a non-finite value is a failed
   evaluation. Its minimum is given, or estimated by the same search (and marked estimated).
@@ -31,15 +35,13 @@ import numpy as np
 
 from .. import gp
 from ..validation import InputError, raw
-from . import surfaces
+from . import likeness, surfaces
 from .landscapes import Landscape
 from .space import Space
 
 __all__ = ["KINDS", "Drawn", "Fitted", "Objective", "file_digest", "find_function"]
 
 KINDS = ("textbook", "drawn", "fitted", "objective")
-# Rounds of the window search that puts a drawn surface's minimum at a chosen point.
-WINDOW_ROUNDS = 8
 # What the minimum search of an objective sees where the function fails: large, finite.
 _FAILED = np.finfo(float).max / 4
 
@@ -74,26 +76,12 @@ class Drawn:
         whose global minimum sits at ``at``.
 
         A drawn surface is defined everywhere, so a window of the unit cube's size can be cut
-        anywhere. Starting from the surface's minimum u* on [0, 1]^d, the window that puts u*
-        at ``at`` is searched (:func:`.surfaces.global_minimum`); if it holds a lower point,
-        that point becomes the candidate and the search repeats (each round strictly lowers the
-        value; at most ``WINDOW_ROUNDS``). The landscape's native domain is that window.
+        anywhere (:func:`.surfaces.window_minimum`); the landscape's native domain is that
+        window.
         """
         scale = self.length_scale if len(self.length_scale) > 1 else self.length_scale * dim
         surface = surfaces.draw_prior(dim, self.smoothness, np.array(scale), rng, self.features)
-        u, value = surfaces.global_minimum(surface, dim, rng)
-        lower = np.zeros(dim)
-        if at is not None:
-            at = np.asarray(at, dtype=float)
-            for _ in range(WINDOW_ROUNDS):
-                lower = u - at
-                inner, inner_value = surfaces.global_minimum(
-                    lambda U, lo=lower: surface(lo + U), dim, rng
-                )
-                if inner_value >= value - 1e-12 * max(1.0, abs(value)):
-                    break
-                u, value = lower + inner, inner_value
-            lower = u - at
+        lower, u, value = surfaces.window_minimum(surface, dim, rng, at)
         source = (
             f"a GP-prior draw (Matérn ν = {self.smoothness:g}, length scale "
             f"{', '.join(f'{v:g}' for v in self.length_scale)}, {self.features} random features)"
@@ -117,7 +105,12 @@ class Drawn:
 @dataclass(frozen=True)
 class Fitted:
     """Posterior draws of a GP fitted to earlier evaluations (cube points ``X``, values to
-    minimise ``y``); ``noise_sd`` the data's noise in response units, or None to estimate it."""
+    minimise ``y``); ``noise_sd`` the data's noise in response units, or None to estimate it.
+
+    With ``warp`` the GP is fitted to the data's normal scores and each draw is mapped back by
+    the data's empirical quantile function (:class:`.likeness.Warp`), so flat failing regions
+    and saturation in the data appear in the draws; a given ``noise_sd`` is converted to
+    normal-score units by the ratio sd(scores) / sd(y)."""
 
     X: tuple[tuple[float, ...], ...]
     y: tuple[float, ...]
@@ -127,6 +120,7 @@ class Fitted:
     digest: str = ""
     response: str = ""
     goal: str = "minimise"
+    warp: bool = False
     kind: str = field(default="fitted", init=False)
 
     @property
@@ -146,18 +140,29 @@ class Fitted:
             **options,
         )
 
+    def _modelled(self) -> tuple[tuple[float, ...], float | None]:
+        """The values the GP sees and their noise sd: the data, or their normal scores."""
+        if not self.warp:
+            return self.y, self.noise_sd
+        scores = likeness.normal_scores(self.y)
+        noise = self.noise_sd
+        if noise is not None:
+            noise = noise * float(np.std(scores)) / (float(np.std(self.y)) or 1.0)
+        return tuple(scores.tolist()), noise
+
     def model(self) -> gp.GP:
         """The GP fitted to the data (deterministic: the fit's restarts use a fixed seed)."""
-        return _fit(self.X, self.y, self.noise_sd)
+        return _fit(self.X, *self._modelled())
 
-    def surface(self, rng: np.random.Generator) -> surfaces.FeatureSurface:
-        """One posterior draw given the data (pathwise conditioning)."""
+    def surface(self, rng: np.random.Generator):
+        """One posterior draw given the data (pathwise conditioning); with ``warp``, a
+        :class:`.likeness.LikeSurface` whose ``latent`` is the draw in normal-score units."""
         model = self.model()
         h = model.hyperparameters
         scale = model.y_scale
-        return surfaces.draw_posterior(
+        draw = surfaces.draw_posterior(
             np.array(self.X),
-            np.array(self.y),
+            np.array(self._modelled()[0]),
             length_scale=np.asarray(h.lengthscales),
             amplitude=math.sqrt(h.signal_variance) * scale,
             noise_variance=h.noise_variance * scale**2,
@@ -166,18 +171,27 @@ class Fitted:
             rng=rng,
             n_features=self.features,
         )
+        if not self.warp:
+            return draw
+        return likeness.LikeSurface(draw, likeness.Warp.from_data(self.y))
+
+    def _minimum(self, surface, dim, rng, n_dense=None):
+        """Argmin and minimum of a draw; a warped one is searched on its smooth latent surface
+        (the monotone warp keeps the argmin) and valued through the warp."""
+        if not self.warp:
+            return surfaces.global_minimum(surface, dim, rng, n_dense)
+        u, _ = surfaces.global_minimum(surface.latent, dim, rng, n_dense)
+        return u, float(surface(u[None, :])[0])
 
     def optima(self, draws: int, rng: np.random.Generator, n_dense: int = 2**12) -> np.ndarray:
         """Where the optimum lies in ``draws`` posterior draws: their argmins, (draws, d)."""
         dim = len(self.X[0])
-        out = [
-            surfaces.global_minimum(self.surface(rng), dim, rng, n_dense)[0] for _ in range(draws)
-        ]
+        out = [self._minimum(self.surface(rng), dim, rng, n_dense)[0] for _ in range(draws)]
         return np.array(out)
 
     def landscape(self, name: str, dim: int, rng: np.random.Generator) -> Landscape:
         surface = self.surface(rng)
-        u, value = surfaces.global_minimum(surface, dim, rng)
+        u, value = self._minimum(surface, dim, rng)
         return _cube_landscape(
             name, dim, surface, value, u, f"a GP-posterior draw given {self.source}"
         )

@@ -41,6 +41,7 @@ __all__ = [
     "DEFAULT_FEATURES",
     "DEFAULT_STARTS",
     "SMOOTHNESS_VALUES",
+    "WINDOW_ROUNDS",
     "FeatureSurface",
     "dense_size",
     "draw_frequencies",
@@ -50,7 +51,9 @@ __all__ = [
     "global_minimum",
     "matern",
     "matern_kernel",
+    "matern_slope_over_r",
     "posterior_mean",
+    "window_minimum",
 ]
 
 # The Matérn orders with a closed form (R&W 2006 eq. 4.16: ν = p + 1/2 for integer p).
@@ -64,6 +67,9 @@ SMOOTHNESS_VALUES = (0.5, 1.5, 2.5)
 # <= 20 µs, see benchmarks/surfaces.py); M = 2048 would buy 0.9 percentage points for twice
 # the cost, close to the goal.
 DEFAULT_FEATURES = 1024
+
+# Rounds of the window search (window_minimum) that puts a surface's minimum at a chosen point.
+WINDOW_ROUNDS = 8
 
 # Local searches in global_minimum: the best Sobol points each start one L-BFGS-B run.
 DEFAULT_STARTS = 8
@@ -138,7 +144,7 @@ def matern(r: ArrayLike, smoothness: float) -> NDArray[np.float64]:
     return (1.0 + s + s * s / 3.0) * np.exp(-s)
 
 
-def _matern_slope_over_r(r: NDArray[np.float64], nu: float) -> NDArray[np.float64]:
+def matern_slope_over_r(r: NDArray[np.float64], nu: float) -> NDArray[np.float64]:
     """(dk/dr) / r for the closed forms, the factor that turns dk/dr into a gradient in x.
 
     ν = 1/2:  -exp(-r) / r   (set to 0 at r = 0, a subgradient at the kernel's cusp)
@@ -381,7 +387,7 @@ class FeatureSurface:
             values += matern(r, self.smoothness) @ weighted
             if with_gradient:
                 # Σ_i s_i (u - X_i) = u Σ_i s_i - s @ X, avoiding an (m, n, d) array.
-                s = _matern_slope_over_r(r, self.smoothness) * weighted
+                s = matern_slope_over_r(r, self.smoothness) * weighted
                 grads += (U * s.sum(axis=1)[:, None] - s @ self.data) / self.length_scale**2
         if with_gradient:
             return values, grads
@@ -586,3 +592,33 @@ def global_minimum(
         if v < best_value:
             best_u, best_value = u, v
     return best_u, best_value
+
+
+def window_minimum(
+    f: Callable[[NDArray[np.float64]], NDArray[np.float64]],
+    dim: int,
+    rng: np.random.Generator,
+    at: ArrayLike | None = None,
+) -> tuple[NDArray[np.float64], NDArray[np.float64], float]:
+    """The window ``[lower, lower + 1]^d`` of a surface f defined on all of R^d whose global
+    minimum sits at cube point ``at``: returns (lower, u*, f(u*)), u* in f's own coordinates.
+
+    Starting from f's minimum u* on [0, 1]^d (:func:`global_minimum`), the window that puts u*
+    at ``at`` is searched; if it holds a lower point, that point becomes the candidate and the
+    search repeats (each round strictly lowers the value; at most ``WINDOW_ROUNDS``). Without
+    ``at`` the window is the unit cube itself (lower = 0).
+    """
+    u, value = global_minimum(f, dim, rng)
+    lower = np.zeros(dim)
+    if at is None:
+        return lower, u, value
+    at = np.asarray(at, dtype=float)
+    for _ in range(WINDOW_ROUNDS):
+        lower = u - at
+        # The shifted surface is searched without its gradient (finite differences), as
+        # drawn landscapes always were, so their grids stay the same.
+        inner, inner_value = global_minimum(lambda U, lo=lower: f(lo + U), dim, rng)
+        if inner_value >= value - 1e-12 * max(1.0, abs(value)):
+            break
+        u, value = lower + inner, inner_value
+    return u - at, u, value
