@@ -18,6 +18,8 @@ from pathlib import Path
 
 import numpy as np
 import pytest
+from hypothesis import given
+from hypothesis import strategies as st
 from sklearn.datasets import load_breast_cancer, load_diabetes
 from sklearn.linear_model import LinearRegression
 from sklearn.model_selection import cross_val_score
@@ -111,6 +113,7 @@ def test_rows_reproduce_to_the_digits_written_when_measured_again(table):
         again = module.measure(config)
         written = float(row[-1])
         digits = kit.RESPONSE_DIGITS
+        # The same text, or (a value on a rounding boundary) one unit in the last digit.
         assert f"{again:.{digits}g}" == row[-1] or math.isclose(
             again, written, rel_tol=10.0 ** (1 - digits)
         ), (row, again)
@@ -139,3 +142,18 @@ def test_linear_splines_without_penalty_match_least_squares():
         LinearRegression(), X, y, cv=module._cv(), scoring="neg_root_mean_squared_error"
     )
     assert float(row[-1]) == pytest.approx(float(np.mean(-scores)), rel=1e-4)
+
+
+@given(
+    anchor=st.floats(1e-6, 1e6),
+    low=st.integers(-4, -1),
+    high=st.integers(0, 4),
+    per_decade=st.integers(1, 5),
+)
+def test_geometric_grid_has_equal_ratios_and_holds_its_anchor(anchor, low, high, per_decade):
+    values = np.array(kit.geometric(anchor, low, high, per_decade))
+    assert len(values) == (high - low) * per_decade + 1
+    # Rounding to 6 significant digits moves each value by at most 5e-6 of itself.
+    ratios = values[1:] / values[:-1]
+    assert ratios == pytest.approx(np.full(len(ratios), 10 ** (1 / per_decade)), rel=1.1e-5)
+    assert values[-low * per_decade] == pytest.approx(anchor, rel=5.1e-6)
