@@ -34,7 +34,6 @@ import json
 import logging
 import os
 import re
-import socket
 import threading
 import time
 from collections.abc import Callable, Iterator
@@ -110,8 +109,13 @@ def _disk(out: Path) -> Iterator[None]:
             expected = "a folder (or a path where one can be made)"
         else:
             expected = "a writable folder"
-        name = err.filename or out
-        raise _refuse(out, expected, f"({name}: {err.strerror or err})") from None
+        name = Path(err.filename) if err.filename else out
+        if name.name.endswith(".part"):
+            name = name.parent  # a temporary file: the folder is what the user knows
+        reason = err.strerror or str(err)
+        raise _refuse(
+            out, expected, f"({reason})" if name == out else f"({name}: {reason})"
+        ) from None
 
 
 def _read_manifest(out: Path) -> tuple[str, dict | None]:
@@ -249,10 +253,10 @@ def prepare(study: Study, out: Path, fresh: bool) -> tuple[dict, bool]:
             present = _results_present(out)
             if present:
                 what = {"none": "no", "damaged": "a damaged", "foreign": "a foreign"}[state]
+                hint = "another --out" if _foreign_files(out, state) else "--fresh to start over"
                 raise _refuse(
                     out,
-                    "a folder with its manifest.json or a new folder (use --fresh to start "
-                    "over, or another --out)",
+                    f"a results folder with its {MANIFEST}, or a new folder (use {hint})",
                     f"holding {', '.join(present)} but {what} {MANIFEST}",
                 )
     if fresh:
@@ -346,18 +350,20 @@ def _chunk_path(out: Path, chunk: Chunk) -> Path:
 _WATCHING = False
 
 
-def _watch_parent(parent: tuple[str, int]) -> None:
-    """In a worker process that the run's process started on this machine, start (once) a
-    daemon thread that ends the worker when that process dies: its parent pid then changes.
-    Nothing happens in the run's own process (one job) nor on another machine (Dask)."""
+def _watch_parent(parent: int) -> None:
+    """In a worker process the run's process (pid ``parent``) started, start (once) a daemon
+    thread that ends the worker when that process dies: the worker's parent pid then
+    changes. A worker that finds its parent gone already (it died while the worker was
+    starting) ends at once. Nothing happens in the run's own process (one job)."""
     global _WATCHING
-    host, pid = parent
-    if _WATCHING or os.getppid() != pid or socket.gethostname() != host:
+    if _WATCHING or os.getpid() == parent:
         return
+    if os.getppid() != parent:
+        os._exit(1)
     _WATCHING = True
 
     def watch() -> None:
-        while os.getppid() == pid:
+        while os.getppid() == parent:
             time.sleep(WATCH_INTERVAL)
         os._exit(1)
 
@@ -365,11 +371,11 @@ def _watch_parent(parent: tuple[str, int]) -> None:
 
 
 def _work(
-    study: Study, group: list[Chunk], parent: tuple[str, int] | None = None
+    study: Study, group: list[Chunk], parent: int | None = None
 ) -> tuple[list[tuple[Chunk, dict, float]], Exception | None]:
     """Run a group's chunks in turn: what finished, and the error that stopped the rest (so
-    that the chunks finished before it are still written). ``parent`` (host name, pid) is the
-    run's process, which a worker watches."""
+    that the chunks finished before it are still written). ``parent`` is the pid of the run's
+    process, which a worker on this machine watches (None on a Dask cluster)."""
     if parent is not None:
         _watch_parent(parent)
     out = []
@@ -442,12 +448,15 @@ def _parallel(
 
     if not todo:
         return
-    n_jobs = -1 if distributed else (jobs or os.cpu_count() or 1)
+    groups = _groups(study, todo)
+    # No more local workers than tasks: each one gets a task at once, and with it the watch
+    # on the run's process (an idle worker ends after loky's idle timeout).
+    n_jobs = -1 if distributed else min(jobs or os.cpu_count() or 1, len(groups))
     parallel = joblib.Parallel(
         n_jobs=n_jobs, return_as="generator_unordered", batch_size=1, pre_dispatch="2*n_jobs"
     )
-    parent = (socket.gethostname(), os.getpid())
-    tasks = (joblib.delayed(_work)(study, g, parent) for g in _groups(study, todo))
+    parent = None if distributed else os.getpid()
+    tasks = (joblib.delayed(_work)(study, g, parent) for g in groups)
     for finished, err in parallel(tasks):
         yield from finished
         if err is not None:
@@ -480,7 +489,7 @@ def _save(out: Path, manifest: dict) -> None:
 
 def _open_folder(out: Path) -> None:
     if out.exists() and not out.is_dir():
-        raise _refuse(out, "a folder", "is a file")
+        raise _refuse(out, "a folder", "(a file)")
     with _disk(out):
         out.mkdir(parents=True, exist_ok=True)
 
@@ -538,13 +547,13 @@ def run_study(
             total = sum(c.campaigns for c in every)
             done = resumed = total - sum(c.campaigns for c in todo)
             current = not todo and not new and _grid_current(out, manifest)
+            _remove_stale_parts(out)
             if current:
                 # Nothing to do: nothing is written (a finished folder may be read-only).
                 lowest = {k: float(v) for k, v in manifest["grid"].get("lowest", {}).items()}
                 if progress:
                     progress(done, total)
             else:
-                _remove_stale_parts(out)
                 with _disk(out):
                     (out / CHUNKS).mkdir(exist_ok=True)
                 manifest.pop("grid", None)
