@@ -141,6 +141,7 @@ def _read_manifest(out: Path) -> tuple[str, dict | None]:
     manifest["chunks"] = {
         k: v for k, v in listed.items() if isinstance(v, dict) and isinstance(v.get("sha256"), str)
     }
+    manifest.pop("chunk_seconds", None)
     manifest.setdefault("format", FORMAT)
     return "ours", manifest
 
