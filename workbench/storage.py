@@ -4,12 +4,21 @@ so an interrupted run never leaves a half-written result behind."""
 from __future__ import annotations
 
 import contextlib
+import errno
+import hashlib
 import os
 import tempfile
-from collections.abc import Iterator
+from collections.abc import Callable, Iterator
 from pathlib import Path
 
-__all__ = ["atomic_path", "write_text"]
+__all__ = [
+    "FolderBusy",
+    "atomic_path",
+    "folder_lock",
+    "remove_parts",
+    "sha256_of",
+    "write_text",
+]
 
 
 @contextlib.contextmanager
@@ -36,3 +45,91 @@ def write_text(path: str | Path, text: str) -> Path:
     with atomic_path(path) as tmp:
         tmp.write_text(text, encoding="utf-8")
     return Path(path)
+
+
+def sha256_of(path: str | Path) -> str:
+    """The SHA-256 of a file's bytes, as hex (read in 1 MiB pieces, memory stays flat)."""
+    digest = hashlib.sha256()
+    with open(path, "rb") as fh:
+        for piece in iter(lambda: fh.read(1 << 20), b""):
+            digest.update(piece)
+    return digest.hexdigest()
+
+
+def remove_parts(folder: str | Path, match: Callable[[str], bool]) -> int:
+    """Remove the temporary files of :func:`atomic_path` in ``folder`` whose final name
+    satisfies ``match``: what a killed run left behind. Returns how many went; a file that
+    cannot be removed (a read-only folder) stays."""
+    folder = Path(folder)
+    if not folder.is_dir():
+        return 0
+    gone = 0
+    for entry in folder.iterdir():
+        name = entry.name
+        if not (name.startswith(".") and name.endswith(".part")) or not entry.is_file():
+            continue
+        # ".NAME.RANDOM.part": the final name is what lies between the dots around RANDOM.
+        final = name[1 : name.rfind(".", 0, len(name) - len(".part"))]
+        if match(final):
+            with contextlib.suppress(OSError):
+                entry.unlink()
+                gone += 1
+    return gone
+
+
+class FolderBusy(RuntimeError):
+    """Another process holds the lock of a folder; ``pid`` is its process id (None if it
+    did not write one)."""
+
+    def __init__(self, path: Path, pid: int | None):
+        self.path = path
+        self.pid = pid
+        super().__init__(f"{path} is locked by process {pid}")
+
+
+@contextlib.contextmanager
+def folder_lock(path: str | Path) -> Iterator[bool]:
+    """Hold an exclusive, non-blocking ``flock`` on the lock file ``path`` for the block.
+
+    Yields True when locked. The lock file is created if missing (and then holds the
+    holder's process id); where it cannot be created (a read-only folder) nothing can write
+    there either, and the block runs unlocked (yields False). The kernel releases the lock
+    when the holder exits, however it ends, so a killed run never leaves a stale lock. The
+    file itself stays: removing it would let two runs lock two different files.
+
+    Raises :class:`FolderBusy` when another process holds it.
+    """
+    import fcntl
+
+    path = Path(path)
+    try:
+        fd = os.open(path, os.O_RDWR | os.O_CREAT, 0o666)
+    except OSError as err:
+        if err.errno not in (errno.EACCES, errno.EPERM, errno.EROFS):
+            raise
+        try:
+            # flock needs no write access: an existing lock file still locks.
+            fd = os.open(path, os.O_RDONLY)
+        except FileNotFoundError:
+            yield False
+            return
+    try:
+        try:
+            fcntl.flock(fd, fcntl.LOCK_EX | fcntl.LOCK_NB)
+        except BlockingIOError:
+            raise FolderBusy(path, _holder(fd)) from None
+        with contextlib.suppress(OSError):
+            pid = f"{os.getpid()}\n".encode()
+            os.pwrite(fd, pid, 0)
+            os.ftruncate(fd, len(pid))
+        yield True
+    finally:
+        os.close(fd)
+
+
+def _holder(fd: int) -> int | None:
+    try:
+        text = os.pread(fd, 32, 0).decode("ascii", "replace").strip()
+    except OSError:
+        return None
+    return int(text) if text.isdigit() else None

@@ -32,19 +32,39 @@ _CAMPAIGN = ("setting", "landscape", "distortion", "replicate")
 POOLED = ("landscape", "replicate")
 # Survival that is ½ in exact arithmetic may come out a rounding error above it.
 HALF_TOLERANCE = 1e-9
+# What every grid holds (see gridfile): a file without them is not one.
+_GRID_NAMES = ("normalized_regret", "baseline_normalized_regret", *SETTING_FACTORS)
 
 
 def open_grid(path: str | Path) -> xr.Dataset:
     """The grid Dataset of a results folder (or of a grid.nc path), loaded into memory.
 
-    A missing file raises :class:`InputError` naming it.
+    A missing, unreadable, damaged (truncated, overwritten) or foreign file raises
+    :class:`InputError` naming it: a grid is a NetCDF file holding the variables and
+    dimensions :mod:`workbench.study.gridfile` writes.
     """
     path = Path(path)
     file = path / GRID if path.is_dir() or path.suffix != ".nc" else path
     if not file.is_file():
         raise InputError("DIR", f"a folder holding {GRID}", raw(f"no file at {file}"))
-    with xr.open_dataset(file) as ds:
-        return ds.load()
+    expected = f"a folder holding a {GRID} written by 'workbench run'"
+    try:
+        with xr.open_dataset(file) as ds:
+            loaded = ds.load()
+    except PermissionError as err:
+        raise InputError("DIR", expected, raw(f"{file} unreadable ({err.strerror})")) from None
+    except Exception as err:
+        # netCDF4, h5py and xarray raise OSError, ValueError, RuntimeError, KeyError ... on a
+        # file they cannot read: whatever it is, the file is not a readable grid.
+        text = str(err).splitlines()[0] if str(err) else type(err).__name__
+        reason = "not a NetCDF file" if "did not find a match" in text else text[:100]
+        raise InputError("DIR", expected, raw(f"{file} damaged or not NetCDF ({reason})")) from None
+    missing = [name for name in _GRID_NAMES if name not in loaded.variables]
+    if missing:
+        raise InputError(
+            "DIR", expected, raw(f"{file} without {', '.join(missing)} (not a workbench grid)")
+        )
+    return loaded
 
 
 def coordinate_names(ds: xr.Dataset, dim: str) -> list[str]:

@@ -2,23 +2,39 @@
 
 Layout of an output folder::
 
-    manifest.json     study name, digest (SHA-256 of the study text), package version,
-                      and each finished chunk's compute seconds
-    chunks/*.npz      one file per finished chunk (written to a temporary name, then renamed)
+    manifest.json     format, study name, digest (SHA-256 of the study text), package
+                      version; per finished chunk the SHA-256 of its file and its compute
+                      seconds; the SHA-256 of the grid it was last assembled into
+    chunks/*.npz      one file per finished chunk (written to a temporary name, then renamed);
+                      besides the results it records its study's digest and its key
+                      (landscape, distortion, replicates, block size)
     grid.nc           the assembled grid (see :mod:`workbench.study.gridfile`)
+    .workbench.lock   the lock file: one run at a time per folder (it holds the run's pid)
 
-Running again resumes: chunks already on disk are skipped. A folder holding another study's
-chunks is refused unless ``fresh`` is set, which clears it first. Parallel work goes through
-joblib: its process backend on one machine, or its Dask backend given a scheduler address.
+Running again resumes: every chunk on disk is checked (its checksum against the manifest, its
+record against the study and its key) and a damaged, foreign or unlisted one is computed
+again; a run with nothing to do writes nothing. A folder holding another study's results is
+refused unless ``fresh`` is set, which deletes what the workbench wrote there (the chunks its
+manifest lists, grid.nc, manifest.json) and nothing else; a folder with results but no
+readable manifest is never assumed to be this study's, and ``fresh`` refuses a folder holding
+files the workbench did not write. Temporary files of a killed run are removed by the next.
+
+Parallel work goes through joblib: its process backend on one machine, or its Dask backend
+given a scheduler address. Each worker process on this machine exits when the run's process
+dies (a watchdog thread polls its parent's pid), so a killed run leaves no workers behind.
 """
 
 from __future__ import annotations
 
 import contextlib
+import errno
+import hashlib
+import io
 import json
 import logging
 import os
-import shutil
+import re
+import threading
 import time
 from collections.abc import Callable, Iterator
 from dataclasses import dataclass, field
@@ -27,7 +43,7 @@ from pathlib import Path
 import numpy as np
 
 from .. import __version__
-from ..storage import atomic_path, write_text
+from ..storage import FolderBusy, atomic_path, folder_lock, remove_parts, sha256_of, write_text
 from ..validation import InputError, raw
 from .grid import Chunk, chunks, run_chunk
 from .spec import Study
@@ -39,13 +55,22 @@ log = logging.getLogger(__name__)
 MANIFEST = "manifest.json"
 CHUNKS = "chunks"
 GRID = "grid.nc"
+LOCK = ".workbench.lock"
+FORMAT = "workbench results 1"
+# What a chunk file records about itself, beside its results: one entry per replicate, so
+# that the grid's split over replicates passes it through like every other array.
+RECORD = ("chunk_study", "chunk_key", "chunk_landscape", "chunk_distortion", "chunk_replicate")
+CHUNK_NAME = re.compile(r"L\d{3}-D\d{3}-R\d{4}-\d{4}\.npz")
 # Normalized regret below minus this means a campaign beat the computed minimum.
 BELOW_MINIMUM = 1e-9
+# How often a worker looks whether the run's process is still its parent (seconds).
+WATCH_INTERVAL = 0.25
 
 
 @dataclass(frozen=True)
 class RunSummary:
-    """What a run did: chunks and campaigns in all, how many were already on disk, the grid
+    """What a run did: chunks and campaigns in all, how many were already on disk (and
+    verified), how many chunk files failed their check and were computed again, the grid
     file, and the wall time of this run."""
 
     chunks: int
@@ -54,6 +79,7 @@ class RunSummary:
     grid: Path
     seconds: float
     below_minimum: dict[str, float] = field(default_factory=dict)
+    recomputed: int = 0
 
     def warnings(self) -> list[str]:
         """One line per landscape on which a campaign beat the computed minimum."""
@@ -64,56 +90,295 @@ class RunSummary:
         ]
 
 
-def _manifest(out: Path) -> dict | None:
+# --------------------------------------------------------------------------- the folder
+
+
+def _refuse(out: Path, expected: str, got: str, where: str = "command line") -> InputError:
+    return InputError("--out", expected, raw(f"{out} {got}"), where)
+
+
+@contextlib.contextmanager
+def _disk(out: Path) -> Iterator[None]:
+    """Turn a disk or folder error (read-only, full, not a folder) into one line naming it."""
+    try:
+        yield
+    except OSError as err:
+        if err.errno == errno.ENOSPC:
+            expected = "a folder on a disk with free space"
+        elif err.errno in (errno.ENOTDIR, errno.EEXIST):
+            expected = "a folder (or a path where one can be made)"
+        else:
+            expected = "a writable folder"
+        name = Path(err.filename) if err.filename else out
+        if name.name.endswith(".part"):
+            name = name.parent  # a temporary file: the folder is what the user knows
+        reason = err.strerror or str(err)
+        raise _refuse(
+            out, expected, f"({reason})" if name == out else f"({name}: {reason})"
+        ) from None
+
+
+def _read_manifest(out: Path) -> tuple[str, dict | None]:
+    """The manifest and its state: 'none' (no file), 'ours' (a workbench manifest),
+    'damaged' (not JSON, or truncated) or 'foreign' (JSON some other program wrote)."""
     path = out / MANIFEST
     if not path.exists():
-        return None
+        return "none", None
+    with _disk(out):
+        data = path.read_bytes()
     try:
-        return json.loads(path.read_text(encoding="utf-8"))
-    except (OSError, json.JSONDecodeError):
-        return None
+        manifest = json.loads(data.decode("utf-8"))
+    except (UnicodeDecodeError, json.JSONDecodeError):
+        return "damaged", None
+    if not isinstance(manifest, dict):
+        return "foreign", None
+    if not isinstance(manifest.get("digest"), str) or "study" not in manifest:
+        return "foreign", None
+    listed = manifest.get("chunks")
+    if not isinstance(listed, dict):
+        # An older manifest lists chunk seconds only: its chunks are unlisted (recomputed).
+        listed = {}
+    manifest["chunks"] = {
+        k: v for k, v in listed.items() if isinstance(v, dict) and isinstance(v.get("sha256"), str)
+    }
+    manifest.pop("chunk_seconds", None)
+    manifest.setdefault("format", FORMAT)
+    return "ours", manifest
 
 
-def prepare(study: Study, out: Path, fresh: bool) -> dict:
-    """Check (or create) the output folder for ``study``; returns the manifest."""
-    manifest = _manifest(out)
-    if manifest is not None and manifest.get("digest") != study.digest:
-        if not fresh:
-            raise InputError(
-                "--out",
-                "a folder of this study (its study file changed; use --fresh to start over)",
-                raw(f"{out} holding results of another version of study '{manifest.get('study')}'"),
-                study.path,
-            )
-    if fresh and out.exists():
-        for name in (CHUNKS, GRID, MANIFEST):
-            target = out / name
-            if target.is_dir():
-                shutil.rmtree(target)
-            elif target.exists():
-                target.unlink()
+def _new_manifest(study: Study) -> dict:
+    return {
+        "format": FORMAT,
+        "study": study.name,
+        "digest": study.digest,
+        "version": __version__,
+        "chunks": {},
+    }
+
+
+def _our_grid(path: Path) -> bool:
+    """Whether ``path`` is a grid file the workbench wrote (a NetCDF file with its attributes)."""
+    import netCDF4
+
+    try:
+        with netCDF4.Dataset(path) as ds:
+            return {"study", "study_name", "root_seed"} <= set(ds.ncattrs())
+    except Exception:  # any failure to read it means: not provably ours
+        return False
+
+
+def _ours(name: str) -> bool:
+    """Whether a file name in the folder is one the workbench writes (or its temporary)."""
+    return name in (MANIFEST, GRID, LOCK) or any(
+        name.startswith(f".{n}.") and name.endswith(".part") for n in (MANIFEST, GRID)
+    )
+
+
+def _foreign_files(out: Path, state: str) -> list[str]:
+    """The files in ``out`` that the workbench did not write (as far as can be told without
+    a manifest): chunk files by their name pattern, grid.nc by its attributes."""
+    foreign = []
+    for entry in sorted(out.iterdir()):
+        name = entry.name
+        if name == CHUNKS and entry.is_dir():
+            for inner in sorted(entry.iterdir()):
+                chunkish = CHUNK_NAME.fullmatch(inner.name) or (
+                    inner.name.startswith(".L") and inner.name.endswith(".part")
+                )
+                if not (chunkish and inner.is_file()):
+                    foreign.append(f"{CHUNKS}/{inner.name}")
+        elif not _ours(name) or entry.is_dir():
+            foreign.append(name)
+        elif name == GRID and not _our_grid(entry):
+            foreign.append(name)
+        elif name == MANIFEST and state == "foreign":
+            foreign.append(name)
+    return foreign
+
+
+def _results_present(out: Path) -> list[str]:
+    """What in ``out`` looks like results: chunk files, grid.nc, manifest.json."""
+    present = [n for n in (MANIFEST, GRID) if (out / n).exists()]
+    folder = out / CHUNKS
+    if folder.is_dir() and any(folder.iterdir()):
+        present.insert(0, f"{CHUNKS}/")
+    return present
+
+
+def _clear(out: Path, manifest: dict | None) -> int:
+    """Delete what the workbench wrote in ``out``: the chunks the manifest lists (every chunk
+    file by name when there is no manifest, the folder having been checked to hold nothing
+    else), grid.nc and manifest.json. Other files stay. Returns how many chunk files went."""
+    folder = out / CHUNKS
+    if manifest is not None:
+        names = [f"{k}.npz" for k in manifest["chunks"]]
+    elif folder.is_dir():
+        names = [p.name for p in folder.iterdir() if CHUNK_NAME.fullmatch(p.name)]
+    else:
+        names = []
+    gone = 0
+    for name in names:
+        with contextlib.suppress(FileNotFoundError):
+            (folder / name).unlink()
+            gone += 1
+    for name in (GRID, MANIFEST):
+        with contextlib.suppress(FileNotFoundError):
+            (out / name).unlink()
+    with contextlib.suppress(OSError):
+        folder.rmdir()  # only when nothing else is left in it
+    return gone
+
+
+def prepare(study: Study, out: Path, fresh: bool) -> tuple[dict, bool]:
+    """Check ``out`` for ``study`` (the lock held); returns the manifest and whether it is
+    new (not yet on disk). With ``fresh``, first deletes what the workbench wrote there."""
+    state, manifest = _read_manifest(out)
+    if state == "ours" and manifest["digest"] != study.digest and not fresh:
+        raise _refuse(
+            out,
+            "a folder of this study (its study file changed; use --fresh to start over)",
+            f"holding results of another version of study '{manifest.get('study')}'",
+            study.path,
+        )
+    if state != "ours":
+        if fresh:
+            foreign = _foreign_files(out, state)
+            if foreign:
+                shown = ", ".join(foreign[:4]) + (", ..." if len(foreign) > 4 else "")
+                raise _refuse(
+                    out,
+                    "a folder of workbench results for --fresh to clear (use another --out)",
+                    f"holding files the workbench did not write ({shown}) and no manifest",
+                )
+        else:
+            present = _results_present(out)
+            if present:
+                what = {"none": "no", "damaged": "a damaged", "foreign": "a foreign"}[state]
+                hint = "another --out" if _foreign_files(out, state) else "--fresh to start over"
+                raise _refuse(
+                    out,
+                    f"a results folder with its {MANIFEST}, or a new folder (use {hint})",
+                    f"holding {', '.join(present)} but {what} {MANIFEST}",
+                )
+    if fresh:
+        with _disk(out):
+            gone = _clear(out, manifest if state == "ours" else None)
+        if gone:
+            log.info("--fresh: removed %d chunk files of the earlier run", gone)
         manifest = None
     if manifest is None:
-        manifest = {
-            "study": study.name,
-            "digest": study.digest,
-            "version": __version__,
-            "chunk_seconds": {},
-        }
-    (out / CHUNKS).mkdir(parents=True, exist_ok=True)
-    write_text(out / MANIFEST, json.dumps(manifest, indent=1))
-    return manifest
+        return _new_manifest(study), True
+    return manifest, False
+
+
+def _remove_stale_parts(out: Path) -> None:
+    """Temporary files of a run that was killed mid-write (only this folder's lock holder
+    can be writing them, and that is this run)."""
+    gone = remove_parts(out, lambda n: n in (GRID, MANIFEST))
+    gone += remove_parts(out / CHUNKS, lambda n: CHUNK_NAME.fullmatch(n) is not None)
+    if gone:
+        log.info("removed %d temporary files a killed run left in %s", gone, out)
+
+
+def _record(study: Study, chunk: Chunk) -> dict[str, np.ndarray]:
+    n = len(chunk.replicates)
+    return {
+        "chunk_study": np.full(n, study.digest),
+        "chunk_key": np.full(n, chunk.key),
+        "chunk_landscape": np.full(n, chunk.landscape),
+        "chunk_distortion": np.full(n, chunk.distortion),
+        "chunk_replicate": np.array(chunk.replicates),
+    }
+
+
+def _check_chunk(study: Study, out: Path, chunk: Chunk, listed: dict | None) -> str | None:
+    """Why the chunk file on disk cannot be used (None when it can): 'unlisted' (the
+    manifest does not know it), 'changed' (its bytes are not those listed), 'unreadable',
+    or 'foreign' (it records another study or another chunk)."""
+    path = _chunk_path(out, chunk)
+    if listed is None:
+        return "unlisted"
+    with _disk(out):
+        if sha256_of(path) != listed.get("sha256"):
+            return "changed"
+    try:
+        with np.load(path, allow_pickle=False) as npz:
+            record = {name: npz[name] for name in RECORD}
+            width = npz["normalized_regret"].shape[:2]
+    except Exception:  # a file that cannot be read is damaged, whatever the error
+        return "unreadable"
+    expected = _record(study, chunk)
+    same = all(
+        record[k].shape == v.shape and bool(np.all(record[k] == v)) for k, v in expected.items()
+    )
+    if not same or width != (len(chunk.replicates), len(chunk.settings)):
+        return "foreign"
+    return None
+
+
+def _sort(study: Study, out: Path, manifest: dict, every: list[Chunk]) -> tuple[list[Chunk], int]:
+    """The chunks to compute: missing ones, and those whose file fails its check (logged, and
+    dropped from the manifest); and how many files failed."""
+    todo, failed = [], {}
+    for chunk in every:
+        if not _chunk_path(out, chunk).is_file():
+            todo.append(chunk)
+            manifest["chunks"].pop(chunk.key, None)
+            continue
+        why = _check_chunk(study, out, chunk, manifest["chunks"].get(chunk.key))
+        if why is not None:
+            todo.append(chunk)
+            failed[why] = failed.get(why, 0) + 1
+            manifest["chunks"].pop(chunk.key, None)
+    if failed:
+        n = sum(failed.values())
+        parts = ", ".join(f"{k} {v}" for k, v in sorted(failed.items()))
+        log.warning(
+            "%d chunk file%s in %s failed the check (%s) and %s computed again",
+            n,
+            "s" if n > 1 else "",
+            out / CHUNKS,
+            parts,
+            "are" if n > 1 else "is",
+        )
+    return todo, sum(failed.values())
 
 
 def _chunk_path(out: Path, chunk: Chunk) -> Path:
     return out / CHUNKS / f"{chunk.key}.npz"
 
 
+_WATCHING = False
+
+
+def _watch_parent(parent: int) -> None:
+    """In a worker process the run's process (pid ``parent``) started, start (once) a daemon
+    thread that ends the worker when that process dies: the worker's parent pid then
+    changes. A worker that finds its parent gone already (it died while the worker was
+    starting) ends at once. Nothing happens in the run's own process (one job)."""
+    global _WATCHING
+    if _WATCHING or os.getpid() == parent:
+        return
+    if os.getppid() != parent:
+        os._exit(1)
+    _WATCHING = True
+
+    def watch() -> None:
+        while os.getppid() == parent:
+            time.sleep(WATCH_INTERVAL)
+        os._exit(1)
+
+    threading.Thread(target=watch, name="workbench-parent-watch", daemon=True).start()
+
+
 def _work(
-    study: Study, group: list[Chunk]
+    study: Study, group: list[Chunk], parent: int | None = None
 ) -> tuple[list[tuple[Chunk, dict, float]], Exception | None]:
     """Run a group's chunks in turn: what finished, and the error that stopped the rest (so
-    that the chunks finished before it are still written)."""
+    that the chunks finished before it are still written). ``parent`` is the pid of the run's
+    process, which a worker on this machine watches (None on a Dask cluster)."""
+    if parent is not None:
+        _watch_parent(parent)
     out = []
     for chunk in group:
         start = time.perf_counter()
@@ -184,14 +449,73 @@ def _parallel(
 
     if not todo:
         return
-    n_jobs = -1 if distributed else (jobs or os.cpu_count() or 1)
+    groups = _groups(study, todo)
+    # No more local workers than tasks: each one gets a task at once, and with it the watch
+    # on the run's process (an idle worker ends after loky's idle timeout).
+    n_jobs = -1 if distributed else min(jobs or os.cpu_count() or 1, len(groups))
     parallel = joblib.Parallel(
         n_jobs=n_jobs, return_as="generator_unordered", batch_size=1, pre_dispatch="2*n_jobs"
     )
-    for finished, err in parallel(joblib.delayed(_work)(study, g) for g in _groups(study, todo)):
+    parent = None if distributed else os.getpid()
+    tasks = (joblib.delayed(_work)(study, g, parent) for g in groups)
+    for finished, err in parallel(tasks):
         yield from finished
         if err is not None:
             raise err
+
+
+def _write_chunk(study: Study, out: Path, chunk: Chunk, result: dict) -> str:
+    """Write a chunk file (results and record) atomically; returns its SHA-256."""
+    buffer = io.BytesIO()
+    np.savez(buffer, **result, **_record(study, chunk))
+    data = buffer.getvalue()
+    with atomic_path(_chunk_path(out, chunk)) as tmp:
+        tmp.write_bytes(data)
+    return hashlib.sha256(data).hexdigest()
+
+
+def _grid_current(out: Path, manifest: dict) -> bool:
+    """Whether grid.nc is the one last assembled from the listed chunks."""
+    grid = manifest.get("grid")
+    if not isinstance(grid, dict) or not (out / GRID).is_file():
+        return False
+    with _disk(out):
+        return sha256_of(out / GRID) == grid.get("sha256")
+
+
+def _save(out: Path, manifest: dict) -> None:
+    with _disk(out):
+        write_text(out / MANIFEST, json.dumps(manifest, indent=1))
+
+
+def _open_folder(out: Path) -> None:
+    if out.exists() and not out.is_dir():
+        raise _refuse(out, "a folder", "(a file)")
+    with _disk(out):
+        out.mkdir(parents=True, exist_ok=True)
+
+
+@contextlib.contextmanager
+def _locked(out: Path) -> Iterator[None]:
+    """Hold the folder's lock; a refusal inside removes a lock file this run created."""
+    lock = out / LOCK
+    created = not lock.exists()
+    with contextlib.ExitStack() as stack:
+        try:
+            with _disk(out):
+                stack.enter_context(folder_lock(lock))
+        except FolderBusy as busy:
+            holder = f"process {busy.pid}" if busy.pid else "another process"
+            raise _refuse(
+                out, "a folder no other run is using", f"locked by {holder} (its lock: {lock})"
+            ) from None
+        try:
+            yield
+        except InputError:
+            if created:
+                with contextlib.suppress(OSError):
+                    lock.unlink()
+            raise
 
 
 def run_study(
@@ -203,33 +527,53 @@ def run_study(
     fresh: bool = False,
     progress: Callable[[int, int], None] | None = None,
 ) -> RunSummary:
-    """Run every chunk not yet on disk, then assemble ``grid.nc``.
+    """Run every chunk not yet on disk (or whose file fails its check), then assemble
+    ``grid.nc`` unless the one there is already assembled from these chunks.
 
     The scheduler (when given) is reached before anything is written, so a wrong address
     leaves the output folder untouched. ``progress(done, total)`` is called with campaign
-    counts as chunks finish.
+    counts as chunks finish. Raises :class:`InputError` (one line naming the folder) for a
+    folder that is busy, foreign, damaged, read-only or not a folder.
     """
     from .gridfile import assemble
 
     start = time.perf_counter()
     out = Path(out)
     with _backend(scheduler):
-        manifest = prepare(study, out, fresh)
-        every = chunks(study)
-        todo = [c for c in every if not _chunk_path(out, c).exists()]
-        total = sum(c.campaigns for c in every)
-        done = resumed = total - sum(c.campaigns for c in todo)
-        if progress:
-            progress(done, total)
-        for chunk, result, seconds in _parallel(study, todo, jobs, scheduler is not None):
-            with atomic_path(_chunk_path(out, chunk)) as tmp:
-                with open(tmp, "wb") as fh:
-                    np.savez(fh, **result)
-            manifest["chunk_seconds"][chunk.key] = round(seconds, 4)
-            write_text(out / MANIFEST, json.dumps(manifest, indent=1))
-            done += chunk.campaigns
-            if progress:
-                progress(done, total)
-    lowest = assemble(study, out / CHUNKS, out / GRID, every)
+        _open_folder(out)
+        with _locked(out):
+            manifest, new = prepare(study, out, fresh)
+            every = chunks(study)
+            todo, recomputed = _sort(study, out, manifest, every)
+            total = sum(c.campaigns for c in every)
+            done = resumed = total - sum(c.campaigns for c in todo)
+            current = not todo and not new and _grid_current(out, manifest)
+            _remove_stale_parts(out)
+            if current:
+                # Nothing to do: nothing is written (a finished folder may be read-only).
+                lowest = {k: float(v) for k, v in manifest["grid"].get("lowest", {}).items()}
+                if progress:
+                    progress(done, total)
+            else:
+                with _disk(out):
+                    (out / CHUNKS).mkdir(exist_ok=True)
+                manifest.pop("grid", None)
+                _save(out, manifest)
+                if progress:
+                    progress(done, total)
+                for chunk, result, seconds in _parallel(study, todo, jobs, scheduler is not None):
+                    with _disk(out):
+                        sha = _write_chunk(study, out, chunk, result)
+                    manifest["chunks"][chunk.key] = {"sha256": sha, "seconds": round(seconds, 4)}
+                    _save(out, manifest)
+                    done += chunk.campaigns
+                    if progress:
+                        progress(done, total)
+                with _disk(out):
+                    lowest = assemble(study, out / CHUNKS, out / GRID, every)
+                    manifest["grid"] = {"sha256": sha256_of(out / GRID), "lowest": lowest}
+                _save(out, manifest)
     below = {k: v for k, v in lowest.items() if v < -BELOW_MINIMUM}
-    return RunSummary(len(every), total, resumed, out / GRID, time.perf_counter() - start, below)
+    return RunSummary(
+        len(every), total, resumed, out / GRID, time.perf_counter() - start, below, recomputed
+    )
