@@ -38,7 +38,6 @@ __all__ = [
     "StrategyFactors",
     "Study",
     "load",
-    "parse_decision",
     "parse_text",
 ]
 
@@ -230,13 +229,6 @@ def parse_text(
         return _parse(doc, text, name, where, base)
     except InputError as err:
         raise err.located(where) from None
-
-
-def parse_decision(text: str) -> Decision:
-    """The [decision] table of a study's text alone (what the analysis needs from a grid's
-    study, without reading the files its landscapes name)."""
-    doc = tomllib.loads(text)
-    return _decision(doc.get("decision", {}), _distortions(doc.get("distortion", {})))
 
 
 def _parse(doc: dict, text: str, name: str, where: str, base: Path) -> Study:
