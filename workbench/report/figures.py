@@ -85,9 +85,7 @@ def marginal_panels(axes: Sequence, curves: Sequence[MarginalCurve]) -> None:
                 ax.axvline(c.optimum, color="black", linewidth=1.2)
         else:
             for k, (label, density) in enumerate(c.densities.items()):
-                ax.plot(
-                    c.x, density, _STYLES[k % 4], color=colours[k], label=label, linewidth=1.6
-                )
+                ax.plot(c.x, density, _STYLES[k % 4], color=colours[k], label=label, linewidth=1.6)
             if c.log:
                 _log_axis(ax)
             ax.set_ylabel("density (per unit of range)")
