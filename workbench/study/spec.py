@@ -26,7 +26,10 @@ from ..validation import (
     raw,
 )
 from ..world import beliefs as bl
+from ..world import kinds, surfaces
+from ..world import landscapes as ls
 from ..world.distortions import EXACT, MISPLACE, Distortion
+from ..world.history import GOALS, read_history
 from ..world.space import Categorical, Continuous, Integer, Space
 from .decay import Schedule, parse
 
@@ -380,7 +383,6 @@ def _landscapes(entries, space: Space | None, base: Path) -> tuple[LandscapeEntr
 
 
 def _textbook(entry, key, space, noise) -> LandscapeEntry:
-    from ..world import landscapes as ls
 
     name = check_choice(entry["name"], f"{key}.name", ls.catalogue())
     dim = entry.get("dim")
@@ -406,8 +408,6 @@ def _textbook(entry, key, space, noise) -> LandscapeEntry:
 
 
 def _drawn(entry, key, space, noise) -> LandscapeEntry:
-    from ..world import kinds, surfaces
-    from ..world import landscapes as ls
 
     table = check_table(entry["drawn"], f"{key}.drawn")
     check_keys(table, f"{key}.drawn", ("smoothness", "length_scale", "features"))
@@ -441,21 +441,17 @@ def _drawn(entry, key, space, noise) -> LandscapeEntry:
 
 def _features(table, key) -> int:
     """Random Fourier features of a drawn or fitted surface."""
-    from ..world import surfaces
 
     value = table.get("features", surfaces.DEFAULT_FEATURES)
     return check_number(value, f"{key}.features", low=16, high=65536, integer=True)
 
 
 def _goal(entry, key) -> str:
-    from ..evidence.history import GOALS
 
     return check_choice(entry.get("goal", "minimise"), f"{key}.goal", GOALS)
 
 
 def _fitted(entry, key, space, noise, base) -> LandscapeEntry:
-    from ..evidence.history import read_history
-    from ..world import kinds
 
     file = check_string(entry["data"], f"{key}.data")
     if "response" not in entry:
@@ -474,7 +470,6 @@ def _fitted(entry, key, space, noise, base) -> LandscapeEntry:
 
 
 def _objective(entry, key, space, noise, base) -> LandscapeEntry:
-    from ..world import kinds
 
     goal = _goal(entry, key)
     path, name = kinds.find_function(entry["objective"], base, None, f"{key}.objective")
