@@ -343,6 +343,14 @@ def _parse(
             check_choice(b, "baselines", BASELINES)
             for b in check_sequence(baselines, "baselines", min_length=0, unique=True)
         )
+    for d in distortions:
+        for entry in landscapes:
+            if d.direction is not None and len(d.direction) != entry.dim:
+                raise InputError(
+                    f"distortion.{d.name}.direction",
+                    f"{entry.dim} component(s), one per parameter of landscape {entry.label}",
+                    list(d.direction),
+                )
     decision = _decision(doc.get("decision", {}), distortions)
     multiple = check_number(doc.get("random_multiple", 1), "random_multiple", low=1, integer=True)
     block = check_number(doc.get("block", 8), "block", low=1, integer=True)

@@ -7,6 +7,7 @@ cube-level values and raise plain errors, which these functions turn into the ke
 
 from __future__ import annotations
 
+import warnings
 from dataclasses import dataclass, replace
 from pathlib import Path
 from typing import Any
@@ -267,7 +268,13 @@ def belief_table(table, space: Space | None):
     marginals = []
     for p in space.parameters:
         spec = table.get(p.name, {"uniform": True})
-        marginals.append(_marginal(p, check_table(spec, f"belief.{p.name}"), f"belief.{p.name}"))
+        key = f"belief.{p.name}"
+        try:
+            marginals.append(_marginal(p, check_table(spec, key), key))
+        except InputError:
+            raise
+        except ValueError as err:  # a constructor's own check, should the parser miss one
+            raise InputError(key, "a possible belief", raw(str(err))) from None
     return bl.Product(tuple(marginals)), 0.0
 
 
@@ -276,7 +283,10 @@ def _marginal(p, spec: dict, key: str):
     discrete = isinstance(p, (Integer, Categorical))
     if "probabilities" in spec:
         check_keys(spec, key, ("probabilities",))
-        return bl.probabilities_for(p, spec["probabilities"], key=key)
+        probabilities = _probabilities(p, spec["probabilities"], key)
+        with warnings.catch_warnings():  # the parser's warning names the key instead
+            warnings.simplefilter("ignore", UserWarning)
+            return bl.probabilities_for(p, probabilities)
     if "uniform" in spec:
         check_keys(spec, key, ("uniform",))
         if spec["uniform"] is not True:
@@ -311,14 +321,66 @@ def _marginal(p, spec: dict, key: str):
                 required=("centre", "weight"),
             )
             weights.append(check_number(part["weight"], f"{pkey}.weight", low=0.0))
-            g = {k: v for k, v in part.items() if k not in ("weight", "centre")}
-            parts.append(bl.gaussian_for(p, part["centre"], key=pkey, **g))
+            parts.append(_gaussian(p, part, pkey))
+        if not any(weights):
+            raise InputError(f"{key}.mixture", "weights that are not all 0", raw("all 0"))
         return bl.Mixture(tuple(parts), tuple(weights))
     if "centre" in spec:
         check_keys(spec, key, ("centre", "spread", "within", "factor"))
-        g = {k: v for k, v in spec.items() if k != "centre"}
-        return bl.gaussian_for(p, spec["centre"], key=key, **g)
+        return _gaussian(p, spec, key)
     raise InputError(key, "one of " + ", ".join(_BELIEF_KEYS), raw("none of them"))
+
+
+def _gaussian(p, spec, key: str):
+    """A Gaussian marginal from ``centre`` and one of ``spread``, ``within``, ``factor``."""
+    given = [k for k in ("spread", "within", "factor") if k in spec]
+    if len(given) != 1:
+        raise InputError(
+            key, "exactly one of 'spread', 'within', 'factor'", raw(", ".join(given) or "none")
+        )
+    (how,) = given
+    centre = check_number(spec["centre"], f"{key}.centre", low=p.lower, high=p.upper)
+    log = isinstance(p, Continuous) and p.log
+    if how == "within" and log:
+        raise InputError(f"{key}.within", "'factor' on a log-scale parameter", raw("'within'"))
+    if how == "factor" and not log:
+        raise InputError(
+            f"{key}.factor", "'within' or 'spread' on a linear parameter", raw("'factor'")
+        )
+    if how == "factor":
+        value = check_number(spec[how], f"{key}.factor", low=1.0, closed="neither")
+    else:
+        value = check_number(spec[how], f"{key}.{how}", low=0.0, closed="right")
+    return bl.gaussian_for(p, centre, **{how: value})
+
+
+def _probabilities(p, probabilities, key: str):
+    """A discrete parameter's probabilities (a list, or a table by level), each checked."""
+    if isinstance(p, Continuous):
+        raise InputError(
+            key,
+            "a Gaussian, Beta or uniform belief on a continuous parameter",
+            raw("probabilities"),
+        )
+    key = f"{key}.probabilities"
+    labels = bl.level_labels(p)
+    if isinstance(probabilities, dict):
+        for name in probabilities:
+            if str(name) not in labels:
+                check_choice(str(name), key, labels)
+        values = list(probabilities.values())
+    else:
+        if not isinstance(probabilities, list) or len(probabilities) != len(labels):
+            raise InputError(key, f"a list of {len(labels)} probabilities", probabilities)
+        values = probabilities
+    for v in values:
+        check_number(v, key, low=0.0)
+    total = float(sum(values))
+    if total <= 0:
+        raise InputError(key, "a list that is not all zero", values)
+    if abs(total - 1.0) > 1e-9:
+        warnings.warn(f"{key} sum to {total:g}; normalised to 1", stacklevel=2)
+    return probabilities
 
 
 def _points_belief(points, space: Space):
