@@ -51,9 +51,9 @@ from ..storage import atomic_path
 from ..world.marginals import GRID_POINTS, marginal_curves
 from .cells import SEVERITY_RADIUS, Cell
 from .grid import Chunk, settings, split
-from .spec import Study
+from .spec import Decision, Study
 
-__all__ = ["BASELINE_DIMS", "BELIEF_LANDSCAPES", "GUIDED_DIMS", "assemble"]
+__all__ = ["BASELINE_DIMS", "BELIEF_LANDSCAPES", "GUIDED_DIMS", "assemble", "decision_attributes"]
 
 # The report draws the beliefs of this many landscapes (the first ones).
 BELIEF_LANDSCAPES = 4
@@ -173,10 +173,18 @@ def _define(ds, study: Study) -> None:
         "prior-weighted ignores the quantile: its values repeat across quantile levels; "
         "no-belief and random ignore the belief: theirs repeat across distortions"
     )
-    ds.decision_rule = study.decision.rule
-    ds.decision_weights = json.dumps({k: float(v) for k, v in study.decision.weights.items()})
-    ds.decision_level = float(study.decision.level)
-    ds.decision_metric = study.decision.metric
+    ds.setncatts(decision_attributes(study.decision))
+
+
+def decision_attributes(decision: Decision) -> dict:
+    """The study's decision rule as the grid file's attributes (what
+    :func:`workbench.analysis.decision_rule` reads back)."""
+    return {
+        "decision_rule": decision.rule,
+        "decision_weights": json.dumps({k: float(v) for k, v in decision.weights.items()}),
+        "decision_level": float(decision.level),
+        "decision_metric": decision.metric,
+    }
 
 
 def _write_beliefs(ds, study: Study) -> None:

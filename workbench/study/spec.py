@@ -33,6 +33,7 @@ __all__ = [
     "BASELINES",
     "BELIEF_STRATEGIES",
     "DESIGNS",
+    "Decision",
     "LandscapeEntry",
     "StrategyFactors",
     "Study",
