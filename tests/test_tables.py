@@ -24,8 +24,8 @@ from sklearn.datasets import load_breast_cancer, load_diabetes
 from sklearn.linear_model import LinearRegression
 from sklearn.model_selection import cross_val_score
 
-from workbench.evidence.history import read_history
 from workbench.study.spec import load
+from workbench.world.history import read_history
 
 TABLES = Path(__file__).resolve().parents[1] / "benchmarks" / "tables"
 

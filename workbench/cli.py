@@ -104,97 +104,32 @@ def _write_belief_figure(s, path: Path) -> Path:
 
 
 def _simulation_study(args):
-    """A one-cell study built from the command line (every value validated, keys = options)."""
-    from .engine.strategies import STRATEGIES, belief_strategies
-    from .study.decay import parse
-    from .study.spec import Decision, LandscapeEntry, StrategyFactors, Study
-    from .validation import check_choice, check_number
-    from .world import landscapes as ls
-    from .world.distortions import EXACT, MISPLACE, Distortion
+    """The one-cell study of the command line (parsed by the study file's parser; errors name
+    the option) and the settings it ran, for the JSON output."""
+    from .study.spec import parse_simulation
 
-    where = "command line"
-    try:
-        name = check_choice(args.strategy, "--strategy", list(STRATEGIES))
-        land = ls.get(args.landscape, args.dim)
-        budget = check_number(args.budget, "--budget", low=2, integer=True)
-        replicates = check_number(args.replicates, "--replicates", low=1, integer=True)
-        seed = check_number(args.seed, "--seed", low=0, integer=True)
-        spread = check_number(args.belief_spread, "--belief-spread", low=0, closed="right")
-        quantile = check_number(args.quantile, "--quantile", low=0, high=1, closed="neither")
-        exploration = check_number(args.exploration, "--exploration", low=0, high=1)
-        target = check_number(args.target, "--target", low=0, high=1, closed="right")
-        noise = check_number(args.noise, "--noise", low=0)
-        multiple = check_number(args.random_multiple, "--random-multiple", low=1, integer=True)
-        decay = parse(args.decay, "--decay")
-        kind, _, size = args.initial.partition(":")
-        kind = check_choice(kind, "--initial", ("belief", "sobol", "lhs"))
-        n0 = None
-        if size:
-            if not size.isdigit():
-                raise InputError(
-                    "--initial", "'kind' or 'kind:N' with a whole number N", args.initial
-                )
-            n0 = check_number(int(size), "--initial", low=1, integer=True)
-        if budget <= (n0 if n0 is not None else land.dim + 1):
-            raise InputError(
-                "--budget", f"larger than the initial design ({n0 or land.dim + 1})", budget
-            )
-        shift = check_number(args.shift, "--shift", low=0)
-        scale = check_number(args.scale, "--scale", low=0, closed="right")
-        if args.misplace is not None:
-            check_choice(args.misplace, "--misplace", MISPLACE)
-        distortion = Distortion("distorted", shift, scale, args.misplace)
-        if distortion.is_exact:
-            distortion = EXACT
-    except InputError as err:
-        raise err.located(where) from None
-    guided = name in belief_strategies()
-    entry = LandscapeEntry(land.name, land.dim, noise, land.name)
-    study = Study(
-        name="simulate",
-        title=f"{name} on {land.name}",
-        text=" ".join(sys.argv),
-        budget=budget,
-        replicates=replicates,
-        seed=seed,
-        target=target,
-        initial=(kind,),
-        initial_size=n0,
-        landscapes=(entry,),
-        space=None,
-        belief=None,
-        spread=spread,
-        distortions=(distortion,),
-        strategies=(StrategyFactors(name, (decay,), (quantile,), (exploration,)),)
-        if guided
-        else (),
-        baselines=() if guided else (name,),
-        placement=args.placement,
-        questions=(),
-        decision=Decision(),
-        path=where,
-        random_multiple=multiple,
-    )
+    study, factors = parse_simulation(vars(args), text=" ".join(sys.argv))
+    entry, distortion = study.landscapes[0], study.distortions[0]
     settings = {
-        "strategy": name,
-        "landscape": land.name,
-        "dim": land.dim,
-        "budget": budget,
-        "replicates": replicates,
-        "seed": seed,
-        "belief_spread": spread,
-        "shift": shift,
-        "scale": scale,
-        "misplace": args.misplace,
-        "decay": str(decay),
-        "quantile": quantile,
-        "exploration": exploration,
-        "initial": kind,
-        "initial_size": n0 if n0 is not None else land.dim + 1,
-        "target": target,
-        "noise": noise,
-        "placement": args.placement,
-        "random_multiple": multiple,
+        "strategy": factors.name,
+        "landscape": entry.name,
+        "dim": entry.dim,
+        "budget": study.budget,
+        "replicates": study.replicates,
+        "seed": study.seed,
+        "belief_spread": study.spread,
+        "shift": distortion.shift,
+        "scale": distortion.scale,
+        "misplace": distortion.misplace,
+        "decay": str(factors.decay[0]),
+        "quantile": factors.quantile[0],
+        "exploration": factors.exploration[0],
+        "initial": study.initial[0],
+        "initial_size": study.design_size(entry.dim),
+        "target": study.target,
+        "noise": entry.noise,
+        "placement": study.placement,
+        "random_multiple": study.random_multiple,
     }
     return study, settings
 

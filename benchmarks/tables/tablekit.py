@@ -1,6 +1,6 @@
 """What the table builders share: geometric grids, the table file and its random rows.
 
-A table is a data CSV that ``workbench.evidence.history.read_history`` accepts: comment lines
+A table is a data CSV that ``workbench.world.history.read_history`` accepts: comment lines
 starting with ``#`` (where the numbers come from and how to rebuild them), a header with one
 column per parameter in user units and one response column, then one row per configuration.
 """

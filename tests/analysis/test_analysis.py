@@ -12,6 +12,7 @@ from workbench import analysis as an
 from workbench.analysis import metrics
 from workbench.cli import main
 from workbench.study import gridfile
+from workbench.study.spec import parse_text
 from workbench.validation import InputError
 
 BUDGET = 12
@@ -101,6 +102,8 @@ def hand_grid(guided_ett: np.ndarray, baseline_ett: np.ndarray, study: str = STU
             "budget": BUDGET,
             "target": TARGET,
             "version": "test",
+            # The rule as the run stores it: nothing after the run parses the study text.
+            **gridfile.decision_attributes(parse_text(study).decision),
         },
     )
 

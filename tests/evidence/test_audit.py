@@ -10,9 +10,9 @@ from scipy.stats import qmc
 
 from workbench.cli import main
 from workbench.evidence.audit import CONSISTENT_AT, audit
-from workbench.evidence.history import History
 from workbench.world import landscapes as ls
 from workbench.world.beliefs import gaussian_at, highest_density_level
+from workbench.world.history import History
 
 
 def _history(placement, n: int = 64, seed: int = 3) -> History:

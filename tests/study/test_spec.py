@@ -166,3 +166,42 @@ def test_the_landscape_catalogue_prints_as_json(capsys):
     branin = next(r for r in rows if r["name"] == "branin")
     # Dixon & Szegő (1978); Surjanovic & Bingham (2013): Branin f* = 0.397887.
     assert branin["minimum"] == pytest.approx(0.397887, rel=1e-4)
+
+
+@pytest.mark.parametrize(
+    "old, new, key",
+    [
+        ("probabilities = [0.1, 0.6, 0.2, 0.1]", "probabilities = [-0.1, 1.1, 0, 0]", "passes"),
+        ("probabilities = [0.1, 0.6, 0.2, 0.1]", "probabilities = [0, 0, 0, 0]", "passes"),
+        ("probabilities = [0.1, 0.6, 0.2, 0.1]", "probabilities = [0.5, 0.5]", "passes"),
+        ("{ epoxy = 0.7, acrylic = 0.3 }", "{ epoxi = 0.7 }", "primer.probabilities"),
+        ("centre = 2\nfactor = 2", "centre = 2\nwithin = 1", "speed.within"),
+        ("centre = 165\nwithin = 10", "centre = 165\nfactor = 2", "cure.factor"),
+        ("centre = 165\nwithin = 10", "centre = 250\nwithin = 10", "cure.centre"),
+        ("centre = 165\nwithin = 10", "centre = 165\nwithin = 0", "cure.within"),
+        ("centre = 165\nwithin = 10", "centre = 165", "belief.cure"),
+    ],
+)
+def test_impossible_beliefs_are_refused_under_their_key(old, new, key):
+    with pytest.raises(InputError) as info:
+        make_study(USER.replace(old, new))
+    assert key in info.value.key and "test.toml" in str(info.value)
+
+
+@pytest.mark.parametrize(
+    "table, key",
+    [
+        ("shifted = { shift = -0.1 }", "distortion.shifted.shift"),
+        ("wide = { scale = 0 }", "distortion.wide.scale"),
+        ("moved = { misplace = 'worse' }", "distortion.moved.misplace"),
+        ("pushed = { shift = 0.1, direction = [0, 0] }", "distortion.pushed.direction"),
+        ("pushed = { shift = 0.1, direction = [1, 0, 0] }", "distortion.pushed.direction"),
+        ("factorial = { shift = [0.1, -1], scale = [1.0] }", "distortion.factorial.shift"),
+    ],
+)
+def test_impossible_distortions_are_refused_by_the_parser_under_their_key(table, key):
+    # Checked once, by the parser; the shekel5 landscape has 4 parameters, so a direction of 3
+    # components does not fit it.
+    with pytest.raises(InputError) as info:
+        make_study(USER + f"[distortion]\n{table}\n")
+    assert info.value.key == key

@@ -58,6 +58,18 @@ def parse_weights(text: str, distortions: Sequence[str], key: str = "--weights")
     return out
 
 
+def stored_decision(ds: xr.Dataset) -> dict:
+    """The study's [decision] table as the grid file stores it (attributes written at run time;
+    a grid without them gives the defaults: expected evaluations to target, equal weights)."""
+    a = ds.attrs
+    return {
+        "rule": str(a.get("decision_rule", "expected")),
+        "weights": json.loads(a.get("decision_weights", "{}")),
+        "level": float(a.get("decision_level", 0.25)),
+        "metric": str(a.get("decision_metric", "evaluations_to_target")),
+    }
+
+
 def decision_rule(
     ds: xr.Dataset,
     rule: str | None = None,
@@ -65,16 +77,14 @@ def decision_rule(
     level: float | None = None,
     metric: str | None = None,
 ) -> Rule:
-    """The decision rule: given values, else the study's [decision] table, else expected
-    evaluations to target with equal weights. Weights name distortions of the grid; unnamed
-    distortions get weight 0; they must not all be 0."""
-    from ..study.spec import parse_decision
-
-    decision = parse_decision(ds.attrs["study"]) if "study" in ds.attrs else None
+    """The decision rule: given values, else the study's [decision] table (stored in the grid,
+    :func:`stored_decision`), else expected evaluations to target with equal weights. Weights
+    name distortions of the grid; unnamed distortions get weight 0; they must not all be 0."""
+    decision = stored_decision(ds)
     names = coordinate_names(ds, "distortion")
-    rule = check_choice(rule if rule is not None else decision.rule, "--rule", RULES)
-    metric = check_choice(metric if metric is not None else decision.metric, "--metric", METRICS)
-    level = level if level is not None else decision.level
+    rule = check_choice(rule if rule is not None else decision["rule"], "--rule", RULES)
+    metric = check_choice(metric if metric is not None else decision["metric"], "--metric", METRICS)
+    level = level if level is not None else decision["level"]
     level = check_number(level, "--level", low=0.0, high=1.0, closed="right")
     if isinstance(weights, str):
         weights = parse_weights(weights, names)
@@ -83,7 +93,7 @@ def decision_rule(
             check_choice(k, "--weights", names)
             check_number(v, f"--weights {k}", low=0.0)
     else:
-        weights = dict(decision.weights) if decision is not None else {}
+        weights = dict(decision["weights"])
     if not weights:
         weights = dict.fromkeys(names, 1.0)
     total = float(sum(weights.values()))

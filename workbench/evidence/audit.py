@@ -30,7 +30,7 @@ import numpy as np
 
 from ..world import kinds
 from ..world.beliefs import highest_density_level, mass_within
-from .history import History
+from ..world.history import History
 
 __all__ = [
     "CONSISTENT_AT",

@@ -44,7 +44,7 @@ def _history(study, file: str, response: str | None, goal: str | None, min_rows=
     """Evaluations in ``file``; the response and goal default to those of the study's fitted
     landscape (the one reading a file of the same name, if several)."""
     from ..validation import check_choice
-    from .history import GOALS, read_history
+    from ..world.history import GOALS, read_history
 
     fitted = [e.spec for e in study.landscapes if e.kind == "fitted"]
     same = [f for f in fitted if f.source.endswith(f" in {Path(file).name}")]

@@ -10,12 +10,14 @@ from collections.abc import Mapping, Sequence
 
 import numpy as np
 
-from ..world.space import Categorical, Continuous, Space
+from ..world.marginals import GRID_POINTS, MarginalCurve, marginal_curves
+from ..world.space import Space
 
 __all__ = [
     "belief_marginals",
     "distortion_probabilities",
     "evidence_marginals",
+    "marginal_panels",
     "regret_curves",
     "robustness_frontier",
     "sensitivity_heatmap",
@@ -47,24 +49,29 @@ def belief_marginals(
     space: Space,
     beliefs: Mapping[str, object],
     optimum: np.ndarray | None = None,
-    grid: int = 401,
+    grid: int = GRID_POINTS,
 ) -> None:
-    """One panel per parameter: the marginal density of every named belief in user units.
+    """One panel per parameter: the marginal density of every named belief in user units
+    (:func:`marginal_panels` of :func:`~workbench.world.marginals.marginal_curves`).
+    ``optimum`` (a cube point) is marked as a vertical line."""
+    marginal_panels(axes, marginal_curves(space, beliefs, optimum, grid))
+
+
+def marginal_panels(axes: Sequence, curves: Sequence[MarginalCurve]) -> None:
+    """One panel per :class:`~workbench.world.marginals.MarginalCurve`.
 
     Continuous parameters show density per unit of the normalised range against the user's
     values (log axis for log-scale parameters); discrete ones show grouped bars of probability.
-    ``optimum`` (a cube point) is marked as a vertical line.
+    The optimum, when known, is a vertical line.
     """
-    colours = _colours(len(beliefs))
-    u = np.linspace(0.0, 1.0, grid)
-    for j, (ax, p) in enumerate(zip(axes, space.parameters, strict=True)):
-        if p.levels:
-            centres = (np.arange(p.levels) + 0.5) / p.levels
-            width = 0.8 / max(len(beliefs), 1)
-            for k, (label, belief) in enumerate(beliefs.items()):
-                probs = np.exp(belief.marginal(j).logpdf(centres)) / p.levels
+    for ax, c in zip(axes, curves, strict=True):
+        colours = _colours(len(c.densities))
+        if c.discrete:
+            n = len(c.densities)
+            width = 0.8 / max(n, 1)
+            for k, (label, probs) in enumerate(c.densities.items()):
                 ax.bar(
-                    np.arange(p.levels) + (k - (len(beliefs) - 1) / 2) * width,
+                    c.x + (k - (n - 1) / 2) * width,
                     probs,
                     width,
                     label=label,
@@ -72,34 +79,19 @@ def belief_marginals(
                     edgecolor="black",
                     linewidth=0.4,
                 )
-            labels = (
-                p.choices
-                if isinstance(p, Categorical)
-                else [str(v) for v in range(p.lower, p.upper + 1)]
-            )
-            ax.set_xticks(np.arange(p.levels), labels, rotation=30 if p.levels > 6 else 0)
+            ax.set_xticks(c.x, c.labels, rotation=30 if len(c.labels) > 6 else 0)
             ax.set_ylabel("probability")
-            if optimum is not None:
-                ax.axvline(int(p.from_unit(optimum[j])), color="black", linewidth=1.2)
+            if c.optimum is not None:
+                ax.axvline(c.optimum, color="black", linewidth=1.2)
         else:
-            x = p.from_unit(u)
-            for k, (label, belief) in enumerate(beliefs.items()):
-                ax.plot(
-                    x,
-                    np.exp(belief.marginal(j).logpdf(u)),
-                    _STYLES[k % 4],
-                    color=colours[k],
-                    label=label,
-                    linewidth=1.6,
-                )
-            if isinstance(p, Continuous) and p.log:
+            for k, (label, density) in enumerate(c.densities.items()):
+                ax.plot(c.x, density, _STYLES[k % 4], color=colours[k], label=label, linewidth=1.6)
+            if c.log:
                 _log_axis(ax)
             ax.set_ylabel("density (per unit of range)")
-            if optimum is not None:
-                ax.axvline(
-                    float(p.from_unit(optimum[j])), color="black", linewidth=1.2, label="optimum"
-                )
-        ax.set_xlabel(f"{p.name} [{p.unit}]" if p.unit else p.name)
+            if c.optimum is not None:
+                ax.axvline(c.optimum, color="black", linewidth=1.2, label="optimum")
+        ax.set_xlabel(f"{c.name} [{c.unit}]" if c.unit else c.name)
         ax.set_ylim(bottom=0)
         ax.grid(alpha=0.3, linewidth=0.5)
     axes[0].legend(frameon=False, fontsize="small")

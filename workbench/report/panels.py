@@ -1,13 +1,12 @@
-"""The report's figures, drawn from the computed content (and, for the belief marginals, from
-the study's cells: no campaign runs).
+"""The report's figures, drawn from the computed content and, for the belief marginals, from
+the curves the grid file stores (nothing here reads the study or its files).
 """
 
 from __future__ import annotations
 
 import io
+import json
 import math
-
-import numpy as np
 
 from .. import analysis as an
 from .content import DPI, Content, pct
@@ -116,19 +115,49 @@ def report_figures(c: Content) -> list[tuple[str, str, str, bytes]]:
     return out
 
 
+def _stored_curves(ds) -> list[tuple[str, list]]:
+    """(landscape label, marginal curves) of every landscape whose beliefs the grid stores
+    (written at run time; a grid without them gives none)."""
+    from ..world.marginals import MarginalCurve
+
+    if "belief_parameters" not in ds.attrs or "belief_density" not in ds:
+        return []
+    out = []
+    distortions = [str(d) for d in ds["distortion"].values]
+    for li, parameters in enumerate(json.loads(ds.attrs["belief_parameters"])):
+        if parameters is None:
+            continue
+        curves = []
+        for j, p in enumerate(parameters):
+            n = len(p["labels"]) or ds.sizes["belief_grid"]
+            x = ds["belief_x"].values[li, j, :n]
+            densities = {
+                name: ds["belief_density"].values[li, d, j, :n]
+                for d, name in enumerate(distortions)
+            }
+            at = float(ds["belief_optimum"].values[li, j])
+            curves.append(
+                MarginalCurve(
+                    p["name"],
+                    p["unit"],
+                    bool(p["log"]),
+                    tuple(p["labels"]),
+                    x,
+                    densities,
+                    None if math.isnan(at) else at,
+                )
+            )
+        out.append((str(ds["landscape"].values[li]), curves))
+    return out
+
+
 def _belief_figure(c: Content):
-    from ..study.cells import Cell
-    from ..study.spec import parse_text
-    from ..validation import InputError
     from . import figures as fg
 
-    try:
-        # Files the study names (earlier evaluations, an objective) are found beside it.
-        study = parse_text(c.ds.attrs["study"], where=c.ds.attrs.get("study_path", "<study>"))
-        landscapes = range(min(len(study.landscapes), 4))
-        dims = [Cell(study, li, 0, 0).space.dim for li in landscapes]
-    except InputError:
-        return None  # the files have moved since the run: no belief figure
+    stored = _stored_curves(c.ds)
+    if not stored:
+        return None
+    dims = [len(curves) for _, curves in stored]
     ncols = max(dims)
     if ncols > 6:
         return None
@@ -141,22 +170,11 @@ def _belief_figure(c: Content):
         squeeze=False,
         layout="constrained",
     )
-    for row, li in enumerate(landscapes):
-        cells = [Cell(study, li, d, 0) for d in range(len(study.distortions))]
-        beliefs = {"exact": cells[0].exact_belief}
-        for cell in cells:
-            name = study.distortions[cell.distortion].name
-            if name != "exact":
-                beliefs[name] = cell.belief
-        fg.belief_marginals(
-            list(axes[row][: dims[row]]),
-            cells[0].space,
-            beliefs,
-            optimum=np.asarray(cells[0].placement.minimisers[0]),
-        )
+    for row, (label, curves) in enumerate(stored):
+        fg.marginal_panels(list(axes[row][: dims[row]]), curves)
         for ax in axes[row][dims[row] :]:
             ax.set_visible(False)
-        axes[row][0].set_title(f"landscape {study.landscapes[li].label}", loc="left")
+        axes[row][0].set_title(f"landscape {label}", loc="left")
     fig.suptitle("Belief marginals", fontsize="large")
     return (
         "belief_marginals",

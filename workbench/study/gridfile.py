@@ -20,6 +20,16 @@ coordinate). Per landscape: ``landscape_kind`` (textbook, drawn, fitted, objecti
 ``landscape_noise`` and ``minimum_estimated`` (1 where the minimum comes from a search rather
 than a publication or the user).
 
+What the report draws and decides from, written at run time so that nothing after the run
+reads the study or its files: the decision rule as attributes ``decision_rule``,
+``decision_weights`` (JSON), ``decision_level`` and ``decision_metric``; the belief marginals of
+replicate 0 of the first :data:`BELIEF_LANDSCAPES` landscapes (see
+:mod:`workbench.world.marginals`): ``belief_x`` over (landscape, coordinate, belief_grid),
+``belief_density`` over (landscape, distortion, coordinate, belief_grid) (discrete parameters:
+level probabilities in the first k points), ``belief_optimum`` over (landscape, coordinate), and
+the attribute ``belief_parameters`` (JSON: per landscape, its parameters' name, unit, log scale
+and level labels; null for a landscape not drawn).
+
 Repeats, by design: prior-weighted ignores the quantile, so its values repeat across the
 ``quantile`` levels; no-belief and random ignore the belief, so theirs repeat across
 ``distortion``. NaN marks a combination the study does not run (a decay level of one strategy
@@ -39,11 +49,15 @@ import numpy as np
 from .. import __version__
 from ..engine import strategies as st
 from ..storage import atomic_path
-from .cells import SEVERITY_RADIUS
+from ..world.marginals import GRID_POINTS, marginal_curves
+from .cells import SEVERITY_RADIUS, Cell
 from .grid import Chunk, settings, split
-from .spec import Study
+from .spec import Decision, Study
 
-__all__ = ["BASELINE_DIMS", "GUIDED_DIMS", "assemble"]
+__all__ = ["BASELINE_DIMS", "BELIEF_LANDSCAPES", "GUIDED_DIMS", "assemble", "decision_attributes"]
+
+# The report draws the beliefs of this many landscapes (the first ones).
+BELIEF_LANDSCAPES = 4
 
 _SERIES = (
     "best",
@@ -160,6 +174,57 @@ def _define(ds, study: Study) -> None:
         "prior-weighted ignores the quantile: its values repeat across quantile levels; "
         "no-belief and random ignore the belief: theirs repeat across distortions"
     )
+    ds.setncatts(decision_attributes(study.decision))
+
+
+def decision_attributes(decision: Decision) -> dict:
+    """The study's decision rule as the grid file's attributes (what
+    :func:`workbench.analysis.decision_rule` reads back)."""
+    return {
+        "decision_rule": decision.rule,
+        "decision_weights": json.dumps({k: float(v) for k, v in decision.weights.items()}),
+        "decision_level": float(decision.level),
+        "decision_metric": decision.metric,
+    }
+
+
+def _write_beliefs(ds, study: Study) -> None:
+    """The belief marginals of replicate 0 of the first landscapes (exact and distorted), as the
+    report draws them."""
+    ds.createDimension("belief_grid", GRID_POINTS)
+    x = ds.createVariable(
+        "belief_x", "f8", ("landscape", "coordinate", "belief_grid"), fill_value=np.nan
+    )
+    density = ds.createVariable(
+        "belief_density",
+        "f8",
+        ("landscape", "distortion", "coordinate", "belief_grid"),
+        fill_value=np.nan,
+    )
+    optimum = ds.createVariable(
+        "belief_optimum", "f8", ("landscape", "coordinate"), fill_value=np.nan
+    )
+    parameters: list = []
+    for li in range(len(study.landscapes)):
+        if li >= BELIEF_LANDSCAPES:
+            parameters.append(None)
+            continue
+        cells = [Cell(study, li, d, 0) for d in range(len(study.distortions))]
+        beliefs = {study.distortions[c.distortion].name: c.belief for c in cells}
+        at = np.asarray(cells[0].placement.minimisers[0])
+        curves = marginal_curves(cells[0].space, beliefs, optimum=at)
+        for j, c in enumerate(curves):
+            x[li, j, 0 : len(c.x)] = c.x
+            for d, values in enumerate(c.densities.values()):
+                density[li, d, j, 0 : len(values)] = values
+            optimum[li, j] = np.nan if c.optimum is None else c.optimum
+        parameters.append(
+            [
+                {"name": c.name, "unit": c.unit, "log": c.log, "labels": list(c.labels)}
+                for c in curves
+            ]
+        )
+    ds.belief_parameters = json.dumps(parameters)
 
 
 def _write_replicate(ds, study: Study, chunk: Chunk, r: int, data) -> float:
@@ -241,6 +306,7 @@ def assemble(study: Study, chunk_dir: Path, path: Path, every: list[Chunk]) -> d
     with atomic_path(path) as tmp:
         with netCDF4.Dataset(tmp, "w", format="NETCDF4") as ds:
             _define(ds, study)
+            _write_beliefs(ds, study)
             for chunk in every:
                 with np.load(chunk_dir / f"{chunk.key}.npz") as npz:
                     # Read every array once: an npz member is decompressed on each access.

@@ -9,11 +9,10 @@ from __future__ import annotations
 import hashlib
 import itertools
 import tomllib
-from dataclasses import dataclass, field, replace
+from collections.abc import Mapping
+from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
-
-import numpy as np
 
 from ..engine import strategies as st
 from ..validation import (
@@ -26,19 +25,21 @@ from ..validation import (
     check_table,
     raw,
 )
-from ..world import beliefs as bl
 from ..world.distortions import EXACT, MISPLACE, Distortion
-from ..world.space import Categorical, Continuous, Integer, Space
+from ..world.space import Space
 from .decay import Schedule, parse
+from .tables import LandscapeEntry, belief_table, landscape_tables, space_table
 
 __all__ = [
     "DESIGNS",
+    "Decision",
     "LandscapeEntry",
     "StrategyFactors",
     "Study",
     "load",
-    "parse_decision",
+    "parse_simulation",
     "parse_text",
+    "simulation_document",
 ]
 
 DESIGNS = ("belief", "sobol", "lhs")
@@ -63,34 +64,6 @@ _TOP_KEYS = (
     "block",
 )
 _RULES = ("expected", "minimax", "cvar")
-
-
-@dataclass(frozen=True)
-class LandscapeEntry:
-    """A landscape of the study: name, dimension, observation noise and kind.
-
-    ``noise`` is the observation noise's standard deviation as a fraction of the landscape's
-    reference gap (median minus minimum), so that noise levels compare across landscapes.
-    ``kind`` is one of :data:`workbench.world.kinds.KINDS`; for all but ``textbook``, ``spec``
-    builds each replicate's landscape (:mod:`workbench.world.kinds`).
-    """
-
-    name: str
-    dim: int
-    noise: float = 0.0
-    label: str = ""
-    kind: str = "textbook"
-    spec: Any = None
-
-    def __post_init__(self):
-        if not self.label:
-            object.__setattr__(self, "label", self.name)
-
-    @property
-    def placed_at_belief(self) -> bool:
-        """Whether the truth is moved to the belief's mode (not for fitted landscapes and the
-        user's objective: there the data or the function say where the optimum is)."""
-        return self.kind in ("textbook", "drawn")
 
 
 @dataclass(frozen=True)
@@ -227,14 +200,102 @@ def parse_text(
         raise err.located(where) from None
 
 
-def parse_decision(text: str) -> Decision:
-    """The [decision] table of a study's text alone (what the analysis needs from a grid's
-    study, without reading the files its landscapes name)."""
-    doc = tomllib.loads(text)
-    return _decision(doc.get("decision", {}), _distortions(doc.get("distortion", {})))
+# The simulate command's options and the study keys they fill: an error under a key names the
+# option (longest key first, so that 'initial.size' is not read as 'initial').
+SIMULATION_OPTIONS = {
+    "budget": "--budget",
+    "replicates": "--replicates",
+    "seed": "--seed",
+    "target": "--target",
+    "placement": "--placement",
+    "random_multiple": "--random-multiple",
+    "initial": "--initial",
+    "landscape[0].name": "--landscape",
+    "landscape[0].dim": "--dim",
+    "landscape[0].noise": "--noise",
+    "landscape[0]": "--landscape",
+    "belief.spread": "--belief-spread",
+    "distortion.distorted.shift": "--shift",
+    "distortion.distorted.scale": "--scale",
+    "distortion.distorted.misplace": "--misplace",
+    "strategy": "--strategy",
+}
+_FACTOR_OPTIONS = {"decay": "--decay", "quantile": "--quantile", "exploration": "--exploration"}
 
 
-def _parse(doc: dict, text: str, name: str, where: str, base: Path) -> Study:
+def simulation_document(options: Mapping[str, Any]) -> dict:
+    """The ``simulate`` command's options as a study document: one textbook landscape in its
+    own domain (labelled by its name), a Gaussian belief of ``belief_spread``, one distortion
+    named ``distorted`` (``exact`` when it distorts nothing), one strategy with one level of
+    each factor. ``initial`` is ``design`` or ``design:N``."""
+    design, _, size = str(options["initial"]).partition(":")
+    initial: dict[str, Any] = {"design": [design]}
+    if size:
+        initial["size"] = int(size) if size.isdigit() else size
+    landscape = {"name": options["landscape"], "label": options["landscape"]}
+    landscape["noise"] = options["noise"]
+    if options.get("dim") is not None:
+        landscape["dim"] = options["dim"]
+    distorted = {"shift": options["shift"], "scale": options["scale"]}
+    if options.get("misplace") is not None:
+        distorted["misplace"] = options["misplace"]
+    strategy = options["strategy"]
+    return {
+        "title": f"{strategy} on {options['landscape']}",
+        "budget": options["budget"],
+        "replicates": options["replicates"],
+        "seed": options["seed"],
+        "target": options["target"],
+        "placement": options["placement"],
+        "random_multiple": options["random_multiple"],
+        "initial": initial,
+        "landscape": [landscape],
+        "belief": {"spread": options["belief_spread"]},
+        "distortion": {"distorted": distorted},
+        "strategy": {
+            str(strategy): {
+                "decay": [options["decay"]],
+                "quantile": [options["quantile"]],
+                "exploration": [options["exploration"]],
+            }
+        },
+    }
+
+
+def _option(key: str, strategy: str) -> str:
+    """The command-line option that fills study key ``key``."""
+    for factor, option in _FACTOR_OPTIONS.items():
+        if key == f"strategy.{strategy}.{factor}":
+            return option
+    for prefix, option in sorted(SIMULATION_OPTIONS.items(), key=lambda kv: -len(kv[0])):
+        if key == prefix or key.startswith(prefix + "."):
+            return option
+    return key
+
+
+def parse_simulation(
+    options: Mapping[str, Any], *, text: str = ""
+) -> tuple[Study, StrategyFactors]:
+    """The one-cell study of the ``simulate`` command, parsed by the study file's parser from
+    :func:`simulation_document`, and its strategy's factor levels (a baseline's too, though it
+    uses none); errors name the option and the command line."""
+    where = "command line"
+    try:
+        doc = simulation_document(options)
+        study = _parse(doc, text, "simulate", where, Path.cwd(), one_cell=True)
+    except InputError as err:
+        key = _option(err.key, str(options["strategy"]))
+        raise InputError(key, err.expected, err.got, where) from None
+    ((name, spec),) = doc["strategy"].items()
+    return study, _factors(name, spec, _ONE_CELL_FACTORS)
+
+
+def _parse(
+    doc: dict, text: str, name: str, where: str, base: Path, one_cell: bool = False
+) -> Study:
+    """The study of a TOML document; ``one_cell`` is the ``simulate`` command's study (see
+    :func:`parse_simulation`): one distortion (no exact one added) and one strategy, which may
+    be a baseline."""
     check_keys(doc, "", _TOP_KEYS, required=("title",))
     title = check_string(doc["title"], "title")
     questions: tuple[str, ...] = ()
@@ -248,9 +309,9 @@ def _parse(doc: dict, text: str, name: str, where: str, base: Path) -> Study:
     target = check_number(doc.get("target", 0.05), "target", low=0.0, high=1.0, closed="right")
     placement = check_choice(doc.get("placement", "random"), "placement", ("random", "native"))
 
-    space = _space(doc["space"]) if "space" in doc else None
-    landscapes = _landscapes(doc.get("landscape"), space, base)
-    belief, spread = _belief(doc.get("belief", {}), space)
+    space = space_table(doc["space"]) if "space" in doc else None
+    landscapes = landscape_tables(doc.get("landscape"), space, base)
+    belief, spread = belief_table(doc.get("belief", {}), space)
 
     initial = check_table(doc.get("initial", {}), "initial")
     check_keys(initial, "initial", ("design", "size"))
@@ -268,13 +329,24 @@ def _parse(doc: dict, text: str, name: str, where: str, base: Path) -> Study:
         if budget <= n0:
             raise InputError("budget", f"larger than the initial design ({n0})", budget)
 
-    distortions = _distortions(doc.get("distortion", {}))
-    strategies = _strategies(doc.get("strategy"))
-    baselines = doc.get("baselines", list(st.baselines()))
-    baselines = tuple(
-        check_choice(b, "baselines", st.baselines())
-        for b in check_sequence(baselines, "baselines", min_length=0, unique=True)
-    )
+    distortions = _distortions(doc.get("distortion", {}), with_exact=not one_cell)
+    if one_cell:
+        strategies, baselines = _one_strategy(doc.get("strategy"))
+    else:
+        strategies = _strategies(doc.get("strategy"))
+        baselines = doc.get("baselines", list(st.baselines()))
+        baselines = tuple(
+            check_choice(b, "baselines", st.baselines())
+            for b in check_sequence(baselines, "baselines", min_length=0, unique=True)
+        )
+    for d in distortions:
+        for entry in landscapes:
+            if d.direction is not None and len(d.direction) != entry.dim:
+                raise InputError(
+                    f"distortion.{d.name}.direction",
+                    f"{entry.dim} component(s), one per parameter of landscape {entry.label}",
+                    list(d.direction),
+                )
     decision = _decision(doc.get("decision", {}), distortions)
     multiple = check_number(doc.get("random_multiple", 1), "random_multiple", low=1, integer=True)
     block = check_number(doc.get("block", 8), "block", low=1, integer=True)
@@ -304,300 +376,37 @@ def _parse(doc: dict, text: str, name: str, where: str, base: Path) -> Study:
     )
 
 
-def _space(table) -> Space:
-    table = check_table(table, "space")
-    params = []
-    for name, spec in table.items():
-        key = f"space.{name}"
-        spec = check_table(spec, key)
-        if "choices" in spec:
-            check_keys(spec, key, ("choices", "unit"))
-            choices = check_sequence(spec["choices"], f"{key}.choices", min_length=2)
-            params.append(Categorical(name, tuple(choices), spec.get("unit", "")))
-            continue
-        check_keys(
-            spec, key, ("lower", "upper", "scale", "type", "unit"), required=("lower", "upper")
+def _distortion(name: str, spec, key: str) -> Distortion:
+    """One named distortion, every value checked (the constructor only asserts)."""
+    spec = check_table(spec, key)
+    check_keys(spec, key, ("shift", "scale", "misplace", "direction"))
+    if not spec:
+        raise InputError(key, "at least one of shift, scale, misplace", raw("an empty table"))
+    misplace = spec.get("misplace")
+    if misplace is not None:
+        misplace = check_choice(misplace, f"{key}.misplace", MISPLACE)
+    direction = None
+    if "direction" in spec:
+        direction = tuple(
+            check_number(v, f"{key}.direction")
+            for v in check_sequence(spec["direction"], f"{key}.direction")
         )
-        kind = check_choice(
-            spec.get("type", "continuous"), f"{key}.type", ("continuous", "integer")
-        )
-        scale = check_choice(spec.get("scale", "linear"), f"{key}.scale", ("linear", "log"))
-        unit = spec.get("unit", "")
-        if not isinstance(unit, str):
-            raise InputError(f"{key}.unit", "a string", unit)
-        if kind == "integer":
-            if scale == "log":
-                raise InputError(f"{key}.scale", "'linear' for an integer parameter", scale)
-            params.append(Integer(name, spec["lower"], spec["upper"], unit))
-        else:
-            params.append(Continuous(name, spec["lower"], spec["upper"], scale == "log", unit))
-    return Space(tuple(params))
-
-
-_KIND_KEYS = {
-    "textbook": ("name", "dim", "noise", "label"),
-    "drawn": ("drawn", "dim", "noise", "label"),
-    "fitted": ("data", "response", "goal", "data_noise", "features", "noise", "label"),
-    "objective": ("objective", "goal", "minimum", "maximum", "noise", "label"),
-}
-_KIND_OF = {"name": "textbook", "drawn": "drawn", "data": "fitted", "objective": "objective"}
-
-
-def _landscapes(entries, space: Space | None, base: Path) -> tuple[LandscapeEntry, ...]:
-    if entries is None:
-        raise InputError("landscape", "at least one [[landscape]] table", raw("nothing"))
-    entries = check_sequence(entries, "landscape")
-    out = []
-    for i, entry in enumerate(entries):
-        key = f"landscape[{i}]"
-        entry = check_table(entry, key)
-        kinds = [k for k in _KIND_OF if k in entry]
-        if len(kinds) != 1:
-            raise InputError(
-                key,
-                "exactly one of 'name', 'drawn', 'data' or 'objective'",
-                raw(", ".join(kinds) or "none"),
-            )
-        kind = _KIND_OF[kinds[0]]
-        check_keys(entry, key, _KIND_KEYS[kind])
-        if kind != "textbook" and kind != "drawn" and space is None:
-            raise InputError(
-                key, f"a study with a [space] (a {kind} landscape lives on it)", raw("none")
-            )
-        noise = check_number(entry.get("noise", 0.0), f"{key}.noise", low=0.0)
-        if kind == "textbook":
-            item = _textbook(entry, key, space, noise)
-        elif kind == "drawn":
-            item = _drawn(entry, key, space, noise)
-        elif kind == "fitted":
-            item = _fitted(entry, key, space, noise, base)
-        else:
-            item = _objective(entry, key, space, noise, base)
-        if "label" in entry:
-            label = check_string(entry["label"], f"{key}.label")
-            item = replace(item, label=label)
-        if any(o.label == item.label for o in out):
-            raise InputError(f"{key}.label", "a label used once", raw(f"{item.label} again"))
-        out.append(item)
-    return tuple(out)
-
-
-def _textbook(entry, key, space, noise) -> LandscapeEntry:
-    from ..world import landscapes as ls
-
-    name = check_choice(entry["name"], f"{key}.name", ls.catalogue())
-    dim = entry.get("dim")
-    try:
-        if dim is None and space is not None:
-            # A generic landscape takes the space's dimension; a fixed one keeps its own.
-            try:
-                landscape = ls.get(name, space.dim)
-            except InputError:
-                landscape = ls.get(name)
-        else:
-            landscape = ls.get(name, dim)
-    except InputError as err:
-        raise InputError(f"{key}.dim", err.expected, err.got) from None
-    if space is not None and landscape.dim != space.dim:
-        raise InputError(
-            f"{key}.name",
-            f"a landscape of dimension {space.dim} (the space's)",
-            raw(f"{name} of dimension {landscape.dim}"),
-        )
-    label = name if landscape.dim == ls.get(name).dim else f"{name}-{landscape.dim}d"
-    return LandscapeEntry(name, landscape.dim, noise, label)
-
-
-def _drawn(entry, key, space, noise) -> LandscapeEntry:
-    from ..world import kinds, surfaces
-    from ..world import landscapes as ls
-
-    table = check_table(entry["drawn"], f"{key}.drawn")
-    check_keys(table, f"{key}.drawn", ("smoothness", "length_scale", "features"))
-    if space is not None:
-        if "dim" in entry:
-            raise InputError(
-                f"{key}.dim", "absent (a drawn landscape takes the space's)", entry["dim"]
-            )
-        dim = space.dim
-    else:
-        dim = check_number(entry.get("dim", 2), f"{key}.dim", low=1, high=ls.MAX_DIM, integer=True)
-    smoothness = check_number(table.get("smoothness", 2.5), f"{key}.drawn.smoothness")
-    if float(smoothness) not in surfaces.SMOOTHNESS_VALUES:
-        allowed = ", ".join(f"{v:g}" for v in surfaces.SMOOTHNESS_VALUES)
-        raise InputError(f"{key}.drawn.smoothness", f"one of {allowed}", smoothness)
-    scale = table.get("length_scale", 0.2)
-    scales = [scale] if not isinstance(scale, list) else scale
-    if len(scales) not in (1, dim):
-        raise InputError(
-            f"{key}.drawn.length_scale", f"one number or {dim} (one per parameter)", scale
-        )
-    scales = tuple(
-        float(check_number(v, f"{key}.drawn.length_scale", low=0.0, high=10.0, closed="right"))
-        for v in scales
+        if not any(direction):
+            raise InputError(f"{key}.direction", "a non-zero vector", list(direction))
+    return Distortion(
+        name,
+        shift=check_number(spec.get("shift", 0.0), f"{key}.shift", low=0.0),
+        scale=check_number(spec.get("scale", 1.0), f"{key}.scale", low=0.0, closed="right"),
+        misplace=misplace,
+        direction=direction,
     )
-    features = _features(table, f"{key}.drawn")
-    spec = kinds.Drawn(float(smoothness), scales, features)
-    label = f"drawn-{smoothness:g}-{'-'.join(f'{v:g}' for v in scales)}"
-    return LandscapeEntry("drawn", dim, noise, label, "drawn", spec)
 
 
-def _features(table, key) -> int:
-    """Random Fourier features of a drawn or fitted surface."""
-    from ..world import surfaces
-
-    value = table.get("features", surfaces.DEFAULT_FEATURES)
-    return check_number(value, f"{key}.features", low=16, high=65536, integer=True)
-
-
-def _goal(entry, key) -> str:
-    from ..evidence.history import GOALS
-
-    return check_choice(entry.get("goal", "minimise"), f"{key}.goal", GOALS)
-
-
-def _fitted(entry, key, space, noise, base) -> LandscapeEntry:
-    from ..evidence.history import read_history
-    from ..world import kinds
-
-    file = check_string(entry["data"], f"{key}.data")
-    if "response" not in entry:
-        raise InputError(f"{key}.response", "the name of the response column", raw("nothing"))
-    response = check_string(entry["response"], f"{key}.response")
-    goal = _goal(entry, key)
-    data_noise = entry.get("data_noise", "estimated")
-    if data_noise != "estimated":
-        data_noise = float(check_number(data_noise, f"{key}.data_noise", low=0.0, closed="neither"))
-    else:
-        data_noise = None
-    features = _features(entry, key)
-    history = read_history(base / file, space, response, goal)
-    spec = kinds.Fitted.from_history(history, noise_sd=data_noise, features=features)
-    return LandscapeEntry("fitted", space.dim, noise, f"fitted-{Path(file).stem}", "fitted", spec)
-
-
-def _objective(entry, key, space, noise, base) -> LandscapeEntry:
-    from ..world import kinds
-
-    goal = _goal(entry, key)
-    path, name = kinds.find_function(entry["objective"], base, None, f"{key}.objective")
-    wrong = "maximum" if goal == "minimise" else "minimum"
-    if wrong in entry:
-        raise InputError(f"{key}.{wrong}", f"absent when goal = {goal!r}", entry[wrong])
-    known = "minimum" if goal == "minimise" else "maximum"
-    best = entry.get(known)
-    if best is not None:
-        best = float(check_number(best, f"{key}.{known}"))
-        best = best if goal == "minimise" else -best
-    spec = kinds.Objective(path, name, space, goal, best, digest=kinds.file_digest(path))
-    return LandscapeEntry("objective", space.dim, noise, f"objective-{name}", "objective", spec)
-
-
-_BELIEF_KEYS = (
-    "centre",
-    "spread",
-    "within",
-    "factor",
-    "beta",
-    "uniform",
-    "probabilities",
-    "mixture",
-)
-
-
-def _belief(table, space: Space | None):
-    """The exact belief (None in landscape mode) and the spread used in landscape mode."""
-    table = check_table(table, "belief")
-    if space is None:
-        check_keys(table, "belief", ("spread",))
-        spread = check_number(table.get("spread", 0.1), "belief.spread", low=0.0, closed="right")
-        return None, spread
-    if "points" in table:
-        check_keys(table, "belief", ("points",))
-        return _points_belief(table["points"], space), 0.0
-    check_keys(table, "belief", space.names)
-    marginals = []
-    for p in space.parameters:
-        spec = table.get(p.name, {"uniform": True})
-        marginals.append(_marginal(p, check_table(spec, f"belief.{p.name}"), f"belief.{p.name}"))
-    return bl.Product(tuple(marginals)), 0.0
-
-
-def _marginal(p, spec: dict, key: str):
-    check_keys(spec, key, _BELIEF_KEYS)
-    discrete = isinstance(p, (Integer, Categorical))
-    if "probabilities" in spec:
-        check_keys(spec, key, ("probabilities",))
-        return bl.probabilities_for(p, spec["probabilities"], key=key)
-    if "uniform" in spec:
-        check_keys(spec, key, ("uniform",))
-        if spec["uniform"] is not True:
-            raise InputError(f"{key}.uniform", "true", spec["uniform"])
-        return bl.Discrete(tuple([1.0] * p.levels)) if discrete else bl.Uniform()
-    if isinstance(p, Categorical):
-        raise InputError(
-            key,
-            "'probabilities' or 'uniform' for a categorical parameter",
-            raw(", ".join(spec) or "nothing"),
-        )
-    if "beta" in spec:
-        check_keys(spec, key, ("beta",))
-        ab = check_sequence(spec["beta"], f"{key}.beta", min_length=2)
-        if len(ab) != 2:
-            raise InputError(f"{key}.beta", "two numbers [a, b]", ab)
-        beta = bl.Beta(
-            check_number(ab[0], f"{key}.beta", low=0.0, closed="right"),
-            check_number(ab[1], f"{key}.beta", low=0.0, closed="right"),
-        )
-        return bl.Discrete.from_marginal(beta, p.levels) if discrete else beta
-    if "mixture" in spec:
-        check_keys(spec, key, ("mixture",))
-        parts, weights = [], []
-        for i, part in enumerate(check_sequence(spec["mixture"], f"{key}.mixture", min_length=2)):
-            pkey = f"{key}.mixture[{i}]"
-            part = check_table(part, pkey)
-            check_keys(
-                part,
-                pkey,
-                ("centre", "spread", "within", "factor", "weight"),
-                required=("centre", "weight"),
-            )
-            weights.append(check_number(part["weight"], f"{pkey}.weight", low=0.0))
-            g = {k: v for k, v in part.items() if k not in ("weight", "centre")}
-            parts.append(bl.gaussian_for(p, part["centre"], key=pkey, **g))
-        return bl.Mixture(tuple(parts), tuple(weights))
-    if "centre" in spec:
-        check_keys(spec, key, ("centre", "spread", "within", "factor"))
-        g = {k: v for k, v in spec.items() if k != "centre"}
-        return bl.gaussian_for(p, spec["centre"], key=key, **g)
-    raise InputError(key, "one of " + ", ".join(_BELIEF_KEYS), raw("none of them"))
-
-
-def _points_belief(points, space: Space):
-    rows = []
-    for i, point in enumerate(check_sequence(points, "belief.points", min_length=2)):
-        key = f"belief.points[{i}]"
-        point = check_table(point, key)
-        check_keys(point, key, space.names, required=space.names)
-        row = []
-        for p in space.parameters:
-            value = point[p.name]
-            if isinstance(p, Categorical):
-                row.append(
-                    float(
-                        p.to_unit(np.array([check_choice(value, f"{key}.{p.name}", p.choices)]))[0]
-                    )
-                )
-            else:
-                check_number(value, f"{key}.{p.name}", low=p.lower, high=p.upper)
-                row.append(float(p.to_unit(value)))
-        rows.append(row)
-    return bl.from_points(np.array(rows), space)
-
-
-def _distortions(table) -> tuple[Distortion, ...]:
+def _distortions(table, with_exact: bool = True) -> tuple[Distortion, ...]:
+    """The distortions of a study: ``exact`` first, then each named one (``with_exact`` false:
+    the named ones alone, a named one that distorts nothing being ``exact``)."""
     table = check_table(table, "distortion")
-    out = [EXACT]
+    out = [EXACT] if with_exact else []
     for name, spec in table.items():
         key = f"distortion.{name}"
         if name == "factorial":
@@ -605,33 +414,44 @@ def _distortions(table) -> tuple[Distortion, ...]:
             check_keys(spec, key, ("shift", "scale"), required=("shift", "scale"))
             shifts = check_sequence(spec["shift"], f"{key}.shift", unique=True)
             scales = check_sequence(spec["scale"], f"{key}.scale", unique=True)
+            shifts = [check_number(v, f"{key}.shift", low=0.0) for v in shifts]
+            scales = [check_number(v, f"{key}.scale", low=0.0, closed="right") for v in scales]
             for s, f in itertools.product(shifts, scales):
                 label = f"shift {s:g} scale {f:g}"
                 out.append(Distortion(label, shift=s, scale=f))
             continue
         if name == "exact":
             raise InputError(key, "another name ('exact' is always included)", raw("'exact'"))
-        spec = check_table(spec, key)
-        check_keys(spec, key, ("shift", "scale", "misplace", "direction"))
-        if not spec:
-            raise InputError(key, "at least one of shift, scale, misplace", raw("an empty table"))
-        misplace = spec.get("misplace")
-        if misplace is not None:
-            check_choice(misplace, f"{key}.misplace", MISPLACE)
-        out.append(
-            Distortion(
-                name,
-                shift=spec.get("shift", 0.0),
-                scale=spec.get("scale", 1.0),
-                misplace=misplace,
-                direction=tuple(spec["direction"]) if "direction" in spec else None,
-            )
-        )
+        distortion = _distortion(name, spec, key)
+        out.append(EXACT if not with_exact and distortion.is_exact else distortion)
     names = [d.name for d in out]
     for n in names:
         if names.count(n) > 1:
             raise InputError(f"distortion.{n}", "a distortion named once", raw(f"{n!r} twice"))
     return tuple(out)
+
+
+def _factors(name: str, spec, allowed: tuple[str, ...]) -> StrategyFactors:
+    """A strategy's factor levels (decay, quantile, exploration), each checked."""
+    key = f"strategy.{name}"
+    spec = check_table(spec, key)
+    check_keys(spec, key, allowed, required=("decay",))
+    decay = tuple(
+        parse(d, f"{key}.decay") for d in check_sequence(spec["decay"], f"{key}.decay", unique=True)
+    )
+    quantile = tuple(
+        check_number(q, f"{key}.quantile", low=0.0, high=1.0, closed="neither")
+        for q in check_sequence(
+            spec.get("quantile", [st.DEFAULT_QUANTILE]), f"{key}.quantile", unique=True
+        )
+    )
+    exploration = tuple(
+        check_number(e, f"{key}.exploration", low=0.0, high=1.0)
+        for e in check_sequence(
+            spec.get("exploration", [st.DEFAULT_EXPLORATION]), f"{key}.exploration", unique=True
+        )
+    )
+    return StrategyFactors(name, decay, quantile, exploration)
 
 
 def _strategies(table) -> tuple[StrategyFactors, ...]:
@@ -648,25 +468,25 @@ def _strategies(table) -> tuple[StrategyFactors, ...]:
         allowed = ("decay", "quantile", "exploration")
         if not st.uses_quantile(name):
             allowed = ("decay", "exploration")
-        check_keys(spec, key, allowed, required=("decay",))
-        decay = tuple(
-            parse(d, f"{key}.decay")
-            for d in check_sequence(spec["decay"], f"{key}.decay", unique=True)
-        )
-        quantile = tuple(
-            check_number(q, f"{key}.quantile", low=0.0, high=1.0, closed="neither")
-            for q in check_sequence(
-                spec.get("quantile", [st.DEFAULT_QUANTILE]), f"{key}.quantile", unique=True
-            )
-        )
-        exploration = tuple(
-            check_number(e, f"{key}.exploration", low=0.0, high=1.0)
-            for e in check_sequence(
-                spec.get("exploration", [st.DEFAULT_EXPLORATION]), f"{key}.exploration", unique=True
-            )
-        )
-        out.append(StrategyFactors(name, decay, quantile, exploration))
+        out.append(_factors(name, spec, allowed))
     return tuple(out)
+
+
+_ONE_CELL_FACTORS = ("decay", "quantile", "exploration")
+
+
+def _one_strategy(table) -> tuple[tuple[StrategyFactors, ...], tuple[str, ...]]:
+    """The one strategy of a one-cell study, belief-guided or a baseline (whose factor levels
+    are checked as well, and then not used)."""
+    table = check_table(table, "strategy")
+    if len(table) != 1:
+        raise InputError("strategy", "exactly one strategy", raw(", ".join(table) or "none"))
+    name, spec = next(iter(table.items()))
+    check_choice(name, "strategy", (*st.belief_strategies(), *st.baselines()))
+    factors = _factors(name, spec, _ONE_CELL_FACTORS)
+    if name in st.belief_strategies():
+        return (factors,), ()
+    return (), (name,)
 
 
 def _decision(table, distortions) -> Decision:

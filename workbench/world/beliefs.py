@@ -17,6 +17,7 @@ log-normal in the user's units; a discrete parameter's belief is piecewise const
 
 from __future__ import annotations
 
+import math
 import warnings
 from dataclasses import dataclass, replace
 from functools import cached_property
@@ -24,7 +25,6 @@ from functools import cached_property
 import numpy as np
 from scipy import optimize, special, stats
 
-from ..validation import InputError, check_choice, check_number, raw
 from .space import Categorical, Continuous, Integer, Parameter, Space
 
 __all__ = [
@@ -38,6 +38,7 @@ __all__ = [
     "gaussian_at",
     "gaussian_for",
     "highest_density_level",
+    "level_labels",
     "mass_within",
     "probabilities_for",
 ]
@@ -68,8 +69,10 @@ class TruncatedGaussian:
     spread: float
 
     def __post_init__(self):
-        check_number(self.centre, "centre", low=0.0, high=1.0)
-        check_number(self.spread, "spread", low=0.0, closed="right")
+        if not 0.0 <= self.centre <= 1.0:
+            raise ValueError(f"centre must be in [0, 1]; got {self.centre!r}")
+        if not 0.0 < self.spread < math.inf:
+            raise ValueError(f"spread must be positive; got {self.spread!r}")
 
     @cached_property
     def _bounds(self) -> tuple[float, float]:
@@ -130,8 +133,10 @@ class Beta:
     b: float
 
     def __post_init__(self):
-        check_number(self.a, "beta.a", low=0.0, closed="right")
-        check_number(self.b, "beta.b", low=0.0, closed="right")
+        if not (0.0 < self.a < math.inf and 0.0 < self.b < math.inf):
+            raise ValueError(
+                f"beta parameters must be positive; got a = {self.a!r}, b = {self.b!r}"
+            )
 
     def logpdf(self, u) -> np.ndarray:
         u = _as_unit(u)
@@ -222,9 +227,11 @@ class Discrete:
     def __post_init__(self):
         p = np.asarray(self.probabilities, dtype=float)
         if p.ndim != 1 or p.size < 2 or not np.all(np.isfinite(p)) or np.any(p < 0):
-            raise InputError("probabilities", "a list of non-negative numbers", self.probabilities)
+            raise ValueError(
+                f"probabilities must be non-negative numbers; got {self.probabilities}"
+            )
         if p.sum() <= 0:
-            raise InputError("probabilities", "a list that is not all zero", self.probabilities)
+            raise ValueError(f"probabilities must not all be zero; got {self.probabilities}")
         object.__setattr__(self, "probabilities", tuple(float(x) for x in p / p.sum()))
 
     @property
@@ -380,9 +387,9 @@ class Mixture:
         comps = tuple(self.components)
         w = np.asarray(self.weights, dtype=float)
         if not comps or w.shape != (len(comps),):
-            raise InputError("weights", f"{len(comps)} weight(s), one per component", self.weights)
+            raise ValueError(f"a mixture needs one weight per component; got {self.weights}")
         if np.any(~np.isfinite(w)) or np.any(w < 0) or w.sum() <= 0:
-            raise InputError("weights", "non-negative numbers, not all zero", self.weights)
+            raise ValueError(f"weights must be non-negative, not all zero; got {self.weights}")
         object.__setattr__(self, "components", comps)
         object.__setattr__(self, "weights", tuple(float(x) for x in w / w.sum()))
 
@@ -471,7 +478,6 @@ def gaussian_for(
     spread: float | None = None,
     within: float | None = None,
     factor: float | None = None,
-    key: str = "belief",
 ):
     """A Gaussian belief on one parameter, given in the user's units.
 
@@ -479,79 +485,75 @@ def gaussian_for(
     ``within``: 90 % of the (untruncated) mass lies within ``centre ± within`` (user units), so
     spread = within / (1.645 · range); on a log scale give ``factor``: 90 % lies within
     ``[centre / factor, centre · factor]``, so spread = ln(factor) / (1.645 · ln(upper / lower)).
-    On an integer parameter the Gaussian is turned into bin masses.
+    On an integer parameter the Gaussian is turned into bin masses. Impossible values raise
+    ``ValueError`` (the study parser checks them first, under their keys).
     """
     if isinstance(parameter, Categorical):
-        raise InputError(key, "probabilities for a categorical parameter", raw("a Gaussian"))
+        raise ValueError(f"{parameter.name}: a Gaussian belief on a categorical parameter")
     given = [
         name
         for name, v in (("spread", spread), ("within", within), ("factor", factor))
         if v is not None
     ]
     if len(given) != 1:
-        raise InputError(
-            key, "exactly one of 'spread', 'within', 'factor'", raw(", ".join(given) or "none")
-        )
+        raise ValueError(f"exactly one of spread, within, factor; got {given or 'none'}")
     low, high = parameter.lower, parameter.upper
-    check_number(centre, f"{key}.centre", low=low, high=high)
+    if not low <= centre <= high:
+        raise ValueError(f"centre {centre!r} outside [{low:g}, {high:g}]")
+    log = isinstance(parameter, Continuous) and parameter.log
     if spread is not None:
-        s = check_number(spread, f"{key}.spread", low=0.0, closed="right")
+        s = float(spread)
     elif within is not None:
-        w = check_number(within, f"{key}.within", low=0.0, closed="right")
+        if log:
+            raise ValueError("a log-scale parameter takes 'factor', not 'within'")
         width = (high - low + 1) if isinstance(parameter, Integer) else (high - low)
-        if isinstance(parameter, Continuous) and parameter.log:
-            raise InputError(f"{key}.within", "'factor' on a log-scale parameter", raw("'within'"))
-        s = w / (_Z90 * width)
+        s = within / (_Z90 * width)
     else:
-        if not (isinstance(parameter, Continuous) and parameter.log):
-            raise InputError(
-                f"{key}.factor", "'within' or 'spread' on a linear parameter", raw("'factor'")
-            )
-        f = check_number(factor, f"{key}.factor", low=1.0, closed="neither")
-        s = np.log(f) / (_Z90 * np.log(high / low))
+        if not log:
+            raise ValueError("a linear parameter takes 'within' or 'spread', not 'factor'")
+        if not factor > 1:
+            raise ValueError(f"factor must be above 1; got {factor!r}")
+        s = np.log(factor) / (_Z90 * np.log(high / low))
+    if not s > 0:
+        raise ValueError(f"the spread must be positive; got {given[0]} = {locals()[given[0]]!r}")
     marginal = TruncatedGaussian(float(parameter.to_unit(centre)), float(s))
     if isinstance(parameter, Integer):
         return Discrete.from_marginal(marginal, parameter.levels)
     return marginal
 
 
-def probabilities_for(parameter: Parameter, probabilities, *, key: str = "belief") -> Discrete:
+def level_labels(parameter: Parameter) -> list[str]:
+    """The names of a discrete parameter's levels (categorical choices, or integers as text)."""
+    if isinstance(parameter, Categorical):
+        return list(parameter.choices)
+    return [str(v) for v in range(parameter.lower, parameter.upper + 1)]
+
+
+def probabilities_for(parameter: Parameter, probabilities) -> Discrete:
     """A list of probabilities (or ``{choice: p}``) over a categorical or integer parameter.
 
     Choices left out of a table get zero. Probabilities that do not sum to 1 are normalised
-    with a warning.
+    with a warning. Impossible values raise ``ValueError``.
     """
     if isinstance(parameter, Continuous):
-        raise InputError(
-            key,
-            "a Gaussian, Beta or uniform belief on a continuous parameter",
-            raw("probabilities"),
-        )
-    labels = (
-        list(parameter.choices)
-        if isinstance(parameter, Categorical)
-        else [str(v) for v in range(parameter.lower, parameter.upper + 1)]
-    )
+        raise ValueError(f"{parameter.name}: probabilities on a continuous parameter")
+    labels = level_labels(parameter)
     if isinstance(probabilities, dict):
-        for name in probabilities:
-            if str(name) not in labels:
-                check_choice(str(name), f"{key}.probabilities", labels)
+        unknown = [str(name) for name in probabilities if str(name) not in labels]
+        if unknown:
+            raise ValueError(f"{parameter.name}: unknown levels {', '.join(unknown)}")
         values = [
             probabilities.get(name, probabilities.get(_maybe_int(name), 0.0)) for name in labels
         ]
     else:
         values = list(probabilities) if isinstance(probabilities, (list, tuple)) else probabilities
         if not isinstance(values, list) or len(values) != len(labels):
-            raise InputError(
-                f"{key}.probabilities", f"a list of {len(labels)} probabilities", probabilities
-            )
-    for v in values:
-        check_number(v, f"{key}.probabilities", low=0.0)
+            raise ValueError(f"{parameter.name}: {len(labels)} probabilities; got {probabilities}")
     total = float(sum(values))
-    if total <= 0:
-        raise InputError(f"{key}.probabilities", "a list that is not all zero", values)
-    if abs(total - 1.0) > 1e-9:
-        warnings.warn(f"{key}.probabilities sum to {total:g}; normalised to 1", stacklevel=2)
+    if total > 0 and abs(total - 1.0) > 1e-9:
+        warnings.warn(
+            f"probabilities of {parameter.name} sum to {total:g}; normalised to 1", stacklevel=2
+        )
     return Discrete(tuple(values))
 
 
@@ -578,11 +580,9 @@ def from_points(U, space: Space) -> Mixture:
     U = np.atleast_2d(np.asarray(U, dtype=float))
     n, d = U.shape
     if d != space.dim:
-        raise InputError(
-            "belief.points", f"points with {space.dim} coordinates", raw(f"{d} coordinates")
-        )
+        raise ValueError(f"points with {space.dim} coordinates; got {d}")
     if n < 2:
-        raise InputError("belief.points", "at least 2 earlier good points", raw(f"{n} point(s)"))
+        raise ValueError(f"at least 2 earlier good points; got {n}")
     sd = np.maximum(U.std(axis=0, ddof=1), 0.01)
     h = sd * n ** (-1.0 / (d + 4))
     components = []

@@ -13,11 +13,11 @@ They compose in that order: misplace, then shift, then scale.
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass
 
 import numpy as np
 
-from ..validation import InputError, check_choice, check_number, check_string
 from .beliefs import mass_within
 
 __all__ = ["EXACT", "MISPLACE", "Distortion", "Severity", "severity"]
@@ -40,16 +40,21 @@ class Distortion:
     direction: tuple[float, ...] | None = None
 
     def __post_init__(self):
-        check_string(self.name, "distortion")
-        key = f"distortion.{self.name}"
-        check_number(self.shift, f"{key}.shift", low=0.0)
-        check_number(self.scale, f"{key}.scale", low=0.0, closed="right")
-        if self.misplace is not None:
-            check_choice(self.misplace, f"{key}.misplace", MISPLACE)
+        # The study parser checks every value under its key; these are the constructor's own.
+        if not isinstance(self.name, str) or not self.name:
+            raise ValueError(f"a distortion needs a name; got {self.name!r}")
+        if not 0.0 <= self.shift < math.inf:
+            raise ValueError(f"shift must be a non-negative number; got {self.shift!r}")
+        if not 0.0 < self.scale < math.inf:
+            raise ValueError(f"scale must be a positive number; got {self.scale!r}")
+        if self.misplace is not None and self.misplace not in MISPLACE:
+            raise ValueError(
+                f"misplace must be one of {', '.join(MISPLACE)}; got {self.misplace!r}"
+            )
         if self.direction is not None:
             d = np.asarray(self.direction, dtype=float)
             if d.ndim != 1 or not np.all(np.isfinite(d)) or np.linalg.norm(d) == 0:
-                raise InputError(f"{key}.direction", "a non-zero vector", self.direction)
+                raise ValueError(f"direction must be a non-zero vector; got {self.direction!r}")
 
     @property
     def is_exact(self) -> bool:
@@ -76,7 +81,7 @@ def _shifted(mode: np.ndarray, distance: float, direction, rng: np.random.Genera
     if direction is not None:
         d = np.asarray(direction, dtype=float)
         if d.shape != mode.shape:
-            raise InputError("distortion.direction", f"{mode.size} component(s)", direction)
+            raise ValueError(f"direction needs {mode.size} component(s); got {direction!r}")
         return np.clip(mode + distance * d / np.linalg.norm(d), 0.0, 1.0)
     for _ in range(_DIRECTION_DRAWS):
         d = rng.standard_normal(mode.size)

@@ -129,7 +129,7 @@ class Fitted:
 
     @classmethod
     def from_history(cls, history, **options) -> Fitted:
-        """From earlier evaluations (a :class:`workbench.evidence.history.History`)."""
+        """From earlier evaluations (a :class:`workbench.world.history.History`)."""
         return cls(
             X=tuple(map(tuple, history.X.tolist())),
             y=tuple(history.y.tolist()),

@@ -511,7 +511,7 @@ class LikeData:
 
     @classmethod
     def from_history(cls, history, space=None, **options) -> LikeData:
-        """From earlier evaluations (a :class:`workbench.evidence.history.History`) over
+        """From earlier evaluations (a :class:`workbench.world.history.History`) over
         ``space`` (a :class:`~.space.Space`, for its discrete axes; None: all continuous)."""
         if space is not None:
             from .space import Categorical

@@ -7,8 +7,8 @@ import numpy as np
 import pytest
 
 from workbench.cli import main
-from workbench.evidence.history import read_history
 from workbench.study.spec import parse_text
+from workbench.world.history import read_history
 
 SPACE = """
 title = "history"

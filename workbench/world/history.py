@@ -8,7 +8,9 @@ unknown categorical level, too few rows or a constant response give one line nam
 the row and the column, and nothing is read.
 
 The table becomes cube points and values in the minimising orientation (``goal = "maximise"``
-negates the response), ready for the GP.
+negates the response), ready for the GP. :func:`read_table` reads any table of parameter
+columns plus named numeric columns with the same checks (a table of measured configurations,
+for example).
 """
 
 from __future__ import annotations
@@ -16,15 +18,16 @@ from __future__ import annotations
 import csv
 import hashlib
 import math
+from collections.abc import Sequence
 from dataclasses import dataclass, field
 from pathlib import Path
 
 import numpy as np
 
 from ..validation import InputError, raw
-from ..world.space import Categorical, Integer, Space
+from .space import Categorical, Integer, Space
 
-__all__ = ["GOALS", "History", "read_history"]
+__all__ = ["GOALS", "History", "Table", "read_history", "read_table"]
 
 GOALS = ("minimise", "maximise")
 
@@ -89,17 +92,36 @@ def _cell(param, text: str, where: str, key: str) -> float:
     return float(param.to_unit(np.array([value]))[0])
 
 
-def read_history(
+@dataclass(frozen=True)
+class Table:
+    """A checked CSV table: ``X`` the parameter columns as cube points (n, d), ``columns`` each
+    named numeric column (n,), ``path`` the file and ``digest`` a hash of its bytes."""
+
+    X: np.ndarray = field(repr=False)
+    columns: dict[str, np.ndarray] = field(repr=False)
+    path: str
+    digest: str
+
+    @property
+    def rows(self) -> int:
+        return len(self.X)
+
+
+def read_table(
     path: str | Path,
     space: Space,
-    response: str,
-    goal: str = "minimise",
-    min_rows: int | None = None,
-) -> History:
-    """Read and check the table at ``path`` against ``space``; see the module docstring.
+    columns: Sequence[str],
+    *,
+    min_rows: int = 1,
+    rows_meaning: str = "data rows",
+) -> Table:
+    """Read the CSV table at ``path``: one column per parameter of ``space`` (user units,
+    categorical levels by name), the numeric ``columns``, and nothing else; lines starting with
+    ``#`` are comments.
 
-    Raises :class:`InputError` naming the file, row (1 = first data row) and column. At least
-    ``min_rows`` rows (default: the dimension plus two, what a GP fit needs) must be there.
+    Every cell is checked; a wrong one raises :class:`InputError` naming the file, the row
+    (1 = first data row) and the column, and nothing is read. At least ``min_rows`` rows
+    (``rows_meaning`` says why, in the message) must be there.
     """
     path = Path(path)
     where = str(path)
@@ -120,7 +142,7 @@ def read_history(
         raise InputError("data", "a header row and data rows", raw("nothing"), where)
     reader = csv.reader(lines)
     header = [h.strip() for h in next(reader)]
-    expected = [*space.names, response]
+    expected = [*space.names, *columns]
     for name in expected:
         if name not in header:
             raise InputError(
@@ -128,14 +150,16 @@ def read_history(
             )
     for name in header:
         if name not in expected:
+            what = "the response" if len(columns) == 1 else "the named columns"
             raise InputError(
                 f"column '{name}'",
-                f"one of the space's parameters or the response ({', '.join(expected)})",
+                f"one of the space's parameters or {what} ({', '.join(expected)})",
                 raw("an unknown column"),
                 where,
             )
     index = {name: header.index(name) for name in expected}
-    X, y = [], []
+    X: list[list[float]] = []
+    values: dict[str, list[float]] = {name: [] for name in columns}
     for r, row in enumerate(reader, start=1):
         if len(row) != len(header):
             raise InputError(f"row {r}", f"{len(header)} cells", raw(f"{len(row)} cells"), where)
@@ -145,22 +169,48 @@ def read_history(
                 for p in space.parameters
             ]
         )
-        y.append(_number(row[index[response]].strip(), where, f"row {r}, column '{response}'"))
-    need = space.dim + 2 if min_rows is None else min_rows
-    if len(y) < need:
-        words = "the dimension plus two" if min_rows is None else "evaluations so far"
-        raise InputError("data", f"at least {need} rows ({words})", raw(f"{len(y)} rows"), where)
-    y = np.array(y, dtype=float)
-    if min_rows is None and np.ptp(y) == 0.0:  # a GP cannot be fitted to a constant
+        for name in columns:
+            values[name].append(
+                _number(row[index[name]].strip(), where, f"row {r}, column '{name}'")
+            )
+    if len(X) < min_rows:
         raise InputError(
-            f"column '{response}'", "a response that varies", raw(f"every row {y[0]:g}"), where
+            "data", f"at least {min_rows} rows ({rows_meaning})", raw(f"{len(X)} rows"), where
         )
-    values = -y if goal == "maximise" else y
-    return History(
-        X=np.array(X, dtype=float),
-        y=values,
-        response=response,
-        goal=goal,
+    return Table(
+        X=np.array(X, dtype=float).reshape(len(X), space.dim),
+        columns={name: np.array(v, dtype=float) for name, v in values.items()},
         path=where,
         digest=hashlib.sha256(raw_bytes).hexdigest()[:16],
+    )
+
+
+def read_history(
+    path: str | Path,
+    space: Space,
+    response: str,
+    goal: str = "minimise",
+    min_rows: int | None = None,
+) -> History:
+    """Read and check the table at ``path`` against ``space`` (:func:`read_table` with one
+    response column); see the module docstring.
+
+    At least ``min_rows`` rows (default: the dimension plus two, what a GP fit needs) must be
+    there; a GP's table must have a response that varies.
+    """
+    need = space.dim + 2 if min_rows is None else min_rows
+    words = "the dimension plus two" if min_rows is None else "evaluations so far"
+    table = read_table(path, space, [response], min_rows=need, rows_meaning=words)
+    y = table.columns[response]
+    if min_rows is None and np.ptp(y) == 0.0:  # a GP cannot be fitted to a constant
+        raise InputError(
+            f"column '{response}'", "a response that varies", raw(f"every row {y[0]:g}"), table.path
+        )
+    return History(
+        X=table.X,
+        y=-y if goal == "maximise" else y,
+        response=response,
+        goal=goal,
+        path=table.path,
+        digest=table.digest,
     )
