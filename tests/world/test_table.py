@@ -9,7 +9,7 @@ import numpy as np
 import pytest
 
 from workbench.world.space import Categorical, Continuous, Integer, Space
-from workbench.world.table import Table
+from workbench.world.table import MeasuredTable
 
 SPACE = Space(
     (
@@ -31,7 +31,7 @@ def _grid_rows():
 
 def _table(columns, response, lookup="exact"):
     U = SPACE.to_unit(columns)
-    return Table(
+    return MeasuredTable(
         X=tuple(map(tuple, U.tolist())),
         y=tuple(response.tolist()),
         levels=tuple(SPACE.levels.tolist()),
@@ -85,7 +85,7 @@ def test_the_minimum_is_the_tables_smallest_response_at_its_row():
 def test_duplicate_configurations_and_constant_responses_are_refused():
     columns, response = _grid_rows()
     doubled = [np.r_[c, c[:1]] for c in columns]
-    with pytest.raises(ValueError, match="rows 0 and 36 measure the same configuration"):
+    with pytest.raises(ValueError, match="data rows 1 and 37 measure the same configuration"):
         _table(doubled, np.r_[response, 9.0])
     with pytest.raises(ValueError, match="same value"):
         _table(columns, np.ones_like(response))

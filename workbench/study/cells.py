@@ -87,7 +87,7 @@ class Cell:
         if e.kind == "textbook":
             return ls.get(e.name, e.dim)
         replicate = 0 if e.kind == "objective" else self.replicate
-        at = self._at if e.kind == "drawn" else None
+        at = self._at if e.placed_at_belief else None
         return _built(e.spec, e.label, e.dim, self.study.seed, replicate, at)
 
     @cached_property
@@ -107,8 +107,8 @@ class Cell:
     def placement(self):
         land = self.land
         if self.entry.kind != "textbook":
-            # Fitted and objective: the truth is where the data or function put it; a drawn
-            # surface already comes cut around its placement.
+            # Fitted, table and objective: the truth is where the data or function put it; a
+            # drawn surface already comes cut around its placement.
             return land.placed()
         return land.placed(at=self._at)
 

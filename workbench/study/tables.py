@@ -28,7 +28,9 @@ from ..world import beliefs as bl
 from ..world import kinds, surfaces
 from ..world import landscapes as ls
 from ..world.history import GOALS, read_history
+from ..world.likeness import LikeData
 from ..world.space import Categorical, Continuous, Integer, Space
+from ..world.table import LOOKUPS, MeasuredTable
 
 __all__ = ["LandscapeEntry", "belief_table", "landscape_tables", "space_table"]
 
@@ -56,9 +58,10 @@ class LandscapeEntry:
 
     @property
     def placed_at_belief(self) -> bool:
-        """Whether the truth is moved to the belief's mode (not for fitted landscapes and the
-        user's objective: there the data or the function say where the optimum is)."""
-        return self.kind in ("textbook", "drawn")
+        """Whether the truth is moved to the belief's mode: textbook functions and surfaces
+        drawn per replicate are; fitted surfaces, tables and the user's objective are not
+        (there the data or the function say where the optimum is). The kind says."""
+        return self.spec is None or self.spec.placed_at_belief
 
 
 def space_table(table) -> Space:
@@ -94,10 +97,21 @@ def space_table(table) -> Space:
 _KIND_KEYS = {
     "textbook": ("name", "dim", "noise", "label"),
     "drawn": ("drawn", "dim", "noise", "label"),
-    "fitted": ("data", "response", "goal", "data_noise", "features", "noise", "label"),
+    "fitted": ("data", "response", "goal", "data_noise", "features", "warp", "noise", "label"),
+    "likedata": ("drawn_like", "response", "goal", "features", "noise", "label"),
+    "table": ("table", "response", "goal", "lookup", "noise", "label"),
     "objective": ("objective", "goal", "minimum", "maximum", "noise", "label"),
 }
-_KIND_OF = {"name": "textbook", "drawn": "drawn", "data": "fitted", "objective": "objective"}
+# The key that names each kind of landscape.
+_KIND_OF = {
+    "name": "textbook",
+    "drawn": "drawn",
+    "data": "fitted",
+    "drawn_like": "likedata",
+    "table": "table",
+    "objective": "objective",
+}
+_NAMING_KEYS = ", ".join(f"'{k}'" for k in _KIND_OF)
 
 
 def landscape_tables(entries, space: Space | None, base: Path) -> tuple[LandscapeEntry, ...]:
@@ -110,11 +124,7 @@ def landscape_tables(entries, space: Space | None, base: Path) -> tuple[Landscap
         entry = check_table(entry, key)
         kinds = [k for k in _KIND_OF if k in entry]
         if len(kinds) != 1:
-            raise InputError(
-                key,
-                "exactly one of 'name', 'drawn', 'data' or 'objective'",
-                raw(", ".join(kinds) or "none"),
-            )
+            raise InputError(key, f"exactly one of {_NAMING_KEYS}", raw(", ".join(kinds) or "none"))
         kind = _KIND_OF[kinds[0]]
         check_keys(entry, key, _KIND_KEYS[kind])
         if kind != "textbook" and kind != "drawn" and space is None:
@@ -122,14 +132,7 @@ def landscape_tables(entries, space: Space | None, base: Path) -> tuple[Landscap
                 key, f"a study with a [space] (a {kind} landscape lives on it)", raw("none")
             )
         noise = check_number(entry.get("noise", 0.0), f"{key}.noise", low=0.0)
-        if kind == "textbook":
-            item = _textbook(entry, key, space, noise)
-        elif kind == "drawn":
-            item = _drawn(entry, key, space, noise)
-        elif kind == "fitted":
-            item = _fitted(entry, key, space, noise, base)
-        else:
-            item = _objective(entry, key, space, noise, base)
+        item = _PARSERS[kind](entry, key, space, noise, base)
         if "label" in entry:
             label = check_string(entry["label"], f"{key}.label")
             item = replace(item, label=label)
@@ -139,7 +142,7 @@ def landscape_tables(entries, space: Space | None, base: Path) -> tuple[Landscap
     return tuple(out)
 
 
-def _textbook(entry, key, space, noise) -> LandscapeEntry:
+def _textbook(entry, key, space, noise, base) -> LandscapeEntry:
 
     name = check_choice(entry["name"], f"{key}.name", ls.catalogue())
     dim = entry.get("dim")
@@ -164,7 +167,7 @@ def _textbook(entry, key, space, noise) -> LandscapeEntry:
     return LandscapeEntry(name, landscape.dim, noise, label)
 
 
-def _drawn(entry, key, space, noise) -> LandscapeEntry:
+def _drawn(entry, key, space, noise, base) -> LandscapeEntry:
 
     table = check_table(entry["drawn"], f"{key}.drawn")
     check_keys(table, f"{key}.drawn", ("smoothness", "length_scale", "features"))
@@ -208,22 +211,65 @@ def _goal(entry, key) -> str:
     return check_choice(entry.get("goal", "minimise"), f"{key}.goal", GOALS)
 
 
-def _fitted(entry, key, space, noise, base) -> LandscapeEntry:
-
-    file = check_string(entry["data"], f"{key}.data")
+def _response_file(entry, key, file_key, space, base, min_rows=None):
+    """The earlier evaluations a landscape reads: file, response column and goal, checked."""
+    file = check_string(entry[file_key], f"{key}.{file_key}")
     if "response" not in entry:
         raise InputError(f"{key}.response", "the name of the response column", raw("nothing"))
     response = check_string(entry["response"], f"{key}.response")
-    goal = _goal(entry, key)
+    history = read_history(base / file, space, response, _goal(entry, key), min_rows=min_rows)
+    return file, history
+
+
+def _fitted(entry, key, space, noise, base) -> LandscapeEntry:
+
+    file, history = _response_file(entry, key, "data", space, base)
     data_noise = entry.get("data_noise", "estimated")
     if data_noise != "estimated":
         data_noise = float(check_number(data_noise, f"{key}.data_noise", low=0.0, closed="neither"))
     else:
         data_noise = None
-    features = _features(entry, key)
-    history = read_history(base / file, space, response, goal)
-    spec = kinds.Fitted.from_history(history, noise_sd=data_noise, features=features)
+    warp = entry.get("warp", False)
+    if not isinstance(warp, bool):
+        raise InputError(f"{key}.warp", "true or false", warp)
+    spec = kinds.Fitted.from_history(
+        history, noise_sd=data_noise, features=_features(entry, key), warp=warp
+    )
     return LandscapeEntry("fitted", space.dim, noise, f"fitted-{Path(file).stem}", "fitted", spec)
+
+
+def _likedata(entry, key, space, noise, base) -> LandscapeEntry:
+
+    file, history = _response_file(entry, key, "drawn_like", space, base)
+    spec = LikeData.from_history(history, space, features=_features(entry, key))
+    return LandscapeEntry(
+        "likedata", space.dim, noise, f"likedata-{Path(file).stem}", "likedata", spec
+    )
+
+
+def _table(entry, key, space, noise, base) -> LandscapeEntry:
+
+    file, history = _response_file(entry, key, "table", space, base, min_rows=2)
+    lookup = check_choice(entry.get("lookup", "exact"), f"{key}.lookup", LOOKUPS)
+    try:
+        spec = MeasuredTable(
+            X=tuple(map(tuple, history.X.tolist())),
+            y=tuple(history.y.tolist()),
+            levels=tuple(int(v) for v in space.levels),
+            source=f"{history.rows} measured configurations in {Path(file).name}",
+            lookup=lookup,
+            digest=history.digest,
+            response=history.response,
+            goal=history.goal,
+        )
+    except ValueError as err:
+        raise InputError(
+            f"{key}.table",
+            "a table that measures each configuration once",
+            raw(str(err)),
+            history.path,
+        ) from None
+    return LandscapeEntry("table", space.dim, noise, f"table-{Path(file).stem}", "table", spec)
 
 
 def _objective(entry, key, space, noise, base) -> LandscapeEntry:
@@ -240,6 +286,17 @@ def _objective(entry, key, space, noise, base) -> LandscapeEntry:
         best = best if goal == "minimise" else -best
     spec = kinds.Objective(path, name, space, goal, best, digest=kinds.file_digest(path))
     return LandscapeEntry("objective", space.dim, noise, f"objective-{name}", "objective", spec)
+
+
+# How each kind of landscape entry is parsed.
+_PARSERS = {
+    "textbook": _textbook,
+    "drawn": _drawn,
+    "fitted": _fitted,
+    "likedata": _likedata,
+    "table": _table,
+    "objective": _objective,
+}
 
 
 _BELIEF_KEYS = (

@@ -41,7 +41,7 @@ from .space import Space
 
 __all__ = ["KINDS", "Drawn", "Fitted", "Objective", "file_digest", "find_function"]
 
-KINDS = ("textbook", "drawn", "fitted", "objective")
+KINDS = ("textbook", "drawn", "fitted", "objective", "likedata", "table")
 # What the minimum search of an objective sees where the function fails: large, finite.
 _FAILED = np.finfo(float).max / 4
 
@@ -68,6 +68,7 @@ class Drawn:
     length_scale: tuple[float, ...] = (0.2,)
     features: int = surfaces.DEFAULT_FEATURES
     kind: str = field(default="drawn", init=False)
+    placed_at_belief: bool = field(default=True, init=False)
 
     def landscape(
         self, name: str, dim: int, rng: np.random.Generator, at: tuple | None = None
@@ -122,6 +123,7 @@ class Fitted:
     goal: str = "minimise"
     warp: bool = False
     kind: str = field(default="fitted", init=False)
+    placed_at_belief: bool = field(default=False, init=False)
 
     @property
     def minimum_estimated(self) -> bool:
@@ -290,6 +292,7 @@ class Objective:
     minimum: float | None = None
     digest: str = ""
     kind: str = field(default="objective", init=False)
+    placed_at_belief: bool = field(default=False, init=False)
 
     @property
     def minimum_estimated(self) -> bool:

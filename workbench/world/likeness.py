@@ -504,6 +504,7 @@ class LikeData:
     response: str = ""
     goal: str = "minimise"
     kind: str = field(default="likedata", init=False)
+    placed_at_belief: bool = field(default=True, init=False)
 
     @property
     def minimum_estimated(self) -> bool:

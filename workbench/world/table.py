@@ -24,7 +24,7 @@ import numpy as np
 
 from .landscapes import Landscape
 
-__all__ = ["LOOKUPS", "Table", "TableLookup"]
+__all__ = ["LOOKUPS", "MeasuredTable", "TableLookup"]
 
 LOOKUPS = ("exact", "nearest")
 
@@ -93,12 +93,12 @@ class TableLookup:
 
 
 @dataclass(frozen=True)
-class Table:
+class MeasuredTable:
     """Measured configurations as a landscape kind (``table``): cube points ``X``, values to
     minimise ``y``, the space's ``levels`` (0 for a continuous parameter) and the ``lookup``.
 
-    Raises ``ValueError`` naming the first pair of rows (0-based) that measure the same
-    configuration, and when every response is the same.
+    Raises ``ValueError`` naming the first pair of data rows (1 = the first) that measure the
+    same configuration, and when every response is the same.
     """
 
     X: tuple[tuple[float, ...], ...]
@@ -110,6 +110,7 @@ class Table:
     response: str = ""
     goal: str = "minimise"
     kind: str = field(default="table", init=False)
+    placed_at_belief: bool = field(default=False, init=False)
 
     def __post_init__(self):
         if self.lookup not in LOOKUPS:
@@ -119,7 +120,7 @@ class Table:
         same = np.flatnonzero((keys[1:] == keys[:-1]).all(axis=1))
         if same.size:
             a, b = sorted(f._sorted_rows[[same[0], same[0] + 1]])
-            raise ValueError(f"rows {a} and {b} measure the same configuration")
+            raise ValueError(f"data rows {a + 1} and {b + 1} measure the same configuration")
         if np.ptp(np.asarray(self.y)) == 0:
             raise ValueError("every response has the same value")
 
