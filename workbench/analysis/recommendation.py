@@ -67,6 +67,8 @@ def stored_decision(ds: xr.Dataset) -> dict:
         "weights": json.loads(a.get("decision_weights", "{}")),
         "level": float(a.get("decision_level", 0.25)),
         "metric": str(a.get("decision_metric", "evaluations_to_target")),
+        "landscapes": json.loads(a.get("decision_landscapes", "{}")),
+        "score": str(a.get("decision_score", "raw")),
     }
 
 

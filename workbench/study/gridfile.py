@@ -185,6 +185,8 @@ def decision_attributes(decision: Decision) -> dict:
         "decision_weights": json.dumps({k: float(v) for k, v in decision.weights.items()}),
         "decision_level": float(decision.level),
         "decision_metric": decision.metric,
+        "decision_landscapes": json.dumps(decision.landscapes),
+        "decision_score": decision.score,
     }
 
 

@@ -10,7 +10,7 @@ import hashlib
 import itertools
 import tomllib
 from collections.abc import Mapping
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from pathlib import Path
 from typing import Any
 
@@ -62,8 +62,11 @@ _TOP_KEYS = (
     "decision",
     "random_multiple",
     "block",
+    "truth",
 )
 _RULES = ("expected", "minimax", "cvar")
+# Replicates of the truth grid: the real order of the settings must be measured well.
+TRUTH_REPLICATES = 32
 
 
 @dataclass(frozen=True)
@@ -76,14 +79,27 @@ class StrategyFactors:
     exploration: tuple[float, ...] = (st.DEFAULT_EXPLORATION,)
 
 
+# How a decision standardises the metric within each landscape before landscapes are combined
+# (see :mod:`workbench.analysis.standardise`), and the word that derives landscape weights
+# from each landscape's resemblance to the study's earlier evaluations.
+SCORES = ("raw", "ranks", "saving")
+RESEMBLANCE = "resemblance"
+
+
 @dataclass(frozen=True)
 class Decision:
-    """The decision rule the recommendation uses (see :mod:`workbench.analysis`)."""
+    """The decision rule the recommendation uses (see :mod:`workbench.analysis`).
+
+    ``weights`` are over distortions; ``landscapes`` over landscapes (by label or by kind, a
+    kind's weight shared by its landscapes), or ``"resemblance"``; empty means equal weights.
+    ``score`` standardises the metric within each landscape (``SCORES``)."""
 
     rule: str = "expected"
     weights: dict = field(default_factory=dict)
     level: float = 0.25
     metric: str = "evaluations_to_target"
+    landscapes: dict | str = field(default_factory=dict)
+    score: str = "raw"
 
 
 @dataclass(frozen=True)
@@ -113,6 +129,8 @@ class Study:
     path: str = "<study>"
     random_multiple: int = 1
     block: int = 8
+    truth: LandscapeEntry | None = None
+    truth_replicates: int = 32
 
     @property
     def digest(self) -> str:
@@ -120,9 +138,22 @@ class Study:
         data file or objective is a different grid."""
         h = hashlib.sha256(self.text.encode("utf-8"))
         for entry in self.landscapes:
+            h.update(entry.label.encode())
             if entry.spec is not None and getattr(entry.spec, "digest", ""):
                 h.update(entry.spec.digest.encode())
         return h.hexdigest()
+
+    def truth_study(self) -> Study:
+        """The same campaigns on the truth: its one landscape, its replicates, no truth."""
+        if self.truth is None:
+            raise InputError("truth", "a [truth] table in the study", raw("none"), self.path)
+        return replace(
+            self,
+            name=f"{self.name}-truth",
+            landscapes=(self.truth,),
+            replicates=self.truth_replicates,
+            truth=None,
+        )
 
     def design_size(self, dim: int) -> int:
         return self.initial_size if self.initial_size is not None else dim + 1
@@ -347,7 +378,8 @@ def _parse(
                     f"{entry.dim} component(s), one per parameter of landscape {entry.label}",
                     list(d.direction),
                 )
-    decision = _decision(doc.get("decision", {}), distortions)
+    decision = _decision(doc.get("decision", {}), distortions, landscapes)
+    truth, truth_replicates = _truth(doc.get("truth"), space, base)
     multiple = check_number(doc.get("random_multiple", 1), "random_multiple", low=1, integer=True)
     block = check_number(doc.get("block", 8), "block", low=1, integer=True)
     return Study(
@@ -373,7 +405,33 @@ def _parse(
         path=where,
         random_multiple=multiple,
         block=block,
+        truth=truth,
+        truth_replicates=truth_replicates,
     )
+
+
+def _truth(table, space, base) -> tuple[LandscapeEntry | None, int]:
+    """The ``[truth]`` table: a landscape entry that is the real response (a ``table`` of
+    measured configurations or the user's ``objective``), and the replicates of its grid."""
+    if table is None:
+        return None, TRUTH_REPLICATES
+    table = dict(check_table(table, "truth"))
+    replicates = check_number(
+        table.pop("replicates", TRUTH_REPLICATES), "truth.replicates", low=2, integer=True
+    )
+    if space is None:
+        raise InputError("truth", "a study with a [space] (the truth lives on it)", raw("none"))
+    try:
+        (entry,) = landscape_tables([table], space, base)
+    except InputError as err:
+        raise InputError(
+            err.key.replace("landscape[0]", "truth"), err.expected, err.got, err.where
+        ) from None
+    if entry.placed_at_belief:
+        raise InputError(
+            "truth", "a 'table' or an 'objective' (the real response)", raw(f"a {entry.kind}")
+        )
+    return replace(entry, label="truth"), replicates
 
 
 def _distortion(name: str, spec, key: str) -> Distortion:
@@ -489,9 +547,9 @@ def _one_strategy(table) -> tuple[tuple[StrategyFactors, ...], tuple[str, ...]]:
     return (), (name,)
 
 
-def _decision(table, distortions) -> Decision:
+def _decision(table, distortions, landscapes) -> Decision:
     table = check_table(table, "decision")
-    check_keys(table, "decision", ("rule", "weights", "level", "metric"))
+    check_keys(table, "decision", ("rule", "weights", "level", "metric", "landscapes", "score"))
     rule = check_choice(table.get("rule", "expected"), "decision.rule", _RULES)
     names = [d.name for d in distortions]
     weights = dict(check_table(table.get("weights", {}), "decision.weights"))
@@ -506,4 +564,26 @@ def _decision(table, distortions) -> Decision:
         "decision.metric",
         ("evaluations_to_target", "final_normalized_regret", "log_regret_area"),
     )
-    return Decision(rule, weights, level, metric)
+    score = check_choice(table.get("score", "raw"), "decision.score", SCORES)
+    return Decision(rule, weights, level, metric, _landscape_weights(table, landscapes), score)
+
+
+def _landscape_weights(table, landscapes) -> dict | str:
+    """``decision.landscapes``: "resemblance", or weights by landscape label or kind."""
+    given = table.get("landscapes", {})
+    if isinstance(given, str):
+        return check_choice(given, "decision.landscapes", (RESEMBLANCE,))
+    given = dict(check_table(given, "decision.landscapes"))
+    labels = [e.label for e in landscapes]
+    kinds = list(dict.fromkeys(e.kind for e in landscapes))
+    for k, v in given.items():
+        check_choice(k, "decision.landscapes", [*labels, *kinds])
+        check_number(v, f"decision.landscapes.{k}", low=0.0)
+    for e in landscapes:
+        if e.label in given and e.kind in given and e.label != e.kind:
+            raise InputError(
+                "decision.landscapes", f"{e.label!r} weighted once", raw("by label and by kind")
+            )
+    if given and sum(float(v) for v in given.values()) <= 0:
+        raise InputError("decision.landscapes", "weights that are not all 0", raw(str(given)))
+    return {k: float(v) for k, v in given.items()}
