@@ -17,6 +17,7 @@ from workbench.evidence import monitor as mo
 from workbench.study.runner import run_study
 from workbench.study.spec import load
 from workbench.world.beliefs import gaussian_at
+from workbench.world.reference import BeliefReference
 
 STUDY = """
 title = "monitor check"
@@ -85,24 +86,6 @@ def trained(tmp_path_factory):
 # --------------------------------------------------------------------------- features
 
 
-def test_hdr_level_matches_the_chi_square_formula_for_an_untruncated_gaussian():
-    # sd 0.05 around the centre: the cube's faces are 10 sd away, so truncation is nil.
-    centre, sd = np.array([0.5, 0.5, 0.5]), 0.05
-    belief = gaussian_at(centre, sd)
-    ref = mo.belief_reference(belief)
-    rng = np.random.default_rng(3)
-    U = centre + sd * rng.normal(size=(200, 3)) * rng.uniform(0.2, 1.6, size=(200, 1))
-    m2 = np.sum(((U - centre) / sd) ** 2, axis=1)
-    # Reference: level = P(M² < m²) = chi2.cdf(m², d) (scipy.stats.chi2).
-    expected = scipy.stats.chi2.cdf(m2, df=3)
-    # Monte-Carlo error of a share of 4096 draws: binomial sd, 4.5 sd allowed.
-    tolerance = 4.5 * np.sqrt(expected * (1 - expected) / mo.REFERENCE_DRAWS) + 2e-3
-    assert np.all(np.abs(ref.level(U) - expected) <= tolerance)
-    # The mode is the densest point; the sample's sd is the belief's.
-    assert ref.level(centre[None])[0] == 0.0
-    np.testing.assert_allclose(ref.sd, sd, rtol=0.05)
-
-
 def test_spearman_feature_matches_scipy_and_improvement_counts_new_bests():
     values = np.array([5.0, 3.0, 4.0, 2.0, 2.5, 1.0, 6.0, 0.5, 7.0])
     points = np.tile([0.4, 0.6], (9, 1))
@@ -120,7 +103,7 @@ def test_failed_evaluations_rank_last_and_are_counted():
     points = np.array([[0.4, 0.6], [0.9, 0.9], [0.4, 0.6], [0.1, 0.1]])
     f = dict(zip(mo.FEATURES, mo.campaign_features(points, values, BELIEF, 4), strict=True))
     assert f["failed_share"] == 0.5
-    ref = mo.belief_reference(BELIEF)
+    ref = BeliefReference.of(BELIEF)
     # The best is the last point, not a failed one at the mode.
     assert f["best_level"] == pytest.approx(ref.level(points[3:])[0])
 
@@ -143,7 +126,7 @@ def test_features_are_finite_permutation_invariant_and_use_only_the_first_t(case
     points = rng.random((n, 12, 2))
     values = rng.normal(size=(n, 12))
     values[rng.random((n, 12)) < 0.2] = np.nan
-    ref = mo.belief_reference(BELIEF)
+    ref = BeliefReference.of(BELIEF)
     f = mo.campaign_features(points, values, ref, [t, 12], quantile)
     assert f.shape == (n, 2, len(mo.FEATURES)) and np.isfinite(f).all()
     order = rng.permutation(n)

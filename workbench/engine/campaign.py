@@ -26,6 +26,7 @@ from dataclasses import dataclass
 import numpy as np
 from scipy.stats import qmc
 
+from ..world.reference import Belief
 from ..world.space import Space
 
 __all__ = ["BELIEF_USERS", "Campaign", "Trace", "run"]
@@ -42,7 +43,7 @@ class Campaign:
     strategy: str
     placement: object
     space: Space
-    belief: object
+    belief: Belief
     budget: int
     design: str = "sobol"
     design_size: int | None = None

@@ -10,6 +10,7 @@ from collections.abc import Mapping, Sequence
 
 import numpy as np
 
+from ..world.reference import Belief
 from ..world.space import Categorical, Continuous, Space
 
 __all__ = [
@@ -45,7 +46,7 @@ def _log_axis(ax) -> None:
 def belief_marginals(
     axes: Sequence,
     space: Space,
-    beliefs: Mapping[str, object],
+    beliefs: Mapping[str, Belief],
     optimum: np.ndarray | None = None,
     grid: int = 401,
 ) -> None:

@@ -27,6 +27,7 @@ from ..validation import (
 )
 from ..world import beliefs as bl
 from ..world.distortions import EXACT, MISPLACE, Distortion
+from ..world.reference import Belief
 from ..world.space import Categorical, Continuous, Integer, Space
 from .decay import Schedule, parse
 
@@ -132,7 +133,7 @@ class Study:
     initial_size: int | None
     landscapes: tuple[LandscapeEntry, ...]
     space: Space | None
-    belief: Any
+    belief: Belief
     spread: float
     distortions: tuple[Distortion, ...]
     strategies: tuple[StrategyFactors, ...]

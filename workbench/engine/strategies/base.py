@@ -18,12 +18,13 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 from functools import cache
-from typing import Protocol
+from typing import Protocol, cast
 
 import numpy as np
 from scipy import optimize
 from scipy.stats import qmc
 
+from ...world.reference import Belief, InverseCdfBelief
 from ...world.space import Space
 
 __all__ = ["LOG_BELIEF_FLOOR", "Step", "Strategy", "candidate_sets", "candidates", "maximise"]
@@ -55,7 +56,7 @@ class Step:
     space: Space
     X: np.ndarray
     y: np.ndarray
-    belief: object
+    belief: Belief
     log_belief_max: float
     weight: float
     quantile: float
@@ -105,8 +106,8 @@ def candidate_sets(steps: list[Step], rngs: list[np.random.Generator]) -> list[n
         d = step.space.dim
         rotated = (_sobol(d) + rng.random(d)) % 1.0
         belief = step.belief
-        if getattr(belief, "by_inverse_cdf", False):
-            drawn = belief.uniforms(BELIEF_CANDIDATES, rng)
+        if belief.by_inverse_cdf:
+            drawn = cast(InverseCdfBelief, belief).uniforms(BELIEF_CANDIDATES, rng)
             groups.setdefault(id(belief), []).append(i)
         else:
             drawn = np.atleast_2d(belief.sample(BELIEF_CANDIDATES, rng)).reshape(-1, d)
@@ -117,7 +118,8 @@ def candidate_sets(steps: list[Step], rngs: list[np.random.Generator]) -> list[n
             local = np.clip(best[:, None, :] + noise, 0.0, 1.0).reshape(-1, d)
         draws.append([rotated, drawn, local])
     for members in groups.values():
-        points = steps[members[0]].belief.from_uniforms(np.stack([draws[i][1] for i in members]))
+        shared = cast(InverseCdfBelief, steps[members[0]].belief)
+        points = shared.from_uniforms(np.stack([draws[i][1] for i in members]))
         for i, p in zip(members, points, strict=True):
             draws[i][1] = p
     return [
