@@ -2,6 +2,7 @@
 from a study's grid, and the advice it gives on campaigns the grid never saw."""
 
 import json
+import re
 import textwrap
 from dataclasses import replace
 
@@ -84,6 +85,17 @@ def trained(tmp_path_factory):
 
 
 # --------------------------------------------------------------------------- features
+
+
+def test_every_feature_is_documented_in_the_order_of_its_column():
+    # The module docstring documents every column; a feature added to the mapping must be
+    # added to that table too, in its place.
+    from workbench.evidence import features
+
+    documented = re.findall(r"^``(\w+)``", features.__doc__, flags=re.MULTILINE)
+    assert tuple(documented) == mo.FEATURES
+    f = mo.campaign_features(np.tile([0.4, 0.6], (5, 1)), np.arange(5.0), BELIEF, 5)
+    assert f.shape == (len(mo.FEATURES),)
 
 
 def test_spearman_feature_matches_scipy_and_improvement_counts_new_bests():
