@@ -8,7 +8,8 @@ from hypothesis import strategies as st
 from scipy import stats
 
 from workbench.world import beliefs as bl
-from workbench.world.reference import REFERENCE_DRAWS, BeliefReference, volume_fraction
+from workbench.world.reference import REFERENCE_DRAWS, Belief, BeliefReference, volume_fraction
+from workbench.world.space import Space
 
 # Dvoretzky–Kiefer–Wolfowitz inequality with Massart's constant (textbook): the empirical cdf of
 # N draws is within ε = sqrt(ln(2/α) / (2N)) of the true cdf everywhere with probability 1 − α.
@@ -84,3 +85,18 @@ def test_levels_fall_as_density_rises_and_a_belief_always_gives_the_same_referen
     again = BeliefReference.of(bl.gaussian_at(centre, spread))
     np.testing.assert_array_equal(again.level(U), level)
     assert BeliefReference.of(ref) is ref
+
+
+def test_joint_beliefs_keep_the_contract_and_only_inverse_cdf_ones_split_their_sampling():
+    gaussian = bl.gaussian_at([0.3, 0.7], 0.1)
+    mixture = bl.from_points(np.array([[0.2, 0.2], [0.8, 0.6], [0.5, 0.5]]), Space.unit_cube(2))
+    beta = bl.Product((bl.Beta(2.0, 3.0), bl.TruncatedGaussian(0.5, 0.2)))
+    for belief in (gaussian, mixture, beta):
+        assert isinstance(belief, Belief)
+        assert belief.sample(5, np.random.default_rng(0)).shape == (5, belief.dim)
+    assert gaussian.by_inverse_cdf and not mixture.by_inverse_cdf and not beta.by_inverse_cdf
+    # The pair reproduces sample() from the same stream, draw for draw.
+    np.testing.assert_array_equal(
+        gaussian.from_uniforms(gaussian.uniforms(7, np.random.default_rng(4))),
+        gaussian.sample(7, np.random.default_rng(4)),
+    )

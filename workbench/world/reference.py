@@ -11,7 +11,7 @@ the same belief gives the same number wherever it is asked for.
 from __future__ import annotations
 
 from dataclasses import dataclass
-from typing import Protocol
+from typing import Protocol, runtime_checkable
 
 import numpy as np
 
@@ -48,6 +48,7 @@ class Marginal(Protocol):
     def mode(self) -> float: ...
 
 
+@runtime_checkable
 class Belief(Protocol):
     """A joint belief: a probability distribution over the unit cube [0, 1]^d saying where the
     optimum is believed to lie. Frozen and vectorised. The contract:
