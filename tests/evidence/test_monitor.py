@@ -2,6 +2,7 @@
 from a study's grid, and the advice it gives on campaigns the grid never saw."""
 
 import json
+import re
 import textwrap
 from dataclasses import replace
 
@@ -17,6 +18,7 @@ from workbench.evidence import monitor as mo
 from workbench.study.runner import run_study
 from workbench.study.spec import load
 from workbench.world.beliefs import gaussian_at
+from workbench.world.reference import BeliefReference
 
 STUDY = """
 title = "monitor check"
@@ -85,22 +87,15 @@ def trained(tmp_path_factory):
 # --------------------------------------------------------------------------- features
 
 
-def test_hdr_level_matches_the_chi_square_formula_for_an_untruncated_gaussian():
-    # sd 0.05 around the centre: the cube's faces are 10 sd away, so truncation is nil.
-    centre, sd = np.array([0.5, 0.5, 0.5]), 0.05
-    belief = gaussian_at(centre, sd)
-    ref = mo.belief_reference(belief)
-    rng = np.random.default_rng(3)
-    U = centre + sd * rng.normal(size=(200, 3)) * rng.uniform(0.2, 1.6, size=(200, 1))
-    m2 = np.sum(((U - centre) / sd) ** 2, axis=1)
-    # Reference: level = P(M² < m²) = chi2.cdf(m², d) (scipy.stats.chi2).
-    expected = scipy.stats.chi2.cdf(m2, df=3)
-    # Monte-Carlo error of a share of 4096 draws: binomial sd, 4.5 sd allowed.
-    tolerance = 4.5 * np.sqrt(expected * (1 - expected) / mo.REFERENCE_DRAWS) + 2e-3
-    assert np.all(np.abs(ref.level(U) - expected) <= tolerance)
-    # The mode is the densest point; the sample's sd is the belief's.
-    assert ref.level(centre[None])[0] == 0.0
-    np.testing.assert_allclose(ref.sd, sd, rtol=0.05)
+def test_every_feature_is_documented_in_the_order_of_its_column():
+    # The module docstring documents every column; a feature added to the mapping must be
+    # added to that table too, in its place.
+    from workbench.evidence import features
+
+    documented = re.findall(r"^``(\w+)``", features.__doc__, flags=re.MULTILINE)
+    assert tuple(documented) == mo.FEATURES
+    f = mo.campaign_features(np.tile([0.4, 0.6], (5, 1)), np.arange(5.0), BELIEF, 5)
+    assert f.shape == (len(mo.FEATURES),)
 
 
 def test_spearman_feature_matches_scipy_and_improvement_counts_new_bests():
@@ -120,7 +115,7 @@ def test_failed_evaluations_rank_last_and_are_counted():
     points = np.array([[0.4, 0.6], [0.9, 0.9], [0.4, 0.6], [0.1, 0.1]])
     f = dict(zip(mo.FEATURES, mo.campaign_features(points, values, BELIEF, 4), strict=True))
     assert f["failed_share"] == 0.5
-    ref = mo.belief_reference(BELIEF)
+    ref = BeliefReference.of(BELIEF)
     # The best is the last point, not a failed one at the mode.
     assert f["best_level"] == pytest.approx(ref.level(points[3:])[0])
 
@@ -143,7 +138,7 @@ def test_features_are_finite_permutation_invariant_and_use_only_the_first_t(case
     points = rng.random((n, 12, 2))
     values = rng.normal(size=(n, 12))
     values[rng.random((n, 12)) < 0.2] = np.nan
-    ref = mo.belief_reference(BELIEF)
+    ref = BeliefReference.of(BELIEF)
     f = mo.campaign_features(points, values, ref, [t, 12], quantile)
     assert f.shape == (n, 2, len(mo.FEATURES)) and np.isfinite(f).all()
     order = rng.permutation(n)

@@ -207,16 +207,6 @@ def test_summary_reports_intervals_in_user_units_and_volume():
     assert s.parameters[1].central90 == ("rye",)
 
 
-def test_volume_holding_ninety_percent_matches_the_chi_square_disc():
-    # An isotropic bivariate normal's 90 % highest-density region is a disc of radius² =
-    # χ²₂(0.9)·σ² (textbook: the Mahalanobis distance is chi-square with 2 degrees of freedom).
-    sd = 0.05
-    area = np.pi * stats.chi2.ppf(0.9, 2) * sd**2
-    assert bl.volume_fraction(bl.gaussian_at([0.5, 0.5], sd), draws=100_000) == pytest.approx(
-        area, rel=0.05
-    )
-
-
 def test_a_gaussian_product_samples_by_scipy_truncnorm_quantiles_of_its_uniform_draws():
     # Reference: scipy.stats.truncnorm.ppf (inverse-cdf sampling, common practice).
     b = bl.Product((bl.TruncatedGaussian(0.3, 0.2), bl.Uniform(), bl.TruncatedGaussian(0.9, 0.1)))

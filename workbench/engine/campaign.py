@@ -37,6 +37,7 @@ from functools import cache
 import numpy as np
 from scipy.stats import qmc
 
+from ..world.reference import Belief
 from ..world.space import Space
 from .strategies.base import DEFAULT_EXPLORATION, DEFAULT_QUANTILE, Step
 
@@ -77,7 +78,7 @@ class Campaign:
     strategy: str
     placement: object
     space: Space
-    belief: object
+    belief: Belief
     budget: int
     design: str = "sobol"
     design_size: int | None = None
@@ -171,7 +172,7 @@ def candidate_sets(steps: list[Step], rngs: list[np.random.Generator]) -> list[n
         d = step.space.dim
         rotated = (_sobol(d) + rng.random(d)) % 1.0
         belief = step.belief
-        if getattr(belief, "by_inverse_cdf", False):
+        if belief.by_inverse_cdf:
             drawn = belief.uniforms(BELIEF_CANDIDATES, rng)
             groups.setdefault(id(belief), []).append(i)
         else:

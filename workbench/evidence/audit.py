@@ -17,6 +17,10 @@ Three questions, each answered from the data and, where a grid is given, from th
    severity (distance, mass) is nearest; with the grid, what it costs the recommended setting
    against no belief.
 
+Levels, the mode and the mass are read from the belief's fixed sample
+(:class:`~workbench.world.reference.BeliefReference`), the one the monitor and the
+distortions' severity read.
+
 The verdict: ``consistent`` when the data put the optimum inside the belief's 90 % region with
 probability at least ``CONSISTENT_AT``, ``contradicted`` below ``CONTRADICTED_BELOW``,
 ``doubtful`` between.
@@ -29,8 +33,8 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from ..world import kinds
-from ..world.beliefs import highest_density_level, mass_within
 from ..world.history import History
+from ..world.reference import Belief, BeliefReference
 
 __all__ = [
     "CONSISTENT_AT",
@@ -101,7 +105,7 @@ def nearest_distortion(
 
 def audit(
     history: History,
-    belief,
+    belief: Belief,
     *,
     top: float,
     radius: float,
@@ -114,15 +118,16 @@ def audit(
     k = max(1, int(np.ceil(top * history.rows)))
     order = np.argsort(history.y, kind="stable")
     good = history.X[order[:k]]
-    good_levels = highest_density_level(belief, good)
+    ref = BeliefReference.of(belief)
+    good_levels = ref.level(good)
     argmins = kinds.Fitted.from_history(history).optima(draws, rng)
-    argmin_levels = highest_density_level(belief, argmins)
+    argmin_levels = ref.level(argmins)
     median = np.median(argmins, axis=0)
-    mode = np.atleast_1d(np.asarray(belief.mode(), dtype=float))
+    mode = ref.mode
     inside_50 = float(np.mean(argmin_levels <= 0.5))
     inside_90 = float(np.mean(argmin_levels <= 0.9))
     distance = float(np.linalg.norm(mode - median))
-    mass = mass_within(belief, median, radius)
+    mass = ref.mass_within(median, radius)
     severities = severities or {}
     return Audit(
         rows=history.rows,

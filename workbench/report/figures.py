@@ -11,6 +11,7 @@ from collections.abc import Mapping, Sequence
 import numpy as np
 
 from ..world.marginals import GRID_POINTS, MarginalCurve, marginal_curves
+from ..world.reference import Belief
 from ..world.space import Space
 
 __all__ = [
@@ -47,7 +48,7 @@ def _log_axis(ax) -> None:
 def belief_marginals(
     axes: Sequence,
     space: Space,
-    beliefs: Mapping[str, object],
+    beliefs: Mapping[str, Belief],
     optimum: np.ndarray | None = None,
     grid: int = GRID_POINTS,
 ) -> None:

@@ -21,6 +21,7 @@ from ..seeding import campaign_streams, derive, generator
 from ..world import landscapes as ls
 from ..world.beliefs import gaussian_at
 from ..world.distortions import severity
+from ..world.reference import Belief, BeliefReference
 from ..world.space import Continuous, Space
 from .spec import LandscapeEntry, Study
 
@@ -113,21 +114,26 @@ class Cell:
         return land.placed(at=self._at)
 
     @cached_property
-    def exact_belief(self):
+    def exact_belief(self) -> Belief:
         if self.study.space is not None:
             return self.study.belief
         at = self.placement.at if self.placement.at is not None else self.placement.minimisers[0]
         return gaussian_at(np.asarray(at), self.study.spread)
 
     @cached_property
-    def belief(self):
+    def belief(self) -> Belief:
         """The distorted belief (its direction drawn from this cell's distortion stream)."""
         d = self.study.distortions[self.distortion]
         return d.apply(self.exact_belief, self.placement, self.streams()["distortion"])
 
     @cached_property
+    def reference(self) -> BeliefReference:
+        """The distorted belief's fixed sample, read by severity, audit and monitor."""
+        return BeliefReference.of(self.belief)
+
+    @cached_property
     def severity(self):
-        return severity(self.belief, self.placement, radius=SEVERITY_RADIUS)
+        return severity(self.reference, self.placement, radius=SEVERITY_RADIUS)
 
     @cached_property
     def mode_value(self) -> float:

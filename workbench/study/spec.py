@@ -26,6 +26,7 @@ from ..validation import (
     raw,
 )
 from ..world.distortions import EXACT, MISPLACE, Distortion
+from ..world.reference import Belief
 from ..world.space import Space
 from .decay import Schedule, parse
 from .tables import LandscapeEntry, belief_table, landscape_tables, space_table
@@ -118,7 +119,7 @@ class Study:
     initial_size: int | None
     landscapes: tuple[LandscapeEntry, ...]
     space: Space | None
-    belief: Any
+    belief: Belief
     spread: float
     distortions: tuple[Distortion, ...]
     strategies: tuple[StrategyFactors, ...]

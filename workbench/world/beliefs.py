@@ -10,9 +10,11 @@ coordinate ``u`` in ``[0, 1]``; joint beliefs live on ``[0, 1]^d``. Both offer
 - ``centred(c)`` and ``scaled(f)``: the same shape moved so that its mode is ``c``, or with its
   spread multiplied by ``f``; the distortions are built from these two.
 
-Marginals also offer ``cdf`` and ``ppf`` for intervals. Densities in user units follow from the
-encoding in :mod:`workbench.world.space`: a Gaussian on a log-scale parameter's coordinate is a
-log-normal in the user's units; a discrete parameter's belief is piecewise constant over its bins.
+Marginals also offer ``cdf`` and ``ppf`` for intervals. The joint beliefs (``Product``,
+``Mixture``) fulfil the contract :class:`workbench.world.reference.Belief`. Densities in user
+units follow from the encoding in :mod:`workbench.world.space`: a Gaussian on a log-scale
+parameter's coordinate is a log-normal in the user's units; a discrete parameter's belief is
+piecewise constant over its bins.
 """
 
 from __future__ import annotations
@@ -25,6 +27,7 @@ from functools import cached_property
 import numpy as np
 from scipy import optimize, special, stats
 
+from .reference import volume_fraction
 from .space import Categorical, Continuous, Integer, Parameter, Space
 
 __all__ = [
@@ -37,9 +40,7 @@ __all__ = [
     "from_points",
     "gaussian_at",
     "gaussian_for",
-    "highest_density_level",
     "level_labels",
-    "mass_within",
     "probabilities_for",
 ]
 
@@ -402,6 +403,11 @@ class Mixture:
     def dim(self) -> int:
         return self.components[0].dim if self.is_joint else 1
 
+    @property
+    def by_inverse_cdf(self) -> bool:
+        """Never: a draw first picks a component (the contract's optional pair is absent)."""
+        return False
+
     def logpdf(self, u) -> np.ndarray:
         logs = np.stack([c.logpdf(u) for c in self.components])
         with np.errstate(divide="ignore"):
@@ -647,46 +653,6 @@ def _top_choices(parameter: Categorical, marginal, mass: float) -> tuple[str, ..
     order = np.argsort(-p, kind="stable")
     count = int(np.searchsorted(np.cumsum(p[order]), mass - 1e-12) + 1)
     return tuple(parameter.choices[i] for i in order[:count])
-
-
-def volume_fraction(belief, mass: float = 0.9, draws: int = 20000, seed: int = 0) -> float:
-    """Fraction of the cube's volume in the highest-density region holding ``mass``.
-
-    Monte Carlo on a fixed stream: the density threshold τ is the (1 − mass) quantile of the log
-    density at belief draws; the fraction is the share of uniform points with log density ≥ τ.
-    """
-    rng = np.random.default_rng(seed)
-    inside = belief.logpdf(belief.sample(draws, rng))
-    tau = np.quantile(inside, 1.0 - mass)
-    return float(np.mean(belief.logpdf(rng.random((draws, belief.dim))) >= tau))
-
-
-def _log_density_draws(belief, draws: int, seed: int) -> np.ndarray:
-    rng = np.random.default_rng(seed)
-    U = np.asarray(belief.sample(draws, rng), dtype=float).reshape(draws, -1)
-    return np.sort(belief.logpdf(U))
-
-
-def highest_density_level(belief, U, draws: int = 20000, seed: int = 0) -> np.ndarray:
-    """For each cube point, the belief's mass denser than it: the smallest highest-density
-    region that contains the point holds this share of the belief (0 at the mode, near 1 far
-    out). A point drawn from the belief itself has a level uniform on [0, 1].
-
-    Monte Carlo on a fixed stream of ``draws`` belief samples: level(u) = P(log p(Z) > log p(u)).
-    """
-    logs = _log_density_draws(belief, draws, seed)
-    at = belief.logpdf(np.atleast_2d(np.asarray(U, dtype=float)))
-    return 1.0 - np.searchsorted(logs, at, side="right") / len(logs)
-
-
-def mass_within(belief, points, radius: float, draws: int = 4096, seed: int = 0) -> float:
-    """The belief's mass within ``radius`` (Euclidean, cube units) of the nearest of ``points``,
-    a Monte-Carlo estimate from ``draws`` samples of a fixed stream."""
-    X = np.asarray(belief.sample(draws, np.random.default_rng(seed)), dtype=float)
-    X = X.reshape(draws, -1)
-    P = np.atleast_2d(np.asarray(points, dtype=float))
-    gaps = np.linalg.norm(X[:, None, :] - P[None, :, :], axis=2).min(axis=1)
-    return float(np.mean(gaps <= radius))
 
 
 def summarise(belief, space: Space) -> BeliefSummary:

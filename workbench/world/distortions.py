@@ -18,7 +18,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from .beliefs import mass_within
+from .reference import Belief, BeliefReference
 
 __all__ = ["EXACT", "MISPLACE", "Distortion", "Severity", "severity"]
 
@@ -60,7 +60,7 @@ class Distortion:
     def is_exact(self) -> bool:
         return self.shift == 0 and self.scale == 1 and self.misplace is None
 
-    def apply(self, belief, placement, rng: np.random.Generator):
+    def apply(self, belief: Belief, placement, rng: np.random.Generator) -> Belief:
         """The distorted belief; ``placement`` is the landscape on the cube (for misplace)."""
         if self.misplace == "worst":
             belief = belief.centred(placement.worst()[0])
@@ -102,12 +102,10 @@ class Severity:
     radius: float
 
 
-def severity(
-    belief, placement, *, radius: float = 0.1, draws: int = 4096, seed: int = 0
-) -> Severity:
-    """Severity of ``belief`` on ``placement``; the mass is a Monte-Carlo estimate from ``draws``
-    samples of a fixed stream, so the same belief always reports the same number."""
-    mode = np.atleast_1d(np.asarray(belief.mode(), dtype=float))
-    distance = float(placement.nearest_minimiser_distance(mode))
-    mass = mass_within(belief, placement.minimisers, radius, draws=draws, seed=seed)
-    return Severity(distance, mass, radius)
+def severity(belief: Belief | BeliefReference, placement, *, radius: float = 0.1) -> Severity:
+    """Severity of ``belief`` on ``placement``; the mass is read from the belief's fixed sample
+    (:class:`~workbench.world.reference.BeliefReference`), so the same belief always reports the
+    same number."""
+    ref = BeliefReference.of(belief)
+    distance = float(placement.nearest_minimiser_distance(ref.mode))
+    return Severity(distance, ref.mass_within(placement.minimisers, radius), radius)

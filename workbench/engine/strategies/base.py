@@ -9,7 +9,7 @@ hooks over a stack of campaigns. This module imports numpy only, so the registry
 from __future__ import annotations
 
 from dataclasses import dataclass
-from typing import ClassVar
+from typing import TYPE_CHECKING, ClassVar
 
 import numpy as np
 
@@ -23,6 +23,9 @@ __all__ = [
     "Strategy",
     "first_new",
 ]
+
+if TYPE_CHECKING:
+    from ...world.reference import Belief
 
 # The threshold quantile γ and the exploration rate ε when a study or command names none.
 DEFAULT_QUANTILE = 0.25
@@ -43,7 +46,7 @@ class Step:
     space: object
     X: np.ndarray
     y: np.ndarray
-    belief: object
+    belief: Belief
     weight: float = 0.0
 
     @property
