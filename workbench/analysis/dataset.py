@@ -32,6 +32,7 @@ _CAMPAIGN = ("setting", "landscape", "distortion", "replicate")
 POOLED = ("landscape", "replicate")
 # Survival that is ½ in exact arithmetic may come out a rounding error above it.
 HALF_TOLERANCE = 1e-9
+TEXTBOOK = "textbook"
 # What every grid holds (see gridfile): a file without them is not one.
 _GRID_NAMES = ("normalized_regret", "baseline_normalized_regret", *SETTING_FACTORS)
 
@@ -168,3 +169,10 @@ def series(ds: xr.Dataset, name: str = "normalized_regret") -> xr.DataArray:
 
 def guided_only(values: xr.DataArray) -> xr.DataArray:
     return values.isel(setting=np.flatnonzero(values["kind"].values == "guided"))
+
+
+def landscape_kinds(ds: xr.Dataset) -> list[str]:
+    """The kind of each landscape of the grid, in order."""
+    if "landscape_kind" in ds:
+        return [str(k) for k in ds["landscape_kind"].values]
+    return [TEXTBOOK] * ds.sizes["landscape"]

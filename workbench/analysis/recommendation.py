@@ -5,27 +5,66 @@ from __future__ import annotations
 import json
 import math
 from collections.abc import Mapping, Sequence
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 
 import numpy as np
 import xarray as xr
 
+from ..engine.strategies import reference
+from ..study.spec import RESEMBLANCE, SCORES
 from ..validation import InputError, check_choice, check_number, raw
-from .dataset import METRIC_NAMES, METRICS, RULES, SETTING_FACTORS, coordinate_names, guided_only
+from .dataset import (
+    METRIC_NAMES,
+    METRICS,
+    RULES,
+    SETTING_FACTORS,
+    coordinate_names,
+    guided_only,
+    landscape_kinds,
+)
 from .grid_metrics import campaign_metric
-from .statistics import Resampling, bootstrap, mean_of
+from .standardise import over_landscapes, standardise
+from .statistics import Resampling, bootstrap
 
 
 @dataclass(frozen=True)
 class Rule:
     """A decision rule: ``expected`` (weighted mean over distortions), ``minimax`` (the worst
     distortion with positive weight) or ``cvar`` (mean of the worst ``level`` share of the
-    weight), applied to ``metric`` (lower is better). ``weights`` sum to 1."""
+    weight), applied to ``metric`` (lower is better). ``weights`` sum to 1.
+
+    Before distortions are combined, the metric is standardised within each landscape by
+    ``score`` (:mod:`.standardise`: ``raw``, ``ranks`` or ``saving``) and averaged over
+    landscapes with ``landscape_weights`` (summing to 1; empty means equal), chosen as
+    ``landscape_basis`` says."""
 
     rule: str
     weights: Mapping[str, float]
     level: float
     metric: str
+    landscape_weights: Mapping[str, float] = field(default_factory=dict)
+    score: str = "raw"
+    landscape_basis: str = "equal weights"
+
+    def weights_over(self, landscapes: Sequence[str]) -> dict[str, float] | None:
+        """The landscape weights restricted to ``landscapes`` and renormalised; None (equal)
+        when the rule has none or gives them all 0."""
+        w = {n: float(self.landscape_weights.get(n, 0.0)) for n in landscapes}
+        if not self.landscape_weights or sum(w.values()) <= 0:
+            return None
+        return w
+
+    def landscapes_text(self) -> str:
+        """How landscapes are combined, in words."""
+        score = {
+            "raw": "the metric as it is",
+            "ranks": "the settings' ranks within each landscape",
+            "saving": "the saving against no belief in units of each landscape's spread",
+        }[self.score]
+        if self.landscape_weights:
+            w = ", ".join(f"{k} {v:.2g}" for k, v in self.landscape_weights.items())
+            return f"landscapes weighted {w} ({self.landscape_basis}); score: {score}"
+        return f"landscapes weighted equally; score: {score}"
 
     def describe(self) -> str:
         """The rule in words, for reports and the command line."""
@@ -38,7 +77,12 @@ class Rule:
                 "of the distortion weight (CVaR)"
             ),
         }[self.rule]
-        return f"{head} (weights {w}); lower is better"
+        tail = (
+            ""
+            if self.score == "raw" and not self.landscape_weights
+            else "; " + (self.landscapes_text())
+        )
+        return f"{head} (weights {w}){tail}; lower is better"
 
 
 def parse_weights(text: str, distortions: Sequence[str], key: str = "--weights") -> dict:
@@ -78,6 +122,8 @@ def decision_rule(
     weights: Mapping[str, float] | str | None = None,
     level: float | None = None,
     metric: str | None = None,
+    landscapes: Mapping[str, float] | str | None = None,
+    score_method: str | None = None,
 ) -> Rule:
     """The decision rule: given values, else the study's [decision] table (stored in the grid,
     :func:`stored_decision`), else expected evaluations to target with equal weights. Weights
@@ -102,7 +148,63 @@ def decision_rule(
     if total <= 0:
         raise InputError("--weights", "weights that are not all 0", raw(str(dict(weights))))
     full = {n: float(weights.get(n, 0.0)) / total for n in names}
-    return Rule(rule, full, float(level), metric)
+    score_method = check_choice(
+        score_method if score_method is not None else decision["score"], "--score", SCORES
+    )
+    lw, basis = landscape_weights(
+        ds, landscapes if landscapes is not None else decision["landscapes"]
+    )
+    return Rule(rule, full, float(level), metric, lw, score_method, basis)
+
+
+def landscape_weights(ds: xr.Dataset, given: Mapping[str, float] | str) -> tuple[dict, str]:
+    """Weights over the grid's landscapes, summing to 1, and why: ``given`` by label or kind (a
+    kind's weight shared equally by its landscapes), ``"resemblance"`` (each landscape's rank
+    agreement with the study's earlier evaluations, its negative part cut to 0: a landscape
+    that orders the data against the measurements gets no weight), or nothing (equal)."""
+    labels = coordinate_names(ds, "landscape")
+    kinds = landscape_kinds(ds)
+    if given == RESEMBLANCE:
+        if "resemblance" not in ds:
+            raise InputError(
+                "decision.landscapes",
+                "a grid whose study has earlier evaluations (a fitted or drawn_like landscape)",
+                raw("a grid without resemblance"),
+            )
+        r = np.nan_to_num(ds["resemblance"].values.astype(float), nan=0.0)
+        w = np.maximum(r, 0.0)
+        source = ds.attrs.get("resemblance_data", "the earlier evaluations")
+        if w.sum() <= 0:
+            return {}, f"equal: no landscape orders {source} better than chance"
+        w = w / w.sum()
+        return (
+            dict(zip(labels, w.tolist(), strict=True)),
+            f"by resemblance to {source}: rank agreement, negative cut to 0",
+        )
+    if not given:
+        return {}, "equal weights"
+    w = np.zeros(len(labels))
+    for key, value in given.items():
+        if key in labels:
+            w[labels.index(key)] += float(value)
+        else:
+            members = [i for i, k in enumerate(kinds) if k == key]
+            check_choice(key, "--landscapes", [*labels, *dict.fromkeys(kinds)])
+            w[members] += float(value) / len(members)
+    if w.sum() <= 0:
+        raise InputError("--landscapes", "weights that are not all 0", raw(str(dict(given))))
+    return dict(zip(labels, (w / w.sum()).tolist(), strict=True)), "the study's weights"
+
+
+def setting_scores(values: xr.DataArray, rule: Rule) -> xr.DataArray:
+    """The rule's score of every belief-guided setting (lower is better): the metric
+    standardised within each landscape (``rule.score``; ``saving`` needs the no-belief row in
+    ``values``), averaged over landscapes with the rule's weights, combined over distortions.
+    With the raw metric and equal weights this is the plain mean over landscapes and
+    replicates."""
+    labels = coordinate_names(values, "landscape")
+    std = standardise(values, rule.score)
+    return score(over_landscapes(std, rule.weights_over(labels)), rule)
 
 
 def score(values: xr.DataArray, rule: Rule) -> xr.DataArray:
@@ -230,6 +332,27 @@ def _plain(v):
     return v
 
 
+def decision_values(ds: xr.Dataset, rule: Rule, strategy: str | None = None) -> xr.DataArray:
+    """The per-campaign metric a rule scores: the belief-guided settings (only ``strategy``'s
+    if given), with the no-belief row when the score is a saving against it."""
+    metric = campaign_metric(ds, rule.metric)
+    values = guided_only(metric)
+    if values.sizes["setting"] == 0:
+        raise InputError("strategy", "a grid with belief-guided settings", raw("none"))
+    if strategy is not None:
+        present = list(dict.fromkeys(str(v) for v in values["strategy"].values))
+        check_choice(strategy, "--strategy", present)
+        values = values.isel(setting=np.flatnonzero(values["strategy"].values == strategy))
+    if rule.score == "saving":
+        base = reference()
+        if base not in coordinate_names(metric, "setting"):
+            raise InputError(
+                "--score", f"a grid with the {base!r} baseline (a saving is against it)", "saving"
+            )
+        values = xr.concat([values, metric.sel(setting=[base])], "setting")
+    return values
+
+
 def recommend(
     ds: xr.Dataset,
     rule: Rule | None = None,
@@ -237,45 +360,48 @@ def recommend(
     strategy: str | None = None,
 ) -> Recommendation:
     """The belief-guided setting with the lowest score under ``rule`` (default
-    :func:`decision_rule` of the grid); the metric is averaged over landscapes and replicates
-    in each distortion before the rule combines distortions. ``strategy`` restricts the choice
-    to one strategy's settings (for example the pseudo-posterior's decay × quantile)."""
+    :func:`decision_rule` of the grid; :func:`setting_scores`). ``strategy`` restricts the
+    choice to one strategy's settings (for example the pseudo-posterior's decay × quantile).
+
+    The value shown, with its interval, is the rule's raw metric under the rule's landscape
+    weights (evaluations, say), whatever the score that chose."""
     rule = rule or decision_rule(ds)
     rs = resampling or Resampling()
-    values = guided_only(campaign_metric(ds, rule.metric))
-    if values.sizes["setting"] == 0:
-        raise InputError("strategy", "a grid with belief-guided settings", raw("none"))
-    if strategy is not None:
-        present = list(dict.fromkeys(str(v) for v in values["strategy"].values))
-        check_choice(strategy, "--strategy", present)
-        values = values.isel(setting=np.flatnonzero(values["strategy"].values == strategy))
-    boot = bootstrap(values, lambda v: score(mean_of(v), rule), resampling=rs, keep=True)
+    values = decision_values(ds, rule, strategy)
+    boot = bootstrap(values, lambda v: setting_scores(v, rule), resampling=rs, keep=True)
+    shown = boot
+    if rule.score != "raw":
+        plain = replace(rule, score="raw")
+        shown = bootstrap(values, lambda v: setting_scores(v, plain), resampling=rs)
     estimate = boot["estimate"].values
     order = np.argsort(estimate, kind="stable")
-    labels = [str(s) for s in values["setting"].values]
+    labels = [str(s) for s in boot["setting"].values]
     best = labels[order[0]]
     # A draw counts for the choice in proportion when several settings tie at its minimum.
     draws = boot["distribution"].transpose("draw", "setting").values
     lowest = draws == draws.min(axis=1, keepdims=True)
     stability = float(np.mean(lowest[:, order[0]] / lowest.sum(axis=1)))
+
+    def plain_value(i: int) -> tuple[float, float, float]:
+        return tuple(float(shown[k].values[i]) for k in ("estimate", "low", "high"))
+
     runner = None
     if len(order) > 1:
         r = order[1]
+        value, low, high = plain_value(r)
         runner = _factors(values, labels[r])
-        runner.update(
-            value=_plain(float(estimate[r])),
-            interval=[_plain(float(boot["low"].values[r])), _plain(float(boot["high"].values[r]))],
-        )
+        runner.update(value=_plain(value), interval=[_plain(low), _plain(high)])
     lolo = {}
     if values.sizes["landscape"] > 1:
         for name in coordinate_names(ds, "landscape"):
             rest = values.drop_sel(landscape=name)
-            lolo[name] = labels[int(np.argmin(score(mean_of(rest), rule).values))]
+            lolo[name] = labels[int(np.argmin(setting_scores(rest, rule).values))]
+    value, low, high = plain_value(order[0])
     return Recommendation(
         rule=rule,
         choice=_factors(values, best),
-        value=float(estimate[order[0]]),
-        interval=(float(boot["low"].values[order[0]]), float(boot["high"].values[order[0]])),
+        value=value,
+        interval=(low, high),
         runner_up=runner,
         stability=stability,
         leave_one_landscape_out=lolo,

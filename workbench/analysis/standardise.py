@@ -34,6 +34,7 @@ import numpy as np
 import xarray as xr
 from scipy.stats import rankdata
 
+from ..study.spec import SCORES
 from ..validation import InputError, check_choice, check_number
 from ..validation import raw as raw_text
 from .dataset import NO_BELIEF
@@ -51,7 +52,7 @@ __all__ = [
     "standardise",
 ]
 
-METHODS = ("raw", "ranks", "saving")
+METHODS = SCORES
 SPREADS = ("sd", "iqr")
 # A landscape × distortion whose spread over settings is at most this fraction of the largest
 # |metric| there (settings and baseline) counts as a tie and contributes 0 under `saving`.

@@ -10,24 +10,17 @@ landscapes, with a paired bootstrap interval over replicates (0 when the choices
 
 from __future__ import annotations
 
+from dataclasses import replace
+
 import numpy as np
 import xarray as xr
 
-from .dataset import guided_only
+from .dataset import TEXTBOOK, guided_only, landscape_kinds
 from .grid_metrics import campaign_metric
-from .recommendation import Rule, recommend, score
-from .statistics import Resampling, bootstrap, mean_of
+from .recommendation import Rule, recommend, setting_scores
+from .statistics import Resampling, bootstrap
 
 __all__ = ["landscape_kinds", "transfer"]
-
-TEXTBOOK = "textbook"
-
-
-def landscape_kinds(ds: xr.Dataset) -> list[str]:
-    """The kind of each landscape of the grid, in order."""
-    if "landscape_kind" in ds:
-        return [str(k) for k in ds["landscape_kind"].values]
-    return [TEXTBOOK] * ds.sizes["landscape"]
 
 
 def transfer(ds: xr.Dataset, rule: Rule, resampling: Resampling | None = None) -> xr.Dataset:
@@ -35,6 +28,8 @@ def transfer(ds: xr.Dataset, rule: Rule, resampling: Resampling | None = None) -
     the rule, and ``cost`` (with ``low``, ``high``) of using the textbook choice there instead
     (NaN for the textbook row, and everywhere when the grid has no textbook landscape)."""
     rs = resampling or Resampling()
+    # The cost of the textbook choice is counted in the metric itself (evaluations, say).
+    plain = replace(rule, score="raw")
     kinds = landscape_kinds(ds)
     present = list(dict.fromkeys(kinds))
     values = guided_only(campaign_metric(ds, rule.metric))
@@ -53,7 +48,7 @@ def transfer(ds: xr.Dataset, rule: Rule, resampling: Resampling | None = None) -
             sub = sub.sel(setting=pair) if pair[0] != pair[1] else sub.sel(setting=pair[:1])
 
             def difference(v):
-                s = score(mean_of(v), rule)
+                s = setting_scores(v, plain)
                 return s.isel(setting=0) - s.isel(setting=-1)
 
             boot = bootstrap(sub, difference, resampling=rs)

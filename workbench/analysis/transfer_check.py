@@ -27,16 +27,24 @@ from __future__ import annotations
 
 import math
 from collections.abc import Callable
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 
 import numpy as np
 import xarray as xr
 
 from ..seeding import generator
 from ..validation import InputError, raw
+from .recommendation import Rule, decision_rule, decision_values, setting_scores
 from .statistics import Resampling
 
-__all__ = ["TransferCheck", "check_transfer", "kendall_tau", "spearman", "transfer_gap"]
+__all__ = [
+    "TransferCheck",
+    "check_transfer",
+    "kendall_tau",
+    "spearman",
+    "transfer_from_grids",
+    "transfer_gap",
+]
 
 # Random halves for the reliability of the real order.
 SPLITS = 200
@@ -199,26 +207,22 @@ class TransferCheck:
         }
 
 
-def _matched(simulated: xr.DataArray, real: xr.DataArray) -> tuple[xr.DataArray, xr.DataArray]:
-    sim_labels = [str(s) for s in simulated["setting"].values]
-    real_labels = [str(s) for s in real["setting"].values]
+def _order(simulated: xr.DataArray, real: xr.DataArray) -> np.ndarray:
+    """Where each simulated setting's score sits among the real scores (the same settings)."""
+    sim_labels = [str(v) for v in simulated["setting"].values]
+    real_labels = [str(v) for v in real["setting"].values]
     missing = [s for s in sim_labels if s not in real_labels]
     if missing:
         raise InputError(
             "truth grid", "the study's belief-guided settings", raw(f"missing {missing[0]!r}")
         )
-    sim_d = [str(d) for d in simulated["distortion"].values]
-    real_d = [str(d) for d in real["distortion"].values]
-    if sim_d != real_d:
-        raise InputError("truth grid", f"distortions {sim_d}", raw(str(real_d)))
-    return simulated, real.sel(setting=sim_labels)
+    return np.array([real_labels.index(s) for s in sim_labels])
 
 
-def _scores_over(values: xr.DataArray, scorer: Scorer, index: np.ndarray) -> np.ndarray:
+def _scores_over(values: xr.DataArray, scorer: Scorer, index: np.ndarray) -> xr.DataArray:
     """Scores of every setting for each row of replicate indices ``index`` (draws, n)."""
     pick = xr.DataArray(index, dims=("draw", "replicate"))
-    out = scorer(values.isel(replicate=pick))
-    return out.transpose("draw", "setting").values
+    return scorer(values.isel(replicate=pick)).transpose("draw", "setting")
 
 
 def check_transfer(
@@ -237,8 +241,10 @@ def check_transfer(
     """
     rs = resampling or Resampling()
     real_scorer = real_scorer or scorer
-    simulated, real = _matched(simulated, real)
-    labels = tuple(str(s) for s in simulated["setting"].values)
+    sim_d = [str(d) for d in simulated["distortion"].values]
+    real_d = [str(d) for d in real["distortion"].values]
+    if sim_d != real_d:
+        raise InputError("truth grid", f"distortions {sim_d}", raw(str(real_d)))
     rng = generator(rs.seed)
     n_sim, n_real = simulated.sizes["replicate"], real.sizes["replicate"]
     sim_index = rng.integers(0, n_sim, size=(rs.draws, n_sim))
@@ -246,12 +252,16 @@ def check_transfer(
     whole_sim = np.arange(n_sim)[None, :]
     whole_real = np.arange(n_real)[None, :]
 
-    real_point = _scores_over(real, real_scorer, whole_real)[0]
-    real_draws = _scores_over(real, real_scorer, real_index)
+    first = _scores_over(simulated, scorer, whole_sim)
+    labels = tuple(str(v) for v in first["setting"].values)
+    real_first = _scores_over(real, real_scorer, whole_real)
+    order = _order(first, real_first)
+    real_point = real_first.values[0, order]
+    real_draws = _scores_over(real, real_scorer, real_index).values[:, order]
 
     def row(name: str, values: xr.DataArray) -> Row:
-        point = _scores_over(values, scorer, whole_sim)[0]
-        draws = _scores_over(values, scorer, sim_index)
+        point = _scores_over(values, scorer, whole_sim).values[0]
+        draws = _scores_over(values, scorer, sim_index).values
         pick = int(np.argmin(point))
         picks = np.argmin(draws, axis=1)
         real_best = real_point.min()
@@ -284,8 +294,8 @@ def check_transfer(
     split_rho = np.full(SPLITS, np.nan)
     if half >= 1:
         perms = np.argsort(rng.random((SPLITS, n_real)), axis=1)
-        a = _scores_over(real, real_scorer, perms[:, :half])
-        b = _scores_over(real, real_scorer, perms[:, half : 2 * half])
+        a = _scores_over(real, real_scorer, perms[:, :half]).values
+        b = _scores_over(real, real_scorer, perms[:, half : 2 * half]).values
         split_rho = spearman(a, b)
     finite = split_rho[np.isfinite(split_rho)]
     if finite.size:
@@ -297,7 +307,7 @@ def check_transfer(
         split, step_up = Measure(math.nan, math.nan, math.nan), math.nan
     return TransferCheck(
         settings=labels,
-        simulated=tuple(float(v) for v in _scores_over(simulated, scorer, whole_sim)[0]),
+        simulated=tuple(float(v) for v in first.values[0]),
         real=tuple(float(v) for v in real_point),
         best_real=labels[int(np.argmin(real_point))],
         overall=overall,
@@ -306,4 +316,24 @@ def check_transfer(
         reliability=float(step_up),
         level=rs.level,
         draws=rs.draws,
+    )
+
+
+def transfer_from_grids(
+    simulated: xr.Dataset,
+    truth: xr.Dataset,
+    rule: Rule | None = None,
+    resampling: Resampling | None = None,
+) -> TransferCheck:
+    """The check of a study's grid against its truth grid: the simulated scores under the
+    study's rule (its landscape weights and score included), the real ones under the same rule
+    on the raw metric (the truth is one landscape)."""
+    rule = rule or decision_rule(simulated)
+    real_rule = replace(rule, score="raw", landscape_weights={}, landscape_basis="one landscape")
+    return check_transfer(
+        decision_values(simulated, rule),
+        decision_values(truth, real_rule),
+        lambda v: setting_scores(v, rule),
+        lambda v: setting_scores(v, real_rule),
+        resampling,
     )
