@@ -25,6 +25,11 @@ __all__ = ["main"]
 log = logging.getLogger("workbench")
 
 
+# The truth grid's folder inside a study's results folder, and the check's file.
+TRUTH = "truth"
+TRANSFER_FILE = "transfer.json"
+
+
 def _out_dir(args, study_name: str) -> Path:
     return Path(args.out) if args.out else Path("results") / study_name
 
@@ -335,11 +340,23 @@ def _decision(args):
     where = "command line"
     try:
         ds = open_grid(args.dir)
-        rule = decision_rule(ds, args.rule, args.weights, args.level, args.metric)
+        rule = decision_rule(
+            ds, args.rule, args.weights, args.level, args.metric, _landscapes(args), args.score
+        )
         resampling = Resampling(args.draws, args.confidence, args.seed)
     except InputError as err:
         raise err.located(where) from None
     return ds, rule, resampling
+
+
+def _landscapes(args):
+    """``--landscapes``: 'resemblance', or name=value weights by landscape label or kind."""
+    from .analysis.recommendation import RESEMBLANCE, parse_weights
+
+    text = args.landscapes
+    if text is None or text == RESEMBLANCE:
+        return text
+    return parse_weights(text, None, "--landscapes")
 
 
 def _print_recommendation(rec) -> None:
@@ -375,6 +392,44 @@ def cmd_recommend(args) -> int:
                     f"({short_number(lo)} to {short_number(hi)})"
                 )
             print(line)
+    return 0
+
+
+def cmd_transfer(args) -> int:
+    """Run the study's grid and its truth grid (both resume), then compare their orders."""
+    from .analysis import Resampling, open_grid
+    from .analysis.transfer_check import transfer_from_grids
+    from .storage import write_text
+    from .study.cost import duration
+    from .study.spec import load
+
+    study = load(args.study)
+    truth = study.truth_study()
+    out = _out_dir(args, study.name)
+    try:
+        resampling = Resampling(args.draws, args.confidence, args.seed)
+    except InputError as err:
+        raise err.located("command line") from None
+    for what, s, folder in (("study", study, out), ("truth", truth, out / TRUTH)):
+        summary = _run(s, folder, args)
+        print(
+            f"{what}: {summary.campaigns} campaigns ({summary.resumed} already done) in "
+            f"{duration(summary.seconds)}; grid: {summary.grid}",
+            file=sys.stderr if args.json else sys.stdout,
+        )
+        _warn(summary)
+    check = transfer_from_grids(open_grid(out), open_grid(out / TRUTH), resampling=resampling)
+    text = json.dumps(check.to_dict(), indent=2, ensure_ascii=False)
+    write_text(out / TRANSFER_FILE, text + "\n")
+    if args.json:
+        print(text)
+        return 0
+    print(f"transfer check of '{study.name}' against its truth ({study.truth.spec.source}):")
+    print("\n".join(check.lines()))
+    print(
+        "The truth grid replays the study's campaigns on the truth; the real process's safety "
+        "limits still come first."
+    )
     return 0
 
 
@@ -457,10 +512,16 @@ def build_parser() -> argparse.ArgumentParser:
     for name, func, helptext in (
         ("run", cmd_run, "run a study's grid (resumes where it stopped)"),
         ("demo", cmd_demo, "run the built-in demo study"),
+        ("transfer", cmd_transfer, "run the study on its [truth] too: does the answer hold?"),
     ):
         p = sub.add_parser(name, help=helptext)
-        if name == "run":
+        if name != "demo":
             p.add_argument("study")
+        if name == "transfer":
+            p.add_argument("--json", action="store_true", help="print one JSON object")
+            p.add_argument("--confidence", type=float, default=0.95, help="interval level")
+            p.add_argument("--draws", type=int, default=1000, help="bootstrap draws")
+            p.add_argument("--seed", type=int, default=0, help="bootstrap seed")
         p.add_argument("--out", help="output folder (default results/<study-name>/)")
         p.add_argument(
             "--jobs", type=int, default=None, help="parallel workers (default: all cores)"
@@ -523,6 +584,17 @@ def build_parser() -> argparse.ArgumentParser:
             "--metric",
             default=None,
             help="evaluations_to_target, final_normalized_regret or log_regret_area",
+        )
+        p.add_argument(
+            "--landscapes",
+            default=None,
+            help="landscape weights by label or kind (e.g. textbook=0.2,fitted-history=0.8), "
+            "or 'resemblance' (default: the study's)",
+        )
+        p.add_argument(
+            "--score",
+            default=None,
+            help="raw, ranks or saving: the metric within each landscape (default: the study's)",
         )
         p.add_argument("--confidence", type=float, default=0.95, help="interval level")
         p.add_argument("--draws", type=int, default=1000, help="bootstrap draws")

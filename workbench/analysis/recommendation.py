@@ -85,15 +85,17 @@ class Rule:
         return f"{head} (weights {w}){tail}; lower is better"
 
 
-def parse_weights(text: str, distortions: Sequence[str], key: str = "--weights") -> dict:
-    """Weights from ``name=value,name=value`` text; names must be distortions of the grid."""
+def parse_weights(text: str, names: Sequence[str] | None, key: str = "--weights") -> dict:
+    """Weights from ``name=value,name=value`` text; names must be among ``names`` (the grid's
+    distortions, say) unless None (checked later)."""
     out: dict[str, float] = {}
     for part in text.split(","):
         name, sep, value = part.partition("=")
         name = name.strip()
         if not sep or not name:
             raise InputError(key, "name=value pairs separated by commas", text)
-        check_choice(name, key, distortions)
+        if names is not None:
+            check_choice(name, key, names)
         try:
             number = float(value)
         except ValueError:
