@@ -25,11 +25,6 @@ __all__ = ["main"]
 log = logging.getLogger("workbench")
 
 
-# The truth grid's folder inside a study's results folder, and the check's file.
-TRUTH = "truth"
-TRANSFER_FILE = "transfer.json"
-
-
 def _out_dir(args, study_name: str) -> Path:
     return Path(args.out) if args.out else Path("results") / study_name
 
@@ -259,6 +254,7 @@ def _demo_study() -> Path:
 
 
 def cmd_demo(args) -> int:
+    from .analysis.transfer_check import TRUTH_FOLDER
     from .report.document import write_report
     from .study.spec import load
 
@@ -270,6 +266,12 @@ def cmd_demo(args) -> int:
         f"{summary.seconds:.1f} s wall time; grid: {summary.grid}"
     )
     _warn(summary)
+    truth = _run(study.truth_study(), out / TRUTH_FOLDER, args)
+    print(
+        f"truth: {truth.campaigns} campaigns on the bakery's invented real response "
+        f"({truth.resumed} already done) in {truth.seconds:.1f} s; grid: {truth.grid}"
+    )
+    _warn(truth)
     start = time.perf_counter()
     files, rec = write_report(out)
     print(f"report: {files.html} ({time.perf_counter() - start:.1f} s)")
@@ -398,7 +400,8 @@ def cmd_recommend(args) -> int:
 def cmd_transfer(args) -> int:
     """Run the study's grid and its truth grid (both resume), then compare their orders."""
     from .analysis import Resampling, open_grid
-    from .analysis.transfer_check import transfer_from_grids
+    from .analysis.transfer_check import TRANSFER_FILE, transfer_from_grids
+    from .analysis.transfer_check import TRUTH_FOLDER as TRUTH
     from .storage import write_text
     from .study.cost import duration
     from .study.spec import load

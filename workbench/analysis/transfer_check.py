@@ -48,6 +48,10 @@ __all__ = [
 
 # Random halves for the reliability of the real order.
 SPLITS = 200
+# Where ``workbench transfer`` keeps the truth grid inside a study's results folder, and the
+# check it writes beside the study's grid.
+TRUTH_FOLDER = "truth"
+TRANSFER_FILE = "transfer.json"
 
 Scorer = Callable[[xr.DataArray], xr.DataArray]
 

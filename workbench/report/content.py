@@ -12,6 +12,7 @@ from pathlib import Path
 import xarray as xr
 
 from .. import analysis as an
+from ..analysis.transfer_check import TransferCheck, transfer_from_grids
 
 REPORT = "report.html"
 SUMMARY = "summary.md"
@@ -108,9 +109,14 @@ class Content:
     frontier: xr.Dataset | None
     effects: xr.Dataset
     transfer: xr.Dataset | None = None
+    truth: TransferCheck | None = None
 
 
-def compute_content(ds: xr.Dataset, rule: an.Rule, rs: an.Resampling) -> Content:
+def compute_content(
+    ds: xr.Dataset, rule: an.Rule, rs: an.Resampling, truth: xr.Dataset | None = None
+) -> Content:
+    """The page's numbers from the grid (and the truth grid of ``workbench transfer``, if any:
+    the transfer check)."""
     rec = an.recommend(ds, rule, rs)
     baselines = [str(b) for b in ds["baseline"].values]
     shown = [rec.setting]
@@ -156,4 +162,5 @@ def compute_content(ds: xr.Dataset, rule: an.Rule, rs: an.Resampling) -> Content
         frontier=an.frontier(ds, rule.metric, rs) if has_none else None,
         effects=an.effects(ds, rule.metric, rs),
         transfer=an.transfer(ds, rule, rs) if len(set(an.landscape_kinds(ds))) > 1 else None,
+        truth=transfer_from_grids(ds, truth, rule, rs) if truth is not None else None,
     )

@@ -15,6 +15,8 @@ from pathlib import Path
 import xarray as xr
 
 from .. import analysis as an
+from ..analysis.dataset import GRID
+from ..analysis.transfer_check import TRUTH_FOLDER
 from ..storage import atomic_path, write_text
 from .content import (
     FIGURES,
@@ -33,6 +35,8 @@ from .text import (
     DISTORTION_HEAD,
     SUMMARY_HEAD,
     TRANSFER_HEAD,
+    TRUTH_HEAD,
+    TRUTH_LANDSCAPE_HEAD,
     answer_rows,
     choice_words,
     distortion_rows,
@@ -44,6 +48,7 @@ from .text import (
     strategy_paragraphs,
     summary_rows,
     transfer_rows,
+    truth_rows,
 )
 
 _STYLE = """
@@ -157,6 +162,16 @@ def _html(c: Content, figures: list[tuple[str, str, str, bytes]]) -> str:
             f"minus the kind's own choice's, paired, {level} interval). {escape(words)}</p>",
             _table(TRANSFER_HEAD, rows, numeric_from=3),
         ]
+    if c.truth is not None:
+        rows, by, words = truth_rows(c)
+        parts += [
+            '<h3 id="truth">Does the answer hold on the real problem? The transfer check</h3>',
+            f"<p>The study's belief-guided settings, distortions and rule replayed on the truth "
+            f"({c.truth.draws} bootstrap draws over the replicates of both grids, {level} "
+            f"intervals). {escape(words)}</p>",
+            _table(TRUTH_HEAD, rows),
+            _table(TRUTH_LANDSCAPE_HEAD, by),
+        ]
     head, rows = ranking_rows(c)
     parts += [
         "<h3>All belief-guided settings, ranked by the rule</h3>",
@@ -200,10 +215,23 @@ def _md_table(head: list[str], rows: list) -> str:
 
 
 def _md_transfer(c: Content) -> list[str]:
-    if c.transfer is None:
-        return []
-    rows, words = transfer_rows(c)
-    return ["## By kind of landscape", "", words, "", _md_table(TRANSFER_HEAD, rows), ""]
+    out = []
+    if c.transfer is not None:
+        rows, words = transfer_rows(c)
+        out += ["## By kind of landscape", "", words, "", _md_table(TRANSFER_HEAD, rows), ""]
+    if c.truth is not None:
+        rows, by, words = truth_rows(c)
+        out += [
+            "## Does the answer hold on the real problem?",
+            "",
+            words,
+            "",
+            _md_table(TRUTH_HEAD, rows),
+            "",
+            _md_table(TRUTH_LANDSCAPE_HEAD, by),
+            "",
+        ]
+    return out
 
 
 def _markdown(c: Content, figures: list[tuple[str, str, str, bytes]]) -> str:
@@ -253,7 +281,9 @@ def write_report(
     folder = Path(folder)
     ds = ds if ds is not None else an.open_grid(folder)
     rule = rule or an.decision_rule(ds)
-    c = compute_content(ds, rule, resampling or an.Resampling())
+    truth_grid = folder / TRUTH_FOLDER / GRID
+    truth = an.open_grid(truth_grid) if truth_grid.is_file() else None
+    c = compute_content(ds, rule, resampling or an.Resampling(), truth)
     figures = report_figures(c)
     paths = []
     for stem, _, _, png in figures:

@@ -1,0 +1,139 @@
+"""`workbench transfer`: the study and its truth grid, and the check the report shows."""
+
+from __future__ import annotations
+
+import json
+import textwrap
+
+import numpy as np
+import pytest
+
+from workbench.analysis import campaign_metric, open_grid
+from workbench.analysis.dataset import guided_only
+from workbench.analysis.transfer_check import TRANSFER_FILE, TRUTH_FOLDER, spearman
+from workbench.cli import main
+
+STUDY = """
+title = "A coating line: oven speed and primer layers (invented)"
+budget = 8
+replicates = 3
+seed = 11
+baselines = ["no-belief"]
+
+[space.speed]
+type = "integer"
+lower = 1
+upper = 6
+
+[space.layers]
+type = "integer"
+lower = 1
+upper = 5
+
+[belief.speed]
+probabilities = [0.05, 0.1, 0.5, 0.2, 0.1, 0.05]
+
+[belief.layers]
+probabilities = [0.1, 0.5, 0.2, 0.1, 0.1]
+
+[[landscape]]
+name = "branin"
+
+[distortion]
+shifted = { shift = 0.3 }
+
+[strategy.pseudo-posterior]
+decay = ["hyperbolic:2", "hyperbolic:20"]
+quantile = [0.25]
+
+[strategy.prior-weighted]
+decay = ["hyperbolic:2", "hyperbolic:20"]
+
+[decision]
+weights = { exact = 0.7, shifted = 0.3 }
+
+[truth]
+table = "line.csv"
+response = "defects"
+replicates = 6
+"""
+
+
+def _table() -> str:
+    """Every configuration of the space, measured (invented): defects per square metre."""
+    lines = ["# invented measurements of the demo coating line", "speed,layers,defects"]
+    for s in range(1, 7):
+        for layer in range(1, 6):
+            lines.append(f"{s},{layer},{(s - 4) ** 2 + 0.5 * (layer - 2) ** 2 + 0.1 * s:.3f}")
+    return "\n".join(lines) + "\n"
+
+
+@pytest.fixture(scope="session")
+def transferred(tmp_path_factory):
+    folder = tmp_path_factory.mktemp("transfer")
+    (folder / "line.csv").write_text(_table())
+    study = folder / "line.toml"
+    study.write_text(textwrap.dedent(STUDY))
+    out = folder / "out"
+    code = main(
+        ["transfer", str(study), "--out", str(out), "--jobs", "1", "--quiet", "--draws", "50"]
+    )
+    return code, out
+
+
+def test_transfer_runs_both_grids_and_writes_the_check(transferred):
+    code, out = transferred
+    assert code == 0
+    assert (out / "grid.nc").is_file() and (out / TRUTH_FOLDER / "grid.nc").is_file()
+    check = json.loads((out / TRANSFER_FILE).read_text())
+    truth = open_grid(out / TRUTH_FOLDER)
+    assert truth.sizes["landscape"] == 1 and truth.sizes["replicate"] == 6
+    # The real score of each setting by hand: mean evaluations to target over the truth's
+    # replicates in each distortion, weighted 0.7 / 0.3 (the study's rule).
+    ett = guided_only(campaign_metric(truth, "evaluations_to_target"))
+    means = ett.mean(["landscape", "replicate"])
+    by_hand = 0.7 * means.sel(distortion="exact") + 0.3 * means.sel(distortion="shifted")
+    labels = [str(s) for s in by_hand["setting"].values]
+    real = dict(zip(check["settings"], check["real_score"], strict=True))
+    np.testing.assert_allclose([real[s] for s in labels], by_hand.values)
+    # The overall Spearman is the rank correlation of the two score lists it reports.
+    rho = spearman(np.array(check["simulated_score"]), np.array(check["real_score"]))
+    assert check["overall"]["spearman"]["estimate"] == pytest.approx(float(rho))
+    assert check["overall"]["pick"] == check["settings"][int(np.argmin(check["simulated_score"]))]
+
+
+def test_the_report_shows_the_transfer_check(transferred):
+    code, out = transferred
+    assert main(["report", str(out), "--draws", "50"]) == 0
+    page = (out / "report.html").read_text()
+    summary = (out / "summary.md").read_text()
+    assert 'id="truth"' in page and "real rank of the pick" in page
+    assert "Does the answer hold on the real problem?" in summary
+
+
+def test_a_study_without_truth_is_refused_with_one_line(tmp_path, capsys):
+    study = tmp_path / "plain.toml"
+    study.write_text(textwrap.dedent(STUDY).split("[truth]")[0].replace('table = "line.csv"', ""))
+    assert main(["transfer", str(study), "--out", str(tmp_path / "o")]) == 2
+    err = capsys.readouterr().err.strip().splitlines()
+    assert len(err) == 1 and "'truth' must be a [truth] table in the study" in err[0]
+    assert not (tmp_path / "o").exists()
+
+
+@pytest.mark.parametrize(
+    ("rows", "message"),
+    [
+        (["1,1,2.0", "1,1,3.0", "2,1,1.0"], "data rows 1 and 2 measure the same configuration"),
+        (["1,1,2.0", "2,1,2.0"], "every response has the same value"),
+        (["1,1,2.0", "2,x,1.0"], "row 2, column 'layers'"),
+        (["1,1,2.0", "9,1,1.0"], "row 2, column 'speed'"),
+        (["1,1,2.0", "2,1,"], "row 2, column 'defects'"),
+    ],
+)
+def test_a_malformed_truth_table_is_one_line_naming_file_and_row(tmp_path, capsys, rows, message):
+    (tmp_path / "line.csv").write_text("speed,layers,defects\n" + "\n".join(rows) + "\n")
+    study = tmp_path / "line.toml"
+    study.write_text(textwrap.dedent(STUDY))
+    assert main(["check", str(study)]) == 2
+    err = capsys.readouterr().err.strip().splitlines()
+    assert len(err) == 1 and message in err[0] and "line.csv" in err[0]
