@@ -103,7 +103,7 @@ def test_transfer_runs_both_grids_and_writes_the_check(transferred):
 
 
 def test_the_report_shows_the_transfer_check(transferred):
-    code, out = transferred
+    _, out = transferred
     assert main(["report", str(out), "--draws", "50"]) == 0
     page = (out / "report.html").read_text()
     summary = (out / "summary.md").read_text()
