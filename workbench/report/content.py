@@ -108,6 +108,26 @@ class Content:
     frontier: xr.Dataset | None
     effects: xr.Dataset
     transfer: xr.Dataset | None = None
+    resemblance: xr.Dataset | None = None
+
+
+RESEMBLANCE_VARIABLES = (
+    "landscape_kind",
+    "resemblance",
+    "resemblance_low",
+    "resemblance_high",
+    "resemblance_likelihood",
+    "resemblance_measure",
+    "resemblance_placements",
+)
+
+
+def resemblance_of(ds: xr.Dataset) -> xr.Dataset | None:
+    """How well each landscape explains the study's earlier evaluations, as the grid stores
+    it (see :mod:`workbench.study.gridfile`); None when the grid has no such data."""
+    if "resemblance" not in ds:
+        return None
+    return ds[[v for v in RESEMBLANCE_VARIABLES if v in ds]]
 
 
 def compute_content(ds: xr.Dataset, rule: an.Rule, rs: an.Resampling) -> Content:
@@ -156,4 +176,5 @@ def compute_content(ds: xr.Dataset, rule: an.Rule, rs: an.Resampling) -> Content
         frontier=an.frontier(ds, rule.metric, rs) if has_none else None,
         effects=an.effects(ds, rule.metric, rs),
         transfer=an.transfer(ds, rule, rs) if len(set(an.landscape_kinds(ds))) > 1 else None,
+        resemblance=resemblance_of(ds),
     )
