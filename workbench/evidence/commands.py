@@ -84,7 +84,12 @@ def cmd_audit(args) -> int:
     from ..report.figures import evidence_marginals
     from ..seeding import derive, generator
     from ..study.cells import SEVERITY_RADIUS
-    from ..study.resemblance import resemblance_table, table_lines
+    from ..study.resemblance import (
+        Evaluations,
+        earlier_evaluations,
+        resemblance_table,
+        table_lines,
+    )
     from ..validation import check_number
     from . import audit as au
     from .pages import CAUTIONS, audit_lines, write_page
@@ -113,7 +118,12 @@ def cmd_audit(args) -> int:
             setting=rec.setting,
         )
     lines = audit_lines(result, study.space, args.data)
-    table = resemblance_table(study)
+    # The study's earlier evaluations, or, when it reads none, the ones audited.
+    data = earlier_evaluations(study)
+    if data is None:
+        source = f"{history.rows} evaluations in {Path(args.data).name}"
+        data = Evaluations(history.X, history.y, source)
+    table = resemblance_table(study, data=data)
     if args.json:
         out = au.to_dict(result, study.space)
         if table is not None:

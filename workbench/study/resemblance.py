@@ -201,14 +201,18 @@ def _fitted_row(study: Study, index: int) -> LandscapeResemblance:
     )
 
 
-def resemblance_table(study: Study, replicates: int = PLACEMENTS) -> ResemblanceTable | None:
+def resemblance_table(
+    study: Study, replicates: int = PLACEMENTS, data: Evaluations | None = None
+) -> ResemblanceTable | None:
     """One row per landscape of ``study`` (see the module docstring); None when the study has
-    no earlier evaluations. ``replicates`` caps the placements scored for rank agreement.
+    no earlier evaluations. ``replicates`` caps the placements scored for rank agreement;
+    ``data`` replaces the study's earlier evaluations (a fitted landscape is still scored by
+    leave-one-out on its own data).
 
     On the demo study (4 landscapes, 25 evaluations, 2-D) this takes about 2 s of one core,
     most of it the minimum searches of the drawn surfaces.
     """
-    data = earlier_evaluations(study)
+    data = earlier_evaluations(study) if data is None else data
     if data is None:
         return None
     points = rs.design(data.X.shape[1], DESIGN_POINTS)
