@@ -337,8 +337,9 @@ def resemblance_rows(c: Content) -> tuple[list, str]:
         f"{level} bootstrap interval over the data rows: 1 orders the data as measured, 0 no "
         f"better than chance, negative against it. The log likelihood per point is that of "
         f"the standardised data under a GP with the landscape's own length scales (for a "
-        f"fitted landscape, the leave-one-out log predictive density): higher is better; it "
-        f"cannot tell a landscape from its mirror image, the rank agreement can."
+        f"fitted landscape, the leave-one-out log predictive density, usually higher since "
+        f"that GP was fitted to the data): higher is better; it cannot tell a landscape from "
+        f"its mirror image, the rank agreement can."
     )
     return rows, words
 
