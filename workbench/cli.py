@@ -201,6 +201,7 @@ def _progress(quiet: bool):
 
 def cmd_check(args) -> int:
     from .study.cost import duration, probe
+    from .study.resemblance import resemblance_table, table_lines
     from .study.spec import load
 
     s = load(args.study)
@@ -213,6 +214,9 @@ def cmd_check(args) -> int:
         f"estimated wall time on {est.jobs} worker(s): {duration(est.seconds)} "
         f"(timing probe: {est.probe_campaigns} campaigns, {est.per_campaign:.3f} s each)"
     )
+    table = resemblance_table(s)
+    if table is not None:
+        print("\n".join(table_lines(table)))
     return 0
 
 

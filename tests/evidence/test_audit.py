@@ -108,6 +108,11 @@ def test_audit_writes_its_pages_and_prints_the_verdict(tmp_path, capsys):
     code = _audit(tmp_path, study)
     out = capsys.readouterr().out
     assert code == 0 and "verdict:" in out and "safety limits" in out
+    # The study reads no earlier evaluations: the table scores its landscapes on the audited.
+    heading = "How well each landscape explains the earlier evaluations (12 evaluations in h.csv)"
+    assert heading in out
+    (branin,) = [line.split() for line in out.splitlines() if line.strip().startswith("branin")]
+    assert branin[1] == "textbook" and -1.0 <= float(branin[2]) <= 1.0
     page = (tmp_path / "audit" / "audit.html").read_text()
     assert "Cautions" in page and "http" not in page.replace("http-equiv", "")
     assert (tmp_path / "audit" / "audit.md").exists()

@@ -5,8 +5,9 @@ study, the grid and the CSV files, call the pure functions of this stage and pri
 from __future__ import annotations
 
 import json
+import math
 import time
-from dataclasses import replace
+from dataclasses import asdict, replace
 from pathlib import Path
 
 from ..validation import InputError, raw
@@ -73,11 +74,22 @@ def _figure_png(draw, dim: int) -> bytes:
     return buffer.getvalue()
 
 
+def _finite_or_none(row: dict) -> dict:
+    """A row for JSON: NaN (a measure that could not be computed) as null."""
+    return {k: None if isinstance(v, float) and not math.isfinite(v) else v for k, v in row.items()}
+
+
 def cmd_audit(args) -> int:
     from .. import analysis as an
     from ..report.figures import evidence_marginals
     from ..seeding import derive, generator
     from ..study.cells import SEVERITY_RADIUS
+    from ..study.resemblance import (
+        Evaluations,
+        earlier_evaluations,
+        resemblance_table,
+        table_lines,
+    )
     from ..validation import check_number
     from . import audit as au
     from .pages import CAUTIONS, audit_lines, write_page
@@ -106,10 +118,25 @@ def cmd_audit(args) -> int:
             setting=rec.setting,
         )
     lines = audit_lines(result, study.space, args.data)
+    # The study's earlier evaluations, or, when it reads none, the ones audited.
+    data = earlier_evaluations(study)
+    if data is None:
+        source = f"{history.rows} evaluations in {Path(args.data).name}"
+        data = Evaluations(history.X, history.y, source)
+    table = resemblance_table(study, data=data)
     if args.json:
-        print(json.dumps(au.to_dict(result, study.space), indent=2, ensure_ascii=False))
+        out = au.to_dict(result, study.space)
+        if table is not None:
+            out["resemblance"] = {
+                "data": table.source,
+                "level": table.level,
+                "landscapes": [_finite_or_none(asdict(r)) for r in table.rows],
+            }
+        print(json.dumps(out, indent=2, ensure_ascii=False))
         return 0
     print("\n".join(lines))
+    if table is not None:
+        print("\n".join(table_lines(table)))
     out = Path(args.out) if args.out else Path("results") / study.name / "audit"
 
     def draw(axes, fig):

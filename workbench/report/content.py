@@ -110,6 +110,26 @@ class Content:
     effects: xr.Dataset
     transfer: xr.Dataset | None = None
     truth: TransferCheck | None = None
+    resemblance: xr.Dataset | None = None
+
+
+RESEMBLANCE_VARIABLES = (
+    "landscape_kind",
+    "resemblance",
+    "resemblance_low",
+    "resemblance_high",
+    "resemblance_likelihood",
+    "resemblance_measure",
+    "resemblance_placements",
+)
+
+
+def resemblance_of(ds: xr.Dataset) -> xr.Dataset | None:
+    """How well each landscape explains the study's earlier evaluations, as the grid stores
+    it (see :mod:`workbench.study.gridfile`); None when the grid has no such data."""
+    if "resemblance" not in ds:
+        return None
+    return ds[[v for v in RESEMBLANCE_VARIABLES if v in ds]]
 
 
 def compute_content(
@@ -163,4 +183,5 @@ def compute_content(
         effects=an.effects(ds, rule.metric, rs),
         transfer=an.transfer(ds, rule, rs) if len(set(an.landscape_kinds(ds))) > 1 else None,
         truth=transfer_from_grids(ds, truth, rule, rs) if truth is not None else None,
+        resemblance=resemblance_of(ds),
     )

@@ -33,6 +33,7 @@ from .panels import report_figures
 from .text import (
     CAUTIONS,
     DISTORTION_HEAD,
+    RESEMBLANCE_HEAD,
     SUMMARY_HEAD,
     TRANSFER_HEAD,
     TRUTH_HEAD,
@@ -44,6 +45,7 @@ from .text import (
     method_paragraphs,
     ranking_rows,
     regret_rows,
+    resemblance_rows,
     risk_paragraph,
     strategy_paragraphs,
     summary_rows,
@@ -172,6 +174,13 @@ def _html(c: Content, figures: list[tuple[str, str, str, bytes]]) -> str:
             _table(TRUTH_HEAD, rows),
             _table(TRUTH_LANDSCAPE_HEAD, by),
         ]
+    if c.resemblance is not None:
+        rows, words = resemblance_rows(c)
+        parts += [
+            "<h3>How well each landscape explains the earlier evaluations</h3>",
+            f'<p id="resemblance">{escape(words)}</p>',
+            _table(RESEMBLANCE_HEAD, rows, numeric_from=3),
+        ]
     head, rows = ranking_rows(c)
     parts += [
         "<h3>All belief-guided settings, ranked by the rule</h3>",
@@ -234,6 +243,20 @@ def _md_transfer(c: Content) -> list[str]:
     return out
 
 
+def _md_resemblance(c: Content) -> list[str]:
+    if c.resemblance is None:
+        return []
+    rows, words = resemblance_rows(c)
+    return [
+        "## How well each landscape explains the earlier evaluations",
+        "",
+        words,
+        "",
+        _md_table(RESEMBLANCE_HEAD, rows),
+        "",
+    ]
+
+
 def _markdown(c: Content, figures: list[tuple[str, str, str, bytes]]) -> str:
     lines = [
         f"# {c.ds.attrs.get('title', 'Report')}",
@@ -253,6 +276,7 @@ def _markdown(c: Content, figures: list[tuple[str, str, str, bytes]]) -> str:
         _md_table(SUMMARY_HEAD, summary_rows(c)),
         "",
         *_md_transfer(c),
+        *_md_resemblance(c),
         "## Figures",
         "",
         *(f"- {title}: `{FIGURES}/{stem}.png`" for stem, title, _, _ in figures),

@@ -9,6 +9,7 @@ import xarray as xr
 
 from .. import analysis as an
 from ..engine.strategies import STRATEGIES, description
+from ..world.resemblance import MEASURES
 from .content import (
     DECAY_TEXT,
     Content,
@@ -286,6 +287,60 @@ def transfer_rows(c: Content) -> tuple[list, str]:
             else "Where the kinds choose differently, the intervals include no cost: the "
             "difference is not told apart from chance."
         )
+    return rows, words
+
+
+RESEMBLANCE_HEAD = [
+    "landscape",
+    "kind",
+    "measures",
+    "rank agreement",
+    "log likelihood per point",
+]
+
+
+def resemblance_rows(c: Content) -> tuple[list, str]:
+    """Rows of the resemblance table (from the grid's variables) and the words around it."""
+    r = c.resemblance
+    likelihood = {
+        "rank_agreement": MEASURES["likelihood"],
+        "loo_rank_agreement": MEASURES["loo_log_density"],
+    }
+    rows = []
+    for i, label in enumerate(r["landscape"].values):
+        measure = str(r["resemblance_measure"].values[i])
+        placements = int(r["resemblance_placements"][i]) if "resemblance_placements" in r else 0
+        how = MEASURES.get(measure, measure)
+        if placements > 1:
+            how += f", median of {placements} placements"
+        rows.append(
+            [
+                str(label),
+                str(r["landscape_kind"].values[i]) if "landscape_kind" in r else "textbook",
+                f"{how}; {likelihood.get(measure, 'likelihood')}",
+                cell(
+                    float(r["resemblance"][i]),
+                    float(r["resemblance_low"][i]),
+                    float(r["resemblance_high"][i]),
+                    fmt=lambda v: num(v, 2),
+                ),
+                num(float(r["resemblance_likelihood"][i])),
+            ]
+        )
+    level = pct(float(c.ds.attrs.get("resemblance_level", 0.95)))
+    words = (
+        f"How well each landscape explains the earlier evaluations "
+        f"({c.ds.attrs.get('resemblance_data', 'the study data')}), computed when the grid was "
+        f"run. Rank agreement is Spearman's correlation between the landscape's values at the "
+        f"data's configurations and the measured responses (for a fitted landscape, between "
+        f"the leave-one-out predictions of the GP fitted to the data and the responses), with a "
+        f"{level} bootstrap interval over the data rows: 1 orders the data as measured, 0 no "
+        f"better than chance, negative against it. The log likelihood per point is that of "
+        f"the standardised data under a GP with the landscape's own length scales (for a "
+        f"fitted landscape, the leave-one-out log predictive density, usually higher since "
+        f"that GP was fitted to the data): higher is better; it cannot tell a landscape from "
+        f"its mirror image, the rank agreement can."
+    )
     return rows, words
 
 

@@ -28,7 +28,16 @@ replicate 0 of the first :data:`BELIEF_LANDSCAPES` landscapes (see
 ``belief_density`` over (landscape, distortion, coordinate, belief_grid) (discrete parameters:
 level probabilities in the first k points), ``belief_optimum`` over (landscape, coordinate), and
 the attribute ``belief_parameters`` (JSON: per landscape, its parameters' name, unit, log scale
-and level labels; null for a landscape not drawn).
+and level labels; null for a landscape not drawn). When the study has earlier evaluations
+(a fitted or likedata landscape), how well each landscape explains them
+(:mod:`workbench.study.resemblance`), over ``landscape``: ``resemblance`` (rank agreement,
+Spearman; leave-one-out for a fitted landscape), ``resemblance_low`` and ``resemblance_high``
+(its 95 % bootstrap interval), ``resemblance_likelihood`` (log marginal likelihood per point;
+leave-one-out log predictive density per point for a fitted landscape),
+``resemblance_measure`` (``rank_agreement`` or ``loo_rank_agreement``) and
+``resemblance_placements`` (the placements the rank agreement is the median of; 0 for fitted),
+with the attributes ``resemblance_data`` (where the data come from) and ``resemblance_level``;
+absent otherwise.
 
 Repeats, by design: prior-weighted ignores the quantile, so its values repeat across the
 ``quantile`` levels; no-belief and random ignore the belief, so theirs repeat across
@@ -52,6 +61,7 @@ from ..storage import atomic_path
 from ..world.marginals import GRID_POINTS, marginal_curves
 from .cells import SEVERITY_RADIUS, Cell
 from .grid import Chunk, settings, split
+from .resemblance import resemblance_table
 from .spec import Decision, Study
 
 __all__ = ["BASELINE_DIMS", "BELIEF_LANDSCAPES", "GUIDED_DIMS", "assemble", "decision_attributes"]
@@ -229,6 +239,28 @@ def _write_beliefs(ds, study: Study) -> None:
     ds.belief_parameters = json.dumps(parameters)
 
 
+def _write_resemblance(ds, study: Study) -> None:
+    """How well each landscape explains the study's earlier evaluations (nothing without
+    them)."""
+    table = resemblance_table(study)
+    if table is None:
+        return
+    columns = {
+        "resemblance": [r.estimate for r in table.rows],
+        "resemblance_low": [r.low for r in table.rows],
+        "resemblance_high": [r.high for r in table.rows],
+        "resemblance_likelihood": [r.likelihood for r in table.rows],
+    }
+    for name, values in columns.items():
+        ds.createVariable(name, "f8", ("landscape",), fill_value=np.nan)[:] = np.array(values)
+    _strings(ds, "resemblance_measure", [r.measure for r in table.rows], "landscape")
+    ds.createVariable("resemblance_placements", "i4", ("landscape",))[:] = np.array(
+        [r.placements for r in table.rows]
+    )
+    ds.resemblance_data = table.source
+    ds.resemblance_level = table.level
+
+
 def _write_replicate(ds, study: Study, chunk: Chunk, r: int, data) -> float:
     """Write replicate ``r`` of one chunk (its arrays as :func:`~workbench.study.grid.split`
     gives them); returns the lowest normalized regret among its campaigns."""
@@ -309,6 +341,8 @@ def assemble(study: Study, chunk_dir: Path, path: Path, every: list[Chunk]) -> d
         with netCDF4.Dataset(tmp, "w", format="NETCDF4") as ds:
             _define(ds, study)
             _write_beliefs(ds, study)
+            # After the beliefs: replicate 0's surfaces are built and cached by then.
+            _write_resemblance(ds, study)
             for chunk in every:
                 with np.load(chunk_dir / f"{chunk.key}.npz") as npz:
                     # Read every array once: an npz member is decompressed on each access.
