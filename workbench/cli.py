@@ -270,12 +270,13 @@ def cmd_demo(args) -> int:
         f"{summary.seconds:.1f} s wall time; grid: {summary.grid}"
     )
     _warn(summary)
-    truth = _run(study.truth_study(), out / TRUTH_FOLDER, args)
-    print(
-        f"truth: {truth.campaigns} campaigns on the bakery's invented real response "
-        f"({truth.resumed} already done) in {truth.seconds:.1f} s; grid: {truth.grid}"
-    )
-    _warn(truth)
+    if study.truth is not None:
+        truth = _run(study.truth_study(), out / TRUTH_FOLDER, args)
+        print(
+            f"truth: {truth.campaigns} campaigns on the study's [truth] "
+            f"({truth.resumed} already done) in {truth.seconds:.1f} s; grid: {truth.grid}"
+        )
+        _warn(truth)
     start = time.perf_counter()
     files, rec = write_report(out)
     print(f"report: {files.html} ({time.perf_counter() - start:.1f} s)")
