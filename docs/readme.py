@@ -10,6 +10,10 @@ README.md; everything between the markers is replaced, nothing else is touched:
 - ``demo-output``: what ``workbench demo`` printed (its wall time is this machine's);
 - ``demo-summary``: the recommendation section of the report's ``summary.md``;
 - ``demo-by-kind``: its table by kind of landscape;
+- ``demo-transfer``, ``demo-resemblance``: its transfer check against the demo's invented truth
+  and how well each landscape explains the earlier bakes;
+- ``transfer-results``: ``benchmarks/tables/transfer-results.md``, which
+  ``python benchmarks/transfer.py`` writes (the transfer check on the measured tables);
 - ``audit-output`` (and ``monitor-output``): what those commands print on the demo's files.
 
 The figures ``docs/figures/demo-*.png`` are the belief command's and the report's. The test
@@ -31,6 +35,7 @@ from pathlib import Path
 ROOT = Path(__file__).resolve().parents[1]
 README = ROOT / "README.md"
 DEMO = ROOT / "studies" / "demo.toml"
+TRANSFER_RESULTS = ROOT / "benchmarks" / "tables" / "transfer-results.md"
 FIGURES = {
     "sensitivity.png": "demo-sensitivity.png",
     "regret_curves.png": "demo-regret-curves.png",
@@ -125,9 +130,9 @@ def main(argv: list[str] | None = None) -> int:
         ds = an.open_grid(results)
         lines = an.recommend(ds, an.decision_rule(ds), an.Resampling()).lines()
         old = block(text, "demo-output").strip("`\n").splitlines()
-        demo = "\n".join(
-            [old[0], old[1], *lines, *(x for x in old[2:] if not x.startswith(RECOMMENDATION))]
-        )
+        start = next(i for i, x in enumerate(old) if x.startswith(RECOMMENDATION[0]))
+        rest = [x for x in old[start:] if not x.startswith(RECOMMENDATION)]
+        demo = "\n".join([*old[:start], *lines, *rest])
     else:
         demo = _printed(["demo", "--out", str(results), "--fresh", "--quiet"])
         demo = demo.replace(str(results), "results/demo")
@@ -135,6 +140,13 @@ def main(argv: list[str] | None = None) -> int:
     summary = (results / "summary.md").read_text(encoding="utf-8")
     text = replace_block(text, "demo-summary", summary_section(summary))
     text = replace_block(text, "demo-by-kind", summary_section(summary, "By kind of landscape"))
+    for name, heading in (
+        ("demo-transfer", "Does the answer hold on the real problem?"),
+        ("demo-resemblance", "How well each landscape explains the earlier evaluations"),
+    ):
+        text = replace_block(text, name, summary_section(summary, heading))
+    # The transfer check on the measured tables: written by benchmarks/transfer.py (minutes).
+    text = replace_block(text, "transfer-results", TRANSFER_RESULTS.read_text(encoding="utf-8"))
 
     with tempfile.TemporaryDirectory() as tmp:
         for name, argv in EVIDENCE.items():
