@@ -44,7 +44,11 @@ def variants(ds):
     before = ds.isel(landscape=[i for i, n in enumerate(labels) if n != LIKE])
     plain = decision_rule(ds, landscapes={}, score_method="raw")
     out = [
-        ("before: textbook, drawn, fitted; equal; raw", before, decision_rule(before, landscapes={})),
+        (
+            "before: textbook, drawn, fitted; equal; raw",
+            before,
+            decision_rule(before, landscapes={}, score_method="raw"),
+        ),
         ("+ like data; equal; raw", ds, plain),
         ("+ like data; equal; ranks", ds, replace(plain, score="ranks")),
         ("+ like data; equal; saving", ds, replace(plain, score="saving")),
@@ -84,6 +88,9 @@ def table(name: str, out: Path, draws: int) -> list[str]:
             f"| {r.landscape} alone | {r.pick} | {r.real_rank.estimate:.0f} of "
             f"{len(full.settings)} | {_measure(r.gap)} | {_measure(r.spearman)} |"
         )
+    difficulty = ", ".join(
+        f"{label} {value:.1f}" for label, value in [*_difficulty(ds), *_difficulty(truth)]
+    )
     head = [
         f"**{name}** (split-half Spearman of the real order "
         f"{full.split_half.estimate:.2f}; best setting on the table: {full.best_real})",
@@ -91,7 +98,23 @@ def table(name: str, out: Path, draws: int) -> list[str]:
         "| decision | simulated pick | real rank | transfer gap | Spearman, simulated vs real |",
         "| --- | --- | --- | --- | --- |",
     ]
-    return [*head, *rows, ""]
+    tail = [
+        "",
+        f"Difficulty (no-belief's mean evaluations to target, of a budget of "
+        f"{int(ds.attrs['budget'])}): {difficulty}.",
+    ]
+    return [*head, *rows, *tail, ""]
+
+
+def _difficulty(ds) -> list[tuple[str, float]]:
+    """No-belief's mean evaluations to target per landscape (exact distortion): how hard each
+    landscape is, beside the truth's."""
+    from workbench.analysis import campaign_metric
+    from workbench.engine.strategies import reference
+
+    ett = campaign_metric(ds, "evaluations_to_target").sel(setting=reference())
+    means = ett.sel(distortion="exact").mean("replicate")
+    return [(str(k), float(v)) for k, v in zip(means["landscape"].values, means.values, strict=True)]
 
 
 def main(argv: list[str] | None = None) -> int:
