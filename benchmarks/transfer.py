@@ -114,7 +114,9 @@ def _difficulty(ds) -> list[tuple[str, float]]:
 
     ett = campaign_metric(ds, "evaluations_to_target").sel(setting=reference())
     means = ett.sel(distortion="exact").mean("replicate")
-    return [(str(k), float(v)) for k, v in zip(means["landscape"].values, means.values, strict=True)]
+    return [
+        (str(k), float(v)) for k, v in zip(means["landscape"].values, means.values, strict=True)
+    ]
 
 
 def main(argv: list[str] | None = None) -> int:
