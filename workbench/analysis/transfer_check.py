@@ -31,6 +31,7 @@ from dataclasses import dataclass, replace
 
 import numpy as np
 import xarray as xr
+from scipy.stats import rankdata
 
 from ..seeding import generator
 from ..validation import InputError, raw
@@ -58,8 +59,6 @@ Scorer = Callable[[xr.DataArray], xr.DataArray]
 
 def _ranks(x: np.ndarray) -> np.ndarray:
     """Average ranks (1 … n) along the last axis, ties sharing their mean rank."""
-    from scipy.stats import rankdata
-
     return rankdata(x, axis=-1)
 
 

@@ -204,13 +204,18 @@ def _questions(study: Study) -> tuple[str, ...]:
 def _rule_words(study: Study) -> str:
     """The decision rule as the report words it (weights normalised; none given: equal)."""
     from ..analysis import Rule
+    from ..study.spec import RESEMBLANCE
 
     d = study.decision
     names = [x.name for x in study.distortions]
     weights = dict(d.weights) or dict.fromkeys(names, 1.0)
     total = float(sum(weights.values())) or 1.0
     full = {n: float(weights.get(n, 0.0)) / total for n in names}
-    return Rule(d.rule, full, float(d.level), d.metric).describe()
+    if d.landscapes == RESEMBLANCE:
+        rule = Rule(d.rule, full, float(d.level), d.metric, {}, d.score)
+        return f"{rule.describe()}; landscapes weighted by their resemblance to the data"
+    lw = dict(d.landscapes)
+    return Rule(d.rule, full, float(d.level), d.metric, lw, d.score, "the study's").describe()
 
 
 def _placement_words(s: Study) -> str:
