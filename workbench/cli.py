@@ -88,11 +88,12 @@ def _write_belief_figure(s, path: Path) -> Path:
     import matplotlib.pyplot as plt
 
     from .report.figures import belief_marginals
+    from .report.markup import mpl_text
     from .storage import atomic_path
 
     fig, axes = plt.subplots(1, s.space.dim, figsize=(4.2 * s.space.dim, 3.4), squeeze=False)
     belief_marginals(list(axes[0]), s.space, {"belief": s.belief})
-    fig.suptitle(f"Belief marginals: {s.title}", fontsize="medium")
+    fig.suptitle(mpl_text(f"Belief marginals: {s.title}"), fontsize="medium")
     fig.tight_layout()
     with atomic_path(path) as tmp:
         fig.savefig(tmp, format="png", dpi=110)

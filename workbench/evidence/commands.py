@@ -9,6 +9,7 @@ import time
 from dataclasses import replace
 from pathlib import Path
 
+from ..report.markup import mpl_text
 from ..validation import InputError, raw
 
 __all__ = ["MONITOR_EVERY", "cmd_audit", "cmd_monitor", "monitor_steps"]
@@ -114,7 +115,7 @@ def cmd_audit(args) -> int:
 
     def draw(axes, fig):
         evidence_marginals(axes, study.space, study.belief, history.X, result.good, result.argmins)
-        fig.suptitle(f"Belief and earlier evaluations: {study.title}", fontsize="medium")
+        fig.suptitle(mpl_text(f"Belief and earlier evaluations: {study.title}"), fontsize="medium")
 
     md, page = write_page(
         out,
@@ -171,7 +172,8 @@ def cmd_monitor(args) -> int:
         from ..report.figures import distortion_probabilities
 
         distortion_probabilities(axes[0], advice.t, advice.probabilities, advice.distortions)
-        fig.suptitle(f"The live campaign read against the grid: {study.title}", fontsize="medium")
+        heading = f"The live campaign read against the grid: {study.title}"
+        fig.suptitle(mpl_text(heading), fontsize="medium")
 
     title = f"Monitor of the live campaign: {study.title}"
     md, page = write_page(out, "monitor", title, lines, _figure_png(draw, 1))

@@ -9,6 +9,7 @@ from pathlib import Path
 
 import numpy as np
 
+from ..report.markup import md_text
 from ..storage import write_text
 from ..world.space import Space
 from .audit import CONSISTENT_AT, CONTRADICTED_BELOW, Audit
@@ -119,10 +120,10 @@ def write_page(
 
         with atomic_path(figure) as tmp:
             tmp.write_bytes(png)
-    md = [f"# {title}", "", *(f"- {line}" for line in lines), ""]
+    md = [f"# {md_text(title)}", "", *(f"- {md_text(line)}" for line in lines), ""]
     if png is not None:
-        md += [f"![{title}]({figure.name})", ""]
-    md += ["## Cautions", "", *(f"- {c}" for c in CAUTIONS), ""]
+        md += [f"![{md_text(title)}]({figure.name})", ""]
+    md += ["## Cautions", "", *(f"- {md_text(c)}" for c in CAUTIONS), ""]
     page = [
         "<!DOCTYPE html>",
         '<html lang="en"><head><meta charset="utf-8">',
