@@ -16,7 +16,6 @@ import xarray as xr
 
 from .. import analysis as an
 from ..storage import atomic_path, write_text
-from .markup import md_text
 from .content import (
     FIGURES,
     REPORT,
@@ -28,6 +27,7 @@ from .content import (
     escape,
     pct,
 )
+from .markup import md_text
 from .panels import report_figures
 from .text import (
     CAUTIONS,
