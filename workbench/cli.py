@@ -18,7 +18,7 @@ from pathlib import Path
 from .engine.strategies import DEFAULT_QUANTILE
 from .evidence.commands import cmd_audit, cmd_monitor
 from .study.grid import CampaignError
-from .validation import InputError
+from .validation import InputError, check_number
 
 __all__ = ["main"]
 
@@ -541,9 +541,17 @@ def main(argv: list[str] | None = None) -> int:
     parser = build_parser()
     args = parser.parse_args(argv)
     logging.basicConfig(level=logging.WARNING, format="workbench: %(message)s")
+    # Every warning is one line; NumPy's floating-point warnings (divide by zero, overflow,
+    # invalid value), which the numerics expect and handle, are silenced unless --debug.
     warnings.simplefilter("default")
-    warnings.formatwarning = lambda msg, *a, **k: f"workbench: warning: {msg}\n"
+    if not args.debug:
+        warnings.filterwarnings("ignore", r".* encountered in ", RuntimeWarning)
+    warnings.formatwarning = lambda msg, *a, **k: (
+        f"workbench: warning: {' '.join(str(msg).split())}\n"
+    )
     try:
+        if getattr(args, "jobs", None) is not None:
+            check_number(args.jobs, "--jobs", low=1, integer=True, where="command line")
         return int(args.func(args) or 0)
     except InputError as err:
         if args.debug:

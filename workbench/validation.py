@@ -21,6 +21,7 @@ __all__ = [
     "check_keys",
     "check_number",
     "check_sequence",
+    "check_size",
     "check_string",
     "check_table",
     "raw",
@@ -121,6 +122,17 @@ def check_number(
         if number > high or (number == high and closed in ("left", "neither")):
             raise InputError(key, noun, value, where)
     return number
+
+
+def check_size(
+    value: Any, key: str, *, low: int, high: int, limit: str, where: str | None = None
+) -> int:
+    """Return ``value`` if it is an integer in ``[low, high]``, where ``high`` is a size limit
+    that ``limit`` names in words (the message states both)."""
+    try:
+        return int(check_number(value, key, low=low, high=high, integer=True, where=where))
+    except InputError as err:
+        raise InputError(key, f"{err.expected} ({limit})", value, where) from None
 
 
 def check_string(value: Any, key: str, *, where: str | None = None) -> str:

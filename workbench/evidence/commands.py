@@ -147,6 +147,14 @@ def cmd_monitor(args) -> int:
     study = _study_with_space(args.study)
     ds = _study_grid(study, args.grid)
     live = _history(study, args.observations, args.response, args.goal, min_rows=2)
+    if live.rows > study.budget:
+        # The grid holds no campaign past its budget: there is nothing to read it against.
+        raise InputError(
+            "--observations",
+            f"at most {study.budget} evaluations (the grid's budget)",
+            raw(f"{live.rows} rows"),
+            args.observations,
+        )
     setting = args.setting or an.recommend(ds).setting
     start = time.perf_counter()
     table = mo.training_table(ds, mo.grid_beliefs(study, ds), monitor_steps(study))
