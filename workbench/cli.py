@@ -550,7 +550,7 @@ def main(argv: list[str] | None = None) -> int:
         f"workbench: warning: {' '.join(str(msg).split())}\n"
     )
     try:
-        if getattr(args, "jobs", None) is not None:
+        if isinstance(getattr(args, "jobs", None), int):  # plan reads its own options
             check_number(args.jobs, "--jobs", low=1, integer=True, where="command line")
         return int(args.func(args) or 0)
     except InputError as err:

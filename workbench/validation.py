@@ -79,11 +79,16 @@ def raw(text: str) -> _Raw:
     return _Raw(text)
 
 
+def _bound(v: float) -> str:
+    """A bound as written: an integer in full (a seed's limit has 19 digits), a float short."""
+    return str(v) if isinstance(v, int) else f"{v:g}"
+
+
 def _interval(low: float | None, high: float | None, closed: str) -> str:
     left = "[" if closed in ("both", "left") else "("
     right = "]" if closed in ("both", "right") else ")"
-    lo = "-inf" if low is None else f"{low:g}"
-    hi = "inf" if high is None else f"{high:g}"
+    lo = "-inf" if low is None else _bound(low)
+    hi = "inf" if high is None else _bound(high)
     if low is None:
         left = "("
     if high is None:
