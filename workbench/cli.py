@@ -18,7 +18,7 @@ from pathlib import Path
 from .engine.strategies import DEFAULT_QUANTILE
 from .evidence.commands import cmd_audit, cmd_monitor
 from .study.grid import CampaignError
-from .validation import InputError
+from .validation import InputError, check_number
 
 __all__ = ["main"]
 
@@ -88,11 +88,12 @@ def _write_belief_figure(s, path: Path) -> Path:
     import matplotlib.pyplot as plt
 
     from .report.figures import belief_marginals
+    from .report.markup import mpl_text
     from .storage import atomic_path
 
     fig, axes = plt.subplots(1, s.space.dim, figsize=(4.2 * s.space.dim, 3.4), squeeze=False)
     belief_marginals(list(axes[0]), s.space, {"belief": s.belief})
-    fig.suptitle(f"Belief marginals: {s.title}", fontsize="medium")
+    fig.suptitle(mpl_text(f"Belief marginals: {s.title}"), fontsize="medium")
     fig.tight_layout()
     with atomic_path(path) as tmp:
         fig.savefig(tmp, format="png", dpi=110)
@@ -620,9 +621,17 @@ def main(argv: list[str] | None = None) -> int:
     parser = build_parser()
     args = parser.parse_args(argv)
     logging.basicConfig(level=logging.WARNING, format="workbench: %(message)s")
+    # Every warning is one line; NumPy's floating-point warnings (divide by zero, overflow,
+    # invalid value), which the numerics expect and handle, are silenced unless --debug.
     warnings.simplefilter("default")
-    warnings.formatwarning = lambda msg, *a, **k: f"workbench: warning: {msg}\n"
+    if not args.debug:
+        warnings.filterwarnings("ignore", r".* encountered in ", RuntimeWarning)
+    warnings.formatwarning = lambda msg, *a, **k: (
+        f"workbench: warning: {' '.join(str(msg).split())}\n"
+    )
     try:
+        if isinstance(getattr(args, "jobs", None), int):  # plan reads its own options
+            check_number(args.jobs, "--jobs", low=1, integer=True, where="command line")
         return int(args.func(args) or 0)
     except InputError as err:
         if args.debug:

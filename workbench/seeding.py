@@ -6,7 +6,11 @@ import zlib
 
 import numpy as np
 
-__all__ = ["campaign_streams", "derive", "generator", "name_key"]
+__all__ = ["MAX_SEED", "campaign_streams", "derive", "generator", "name_key"]
+
+# The largest root seed: SeedSequence takes any non-negative integer, but the grid file keeps
+# the seed as a signed 64-bit attribute (NetCDF), so a larger one could not be stored.
+MAX_SEED = 2**63 - 1
 
 # The named streams of one campaign, in the order they are spawned. Adding a name at the end
 # keeps every earlier stream unchanged.

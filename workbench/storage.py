@@ -11,10 +11,13 @@ import tempfile
 from collections.abc import Callable, Iterator
 from pathlib import Path
 
+from .validation import InputError, raw
+
 __all__ = [
     "FolderBusy",
     "atomic_path",
     "folder_lock",
+    "read_input",
     "remove_parts",
     "sha256_of",
     "write_text",
@@ -38,6 +41,35 @@ def atomic_path(path: str | Path) -> Iterator[Path]:
     finally:
         with contextlib.suppress(FileNotFoundError):
             os.unlink(tmp)
+
+
+def read_input(path: str | Path, key: str, what: str, max_bytes: int) -> bytes:
+    """The bytes of the user's file at ``path`` (``what`` names it: "a CSV file"), refused
+    with an ``InputError`` under ``key`` naming the file unless it is a regular file of at most
+    ``max_bytes``: a device such as /dev/zero or /dev/urandom never ends, and a folder or a
+    pipe is not a file to read."""
+    path = Path(path)
+    where = str(path)
+    try:
+        if not path.exists():
+            raise InputError(key, "an existing file", raw(f"no file at {where}"), where)
+        if not path.is_file():
+            raise InputError(
+                key, f"{what} (a regular file)", raw("a device, pipe or folder"), where
+            )
+        with open(path, "rb") as fh:
+            data = fh.read(max_bytes + 1)
+    except OSError as err:
+        got = raw(err.strerror or str(err))
+        raise InputError(key, f"{what} that can be read", got, where) from None
+    if len(data) > max_bytes:
+        raise InputError(
+            key,
+            f"{what} of at most {max_bytes / 2**20:g} MiB (the limit on an input file)",
+            raw(f"a larger file ({path.stat().st_size / 2**20:.3g} MiB)"),
+            where,
+        )
+    return data
 
 
 def write_text(path: str | Path, text: str) -> Path:

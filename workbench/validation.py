@@ -21,6 +21,7 @@ __all__ = [
     "check_keys",
     "check_number",
     "check_sequence",
+    "check_size",
     "check_string",
     "check_table",
     "raw",
@@ -78,11 +79,16 @@ def raw(text: str) -> _Raw:
     return _Raw(text)
 
 
+def _bound(v: float) -> str:
+    """A bound as written: an integer in full (a seed's limit has 19 digits), a float short."""
+    return str(v) if isinstance(v, int) else f"{v:g}"
+
+
 def _interval(low: float | None, high: float | None, closed: str) -> str:
     left = "[" if closed in ("both", "left") else "("
     right = "]" if closed in ("both", "right") else ")"
-    lo = "-inf" if low is None else f"{low:g}"
-    hi = "inf" if high is None else f"{high:g}"
+    lo = "-inf" if low is None else _bound(low)
+    hi = "inf" if high is None else _bound(high)
     if low is None:
         left = "("
     if high is None:
@@ -121,6 +127,17 @@ def check_number(
         if number > high or (number == high and closed in ("left", "neither")):
             raise InputError(key, noun, value, where)
     return number
+
+
+def check_size(
+    value: Any, key: str, *, low: int, high: int, limit: str, where: str | None = None
+) -> int:
+    """Return ``value`` if it is an integer in ``[low, high]``, where ``high`` is a size limit
+    that ``limit`` names in words (the message states both)."""
+    try:
+        return int(check_number(value, key, low=low, high=high, integer=True, where=where))
+    except InputError as err:
+        raise InputError(key, f"{err.expected} ({limit})", value, where) from None
 
 
 def check_string(value: Any, key: str, *, where: str | None = None) -> str:

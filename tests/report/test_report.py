@@ -16,6 +16,7 @@ import pytest
 from workbench import analysis as an
 from workbench import cli
 from workbench.report import figures as fg
+from workbench.report.markup import md_text
 
 matplotlib.use("Agg")
 
@@ -152,7 +153,8 @@ def test_page_opens_with_the_answer_then_figures_method_and_cautions(demo, page)
 def test_summary_states_the_recommendation(demo):
     text = (demo[0] / "summary.md").read_text(encoding="utf-8")
     rec = an.recommend(an.open_grid(demo[0]))
-    assert text.startswith(f"# {TITLE}")
+    # The title's markup is escaped: shown as written, never read as HTML.
+    assert text.startswith(f"# {md_text(TITLE)}") and "<script>" not in text
     assert f"decay schedule {rec.choice['decay']}" in text
     assert "figures/regret_curves.png" in text
 

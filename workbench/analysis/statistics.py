@@ -15,8 +15,8 @@ from dataclasses import dataclass
 import numpy as np
 import xarray as xr
 
-from ..seeding import generator
-from ..validation import check_number
+from ..seeding import MAX_SEED, generator
+from ..validation import check_number, check_size
 from .dataset import HALF_TOLERANCE, POOLED
 from .grid_metrics import evaluations_to_target
 
@@ -113,6 +113,10 @@ def recovery(ds: xr.Dataset, level: float = 0.95, over: Sequence[str] = POOLED) 
 # --------------------------------------------------------------------------- bootstrap
 
 
+# Bootstrap draws: every statistic holds (draws, replicates) arrays.
+MAX_DRAWS = 100_000
+
+
 @dataclass(frozen=True)
 class Resampling:
     """The bootstrap over replicates: number of draws, interval level and fixed seed."""
@@ -122,9 +126,9 @@ class Resampling:
     seed: int = 0
 
     def __post_init__(self):
-        check_number(self.draws, "--draws", low=1, integer=True)
+        check_size(self.draws, "--draws", low=1, high=MAX_DRAWS, limit="the limit on draws")
         check_number(self.level, "--confidence", low=0.0, high=1.0, closed="neither")
-        check_number(self.seed, "--seed", low=0, integer=True)
+        check_size(self.seed, "--seed", low=0, high=MAX_SEED, limit="the seeding helper's range")
 
     def indices(self, n: int) -> np.ndarray:
         """Replicate indices of every draw, shape (draws, n): one resample per draw."""

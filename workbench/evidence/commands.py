@@ -10,6 +10,7 @@ import time
 from dataclasses import asdict, replace
 from pathlib import Path
 
+from ..report.markup import mpl_text
 from ..validation import InputError, raw
 
 __all__ = ["MONITOR_EVERY", "cmd_audit", "cmd_monitor", "monitor_steps"]
@@ -141,7 +142,7 @@ def cmd_audit(args) -> int:
 
     def draw(axes, fig):
         evidence_marginals(axes, study.space, study.belief, history.X, result.good, result.argmins)
-        fig.suptitle(f"Belief and earlier evaluations: {study.title}", fontsize="medium")
+        fig.suptitle(mpl_text(f"Belief and earlier evaluations: {study.title}"), fontsize="medium")
 
     md, page = write_page(
         out,
@@ -173,6 +174,14 @@ def cmd_monitor(args) -> int:
     study = _study_with_space(args.study)
     ds = _study_grid(study, args.grid)
     live = _history(study, args.observations, args.response, args.goal, min_rows=2)
+    if live.rows > study.budget:
+        # The grid holds no campaign past its budget: there is nothing to read it against.
+        raise InputError(
+            "--observations",
+            f"at most {study.budget} evaluations (the grid's budget)",
+            raw(f"{live.rows} rows"),
+            args.observations,
+        )
     setting = args.setting or an.recommend(ds).setting
     start = time.perf_counter()
     table = mo.training_table(ds, mo.grid_beliefs(study, ds), monitor_steps(study))
@@ -198,7 +207,8 @@ def cmd_monitor(args) -> int:
         from ..report.figures import distortion_probabilities
 
         distortion_probabilities(axes[0], advice.t, advice.probabilities, advice.distortions)
-        fig.suptitle(f"The live campaign read against the grid: {study.title}", fontsize="medium")
+        heading = f"The live campaign read against the grid: {study.title}"
+        fig.suptitle(mpl_text(heading), fontsize="medium")
 
     title = f"Monitor of the live campaign: {study.title}"
     md, page = write_page(out, "monitor", title, lines, _figure_png(draw, 1))

@@ -9,7 +9,9 @@ from pathlib import Path
 
 import numpy as np
 
+from ..report.markup import md_text
 from ..storage import write_text
+from ..world.history import MAX_FIT_ROWS
 from ..world.space import Space
 from .audit import CONSISTENT_AT, CONTRADICTED_BELOW, Audit
 
@@ -52,6 +54,11 @@ def audit_lines(a: Audit, space: Space, data: str) -> list[str]:
         f"distance from the belief's mode to it: {a.distance:.2f} of the range; belief mass "
         f"within {a.radius:g} of it: {_pct(a.mass_within)}",
     ]
+    if a.rows > MAX_FIT_ROWS:
+        lines.append(
+            f"the data's GP saw {MAX_FIT_ROWS} of the {a.rows} rows, drawn with a fixed seed "
+            f"(the limit on a GP fit); the good evaluations are taken from all rows"
+        )
     if a.distortion is not None:
         d, m = a.distortion_distances[a.distortion]
         lines.append(
@@ -119,10 +126,10 @@ def write_page(
 
         with atomic_path(figure) as tmp:
             tmp.write_bytes(png)
-    md = [f"# {title}", "", *(f"- {line}" for line in lines), ""]
+    md = [f"# {md_text(title)}", "", *(f"- {md_text(line)}" for line in lines), ""]
     if png is not None:
-        md += [f"![{title}]({figure.name})", ""]
-    md += ["## Cautions", "", *(f"- {c}" for c in CAUTIONS), ""]
+        md += [f"![{md_text(title)}]({figure.name})", ""]
+    md += ["## Cautions", "", *(f"- {md_text(c)}" for c in CAUTIONS), ""]
     page = [
         "<!DOCTYPE html>",
         '<html lang="en"><head><meta charset="utf-8">',

@@ -18,6 +18,7 @@ from pathlib import Path
 
 from .. import __version__
 from ..engine.strategies import uses_quantile
+from ..report.markup import md_code, md_text
 from ..storage import write_text
 from ..study.cost import duration, size
 from ..study.grid import settings
@@ -573,30 +574,26 @@ def _head(plan: Plan) -> list[str]:
 # --------------------------------------------------------------------------- rendering
 
 
-def _md_cell(text: str) -> str:
-    return text.replace("\\", "\\\\").replace("|", "\\|").replace("\n", " ")
-
-
 def _markdown(plan: Plan) -> str:
-    lines = [f"# {plan.title}", ""]
+    lines = [f"# {md_text(plan.title)}", ""]
     for para in _head(plan):
-        lines += [para, ""]
+        lines += [md_text(para), ""]
     for sec in plan.sections:
-        lines += [f"## {sec.title}", ""]
+        lines += [f"## {md_text(sec.title)}", ""]
         for b in sec.blocks:
             if b.kind == "p":
-                lines += [b.text, ""]
+                lines += [md_text(b.text), ""]
             elif b.kind == "ul":
-                lines += [f"- {item}" for item in b.items] + [""]
+                lines += [f"- {md_text(item)}" for item in b.items] + [""]
             elif b.kind == "table":
-                lines.append("| " + " | ".join(_md_cell(h) for h in b.header) + " |")
+                lines.append("| " + " | ".join(md_text(h) for h in b.header) + " |")
                 lines.append("|" + "|".join(" --- " for _ in b.header) + "|")
-                lines += ["| " + " | ".join(_md_cell(v) for v in row) + " |" for row in b.rows]
+                lines += ["| " + " | ".join(md_text(v) for v in row) + " |" for row in b.rows]
                 lines.append("")
             elif b.kind == "code":
-                lines += ["```", b.text, "```", ""]
+                lines += [*md_code(b.text), ""]
             else:
-                lines += [f"> **{b.text}**", ""]
+                lines += [f"> **{md_text(b.text)}**", ""]
     return "\n".join(lines).rstrip() + "\n"
 
 

@@ -29,6 +29,7 @@ from .content import (
     escape,
     pct,
 )
+from .markup import md_text
 from .panels import report_figures
 from .text import (
     CAUTIONS,
@@ -209,8 +210,7 @@ def _html(c: Content, figures: list[tuple[str, str, str, bytes]]) -> str:
 
 
 def _md_cell(v) -> str:
-    text = f"{v[0]} {v[1]}" if isinstance(v, tuple) else str(v)
-    return text.replace("|", "\\|")
+    return md_text(f"{v[0]} {v[1]}" if isinstance(v, tuple) else v)
 
 
 def _md_table(head: list[str], rows: list) -> str:
@@ -218,7 +218,8 @@ def _md_table(head: list[str], rows: list) -> str:
     lines.append("|" + "|".join(" --- " for _ in head) + "|")
     for row in rows:
         if isinstance(row, Group):
-            row = [f"*{row}*"] + [""] * (len(head) - 1)
+            lines.append(f"| *{md_text(row)}* |" + " |" * (len(head) - 1))
+            continue
         lines.append("| " + " | ".join(_md_cell(v) for v in row) + " |")
     return "\n".join(lines)
 
@@ -227,13 +228,20 @@ def _md_transfer(c: Content) -> list[str]:
     out = []
     if c.transfer is not None:
         rows, words = transfer_rows(c)
-        out += ["## By kind of landscape", "", words, "", _md_table(TRANSFER_HEAD, rows), ""]
+        out += [
+            "## By kind of landscape",
+            "",
+            md_text(words),
+            "",
+            _md_table(TRANSFER_HEAD, rows),
+            "",
+        ]
     if c.truth is not None:
         rows, by, words = truth_rows(c)
         out += [
             "## Does the answer hold on the real problem?",
             "",
-            words,
+            md_text(words),
             "",
             _md_table(TRUTH_HEAD, rows),
             "",
@@ -250,7 +258,7 @@ def _md_resemblance(c: Content) -> list[str]:
     return [
         "## How well each landscape explains the earlier evaluations",
         "",
-        words,
+        md_text(words),
         "",
         _md_table(RESEMBLANCE_HEAD, rows),
         "",
@@ -259,19 +267,19 @@ def _md_resemblance(c: Content) -> list[str]:
 
 def _markdown(c: Content, figures: list[tuple[str, str, str, bytes]]) -> str:
     lines = [
-        f"# {c.ds.attrs.get('title', 'Report')}",
+        f"# {md_text(c.ds.attrs.get('title', 'Report'))}",
         "",
         "## Recommendation",
         "",
-        f"Use **{choice_words(c.rec.choice, c.ds)}**.",
+        f"Use **{md_text(choice_words(c.rec.choice, c.ds))}**.",
         "",
-        *(f"- {k}: {v}" for k, v in answer_rows(c)),
+        *(f"- {md_text(k)}: {md_text(v)}" for k, v in answer_rows(c)),
         "",
-        f"**Risk of a misleading belief.** {risk_paragraph(c)}",
+        f"**Risk of a misleading belief.** {md_text(risk_paragraph(c))}",
         "",
         "## The recommended setting, the runner-up and the baselines",
         "",
-        f"Values with their {pct(c.rs.level)} intervals in brackets.",
+        md_text(f"Values with their {pct(c.rs.level)} intervals in brackets."),
         "",
         _md_table(SUMMARY_HEAD, summary_rows(c)),
         "",
@@ -279,16 +287,16 @@ def _markdown(c: Content, figures: list[tuple[str, str, str, bytes]]) -> str:
         *_md_resemblance(c),
         "## Figures",
         "",
-        *(f"- {title}: `{FIGURES}/{stem}.png`" for stem, title, _, _ in figures),
+        *(f"- {md_text(title)}: `{FIGURES}/{stem}.png`" for stem, title, _, _ in figures),
         "",
         "## Method",
         "",
-        *(f"- {t}" for t in strategy_paragraphs(c)),
+        *(f"- {md_text(t)}" for t in strategy_paragraphs(c)),
         "",
-        *(p + "\n" for p in method_paragraphs(c)),
+        *(md_text(p) + "\n" for p in method_paragraphs(c)),
         "## Cautions",
         "",
-        *(f"- {t}" for t in CAUTIONS),
+        *(f"- {md_text(t)}" for t in CAUTIONS),
         "",
     ]
     return "\n".join(lines)

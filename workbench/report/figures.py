@@ -13,6 +13,7 @@ import numpy as np
 from ..world.marginals import GRID_POINTS, MarginalCurve, marginal_curves
 from ..world.reference import Belief
 from ..world.space import Space
+from .markup import mpl_text
 
 __all__ = [
     "belief_marginals",
@@ -75,24 +76,26 @@ def marginal_panels(axes: Sequence, curves: Sequence[MarginalCurve]) -> None:
                     c.x + (k - (n - 1) / 2) * width,
                     probs,
                     width,
-                    label=label,
+                    label=mpl_text(label),
                     color=colours[k],
                     edgecolor="black",
                     linewidth=0.4,
                 )
-            ax.set_xticks(c.x, c.labels, rotation=30 if len(c.labels) > 6 else 0)
+            labels = [mpl_text(v) for v in c.labels]
+            ax.set_xticks(c.x, labels, rotation=30 if len(c.labels) > 6 else 0)
             ax.set_ylabel("probability")
             if c.optimum is not None:
                 ax.axvline(c.optimum, color="black", linewidth=1.2)
         else:
             for k, (label, density) in enumerate(c.densities.items()):
-                ax.plot(c.x, density, _STYLES[k % 4], color=colours[k], label=label, linewidth=1.6)
+                style = _STYLES[k % 4]
+                ax.plot(c.x, density, style, color=colours[k], label=mpl_text(label), linewidth=1.6)
             if c.log:
                 _log_axis(ax)
             ax.set_ylabel("density (per unit of range)")
             if c.optimum is not None:
                 ax.axvline(c.optimum, color="black", linewidth=1.2, label="optimum")
-        ax.set_xlabel(f"{c.name} [{c.unit}]" if c.unit else c.name)
+        ax.set_xlabel(mpl_text(f"{c.name} [{c.unit}]" if c.unit else c.name))
         ax.set_ylim(bottom=0)
         ax.grid(alpha=0.3, linewidth=0.5)
     axes[0].legend(frameon=False, fontsize="small")
@@ -188,14 +191,14 @@ def sensitivity_heatmap(axes: Sequence, data, metric_label: str, panel_titles=No
                         )
                     )
         ax.set_xticks(range(len(quantiles)), [f"{q:g}" for q in quantiles])
-        ax.set_yticks(range(len(decays)), decays)
+        ax.set_yticks(range(len(decays)), [mpl_text(d) for d in decays])
         ax.set_xlabel("threshold quantile γ")
         ax.set_ylabel("decay schedule")
-        ax.set_title(titles.get(panel, panel), fontsize="medium")
+        ax.set_title(mpl_text(titles.get(panel, panel)), fontsize="medium")
         bar = ax.figure.colorbar(image, ax=ax, fraction=0.046, pad=0.04)
         if flat:  # one value everywhere: a single tick says so
             bar.set_ticks([vmin + 0.5])
-        bar.set_label(metric_label, fontsize="small")
+        bar.set_label(mpl_text(metric_label), fontsize="small")
     handles = [
         Patch(facecolor="white", edgecolor="black", linewidth=2.5, label="lowest in the panel"),
         Patch(
@@ -243,7 +246,7 @@ def regret_curves(
                 markevery=(k % every, every),
                 markersize=4,
                 linewidth=2.0 if s in roles else 1.4,
-                label=label,
+                label=mpl_text(label),
             )
         if target is not None:
             ax.axhline(target, color="black", linewidth=0.8, linestyle=(0, (1, 3)))
@@ -256,7 +259,7 @@ def regret_curves(
                 fontsize="x-small",
             )
         ax.set_yscale("log")
-        ax.set_title(f"distortion: {distortion}", fontsize="medium")
+        ax.set_title(mpl_text(f"distortion: {distortion}"), fontsize="medium")
         ax.set_xlabel("evaluations spent (initial design included)")
         ax.set_ylabel("median normalized regret")
         ax.grid(alpha=0.3, linewidth=0.5, which="both")
@@ -308,7 +311,7 @@ def robustness_frontier(
                 dy += 12
         placed.append((b[k], c[k]))
         ax.annotate(
-            label,
+            mpl_text(label),
             (b[k], c[k]),
             xytext=(6, dy),
             textcoords="offset points",
@@ -334,8 +337,8 @@ def robustness_frontier(
         frameon=False,
         fontsize="small",
     )
-    ax.set_xlabel(f"saving when the belief is exact [{units}] (right is better)")
-    ax.set_ylabel(f"extra cost at the worst distortion [{units}] (down is better)")
+    ax.set_xlabel(mpl_text(f"saving when the belief is exact [{units}] (right is better)"))
+    ax.set_ylabel(mpl_text(f"extra cost at the worst distortion [{units}] (down is better)"))
     ax.grid(alpha=0.3, linewidth=0.5)
 
 
@@ -390,7 +393,7 @@ def distortion_probabilities(ax, t, probabilities, distortions) -> None:
             marker="o",
             ms=3.5,
             color=colours[k],
-            label=str(name),
+            label=mpl_text(name),
             linewidth=1.6,
         )
     ax.set_xlabel("evaluations so far")

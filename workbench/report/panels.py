@@ -10,6 +10,7 @@ import math
 
 from .. import analysis as an
 from .content import DPI, Content, pct
+from .markup import mpl_text
 
 
 def _png(fig) -> bytes:
@@ -174,7 +175,7 @@ def _belief_figure(c: Content):
         fg.marginal_panels(list(axes[row][: dims[row]]), curves)
         for ax in axes[row][dims[row] :]:
             ax.set_visible(False)
-        axes[row][0].set_title(f"landscape {label}", loc="left")
+        axes[row][0].set_title(mpl_text(f"landscape {label}"), loc="left")
     fig.suptitle("Belief marginals", fontsize="large")
     return (
         "belief_marginals",

@@ -15,12 +15,15 @@ from pathlib import Path
 from typing import Any
 
 from ..engine import strategies as st
+from ..seeding import MAX_SEED
+from ..storage import read_input
 from ..validation import (
     InputError,
     check_choice,
     check_keys,
     check_number,
     check_sequence,
+    check_size,
     check_string,
     check_table,
     raw,
@@ -68,6 +71,16 @@ _TOP_KEYS = (
 _RULES = ("expected", "minimax", "cvar")
 # Replicates of the truth grid: the real order of the settings must be measured well.
 TRUTH_REPLICATES = 32
+# Size limits, checked when the study is read, so that no value makes a command allocate or run
+# without bound. A campaign's GP works on (campaigns, n, n) stacks and its cost grows as n³:
+# 1,000 evaluations is far beyond a real experimental budget yet keeps a batch in memory.
+MAX_BUDGET = 1_000
+MAX_REPLICATES = 100_000
+MAX_RANDOM_MULTIPLE = 10_000
+# Replicates per chunk: a chunk's campaigns run as one lock-step batch held in memory.
+MAX_BLOCK = 256
+# A study file is a page of TOML; its data live in the CSV files it names.
+MAX_STUDY_BYTES = 10 * 2**20
 
 
 @dataclass(frozen=True)
@@ -199,12 +212,7 @@ def load(path: str | Path) -> Study:
     """Read and validate a study file; every error names the file."""
     path = Path(path)
     where = str(path)
-    try:
-        data = path.read_bytes()
-    except FileNotFoundError:
-        raise InputError("study", "an existing file", raw(f"no file at {where}"), where) from None
-    except OSError as err:
-        raise InputError("study", "a readable file", raw(err.strerror or str(err)), where) from None
+    data = read_input(path, "study", "a study file", MAX_STUDY_BYTES)
     try:
         text = data.decode("utf-8")
     except UnicodeDecodeError:
@@ -335,9 +343,19 @@ def _parse(
         questions = tuple(
             check_string(q, "questions") for q in check_sequence(doc["questions"], "questions")
         )
-    budget = check_number(doc.get("budget", 30), "budget", low=2, integer=True)
-    replicates = check_number(doc.get("replicates", 8), "replicates", low=1, integer=True)
-    seed = check_number(doc.get("seed", 0), "seed", low=0, integer=True)
+    budget = check_size(
+        doc.get("budget", 30), "budget", low=2, high=MAX_BUDGET, limit="the limit on a budget"
+    )
+    replicates = check_size(
+        doc.get("replicates", 8),
+        "replicates",
+        low=1,
+        high=MAX_REPLICATES,
+        limit="the limit on replicates",
+    )
+    seed = check_size(
+        doc.get("seed", 0), "seed", low=0, high=MAX_SEED, limit="the seeding helper's range"
+    )
     target = check_number(doc.get("target", 0.05), "target", low=0.0, high=1.0, closed="right")
     placement = check_choice(doc.get("placement", "random"), "placement", ("random", "native"))
 
@@ -355,7 +373,9 @@ def _parse(
     )
     size = initial.get("size")
     if size is not None:
-        size = check_number(size, "initial.size", low=1, integer=True)
+        size = check_size(
+            size, "initial.size", low=1, high=MAX_BUDGET, limit="the limit on a budget"
+        )
     for entry in landscapes:
         n0 = size if size is not None else entry.dim + 1
         if budget <= n0:
@@ -381,8 +401,16 @@ def _parse(
                 )
     decision = _decision(doc.get("decision", {}), distortions, landscapes)
     truth, truth_replicates = _truth(doc.get("truth"), space, base)
-    multiple = check_number(doc.get("random_multiple", 1), "random_multiple", low=1, integer=True)
-    block = check_number(doc.get("block", 8), "block", low=1, integer=True)
+    multiple = check_size(
+        doc.get("random_multiple", 1),
+        "random_multiple",
+        low=1,
+        high=MAX_RANDOM_MULTIPLE,
+        limit="the limit on the random baseline's multiple",
+    )
+    block = check_size(
+        doc.get("block", 8), "block", low=1, high=MAX_BLOCK, limit="the limit on a chunk's block"
+    )
     return Study(
         name=name,
         title=title,
@@ -417,8 +445,12 @@ def _truth(table, space, base) -> tuple[LandscapeEntry | None, int]:
     if table is None:
         return None, TRUTH_REPLICATES
     table = dict(check_table(table, "truth"))
-    replicates = check_number(
-        table.pop("replicates", TRUTH_REPLICATES), "truth.replicates", low=2, integer=True
+    replicates = check_size(
+        table.pop("replicates", TRUTH_REPLICATES),
+        "truth.replicates",
+        low=2,
+        high=MAX_REPLICATES,
+        limit="the limit on replicates",
     )
     if space is None:
         raise InputError("truth", "a study with a [space] (the truth lives on it)", raw("none"))
@@ -495,9 +527,16 @@ def _factors(name: str, spec, allowed: tuple[str, ...]) -> StrategyFactors:
     key = f"strategy.{name}"
     spec = check_table(spec, key)
     check_keys(spec, key, allowed, required=("decay",))
-    decay = tuple(
-        parse(d, f"{key}.decay") for d in check_sequence(spec["decay"], f"{key}.decay", unique=True)
-    )
+    written = check_sequence(spec["decay"], f"{key}.decay", unique=True)
+    decay = tuple(parse(d, f"{key}.decay") for d in written)
+    for i, d in enumerate(decay):
+        if d in decay[:i]:  # 'hyperbolic:2' and 'hyperbolic:2.0' are one schedule
+            first = written[decay.index(d)]
+            raise InputError(
+                f"{key}.decay",
+                "a list of different schedules",
+                raw(f"{written[i]!r}, the same schedule as {first!r} ({d})"),
+            )
     quantile = tuple(
         check_number(q, f"{key}.quantile", low=0.0, high=1.0, closed="neither")
         for q in check_sequence(
@@ -557,6 +596,8 @@ def _decision(table, distortions, landscapes) -> Decision:
     for k, v in weights.items():
         check_choice(k, "decision.weights", names)
         check_number(v, f"decision.weights.{k}", low=0.0)
+    if weights and sum(float(v) for v in weights.values()) <= 0:
+        raise InputError("decision.weights", "weights that are not all 0", raw(str(weights)))
     level = check_number(
         table.get("level", 0.25), "decision.level", low=0.0, high=1.0, closed="right"
     )

@@ -20,6 +20,7 @@ from ..validation import (
     check_keys,
     check_number,
     check_sequence,
+    check_size,
     check_string,
     check_table,
     raw,
@@ -32,7 +33,27 @@ from ..world.likeness import LikeData
 from ..world.space import Categorical, Continuous, Integer, Space
 from ..world.table import LOOKUPS, MeasuredTable
 
-__all__ = ["LandscapeEntry", "belief_table", "landscape_tables", "space_table"]
+__all__ = [
+    "MAX_CHOICES",
+    "MAX_FEATURES",
+    "MAX_LEVELS",
+    "MAX_WIDTH",
+    "LandscapeEntry",
+    "belief_table",
+    "landscape_tables",
+    "space_table",
+]
+
+# Size limits of the world tables, checked when the study is read. A space has at most
+# MAX_DIM parameters (the landscapes' own limit); an integer parameter at most MAX_LEVELS
+# values (beliefs and figures hold one number per value: use a continuous parameter beyond);
+# a categorical one at most MAX_CHOICES (each is one column of the GP's inputs).
+MAX_LEVELS = 10_000
+MAX_CHOICES = 100
+# Random Fourier features of a drawn or fitted surface.
+MAX_FEATURES = 65_536
+# The widest Gaussian belief, in ranges of its parameter: wider is flat on the range.
+MAX_WIDTH = 100.0
 
 
 @dataclass(frozen=True)
@@ -66,6 +87,12 @@ class LandscapeEntry:
 
 def space_table(table) -> Space:
     table = check_table(table, "space")
+    if len(table) > ls.MAX_DIM:
+        raise InputError(
+            "space",
+            f"at most {ls.MAX_DIM} parameters (the limit on a study's dimension)",
+            raw(f"{len(table)} parameters"),
+        )
     params = []
     for name, spec in table.items():
         key = f"space.{name}"
@@ -73,6 +100,12 @@ def space_table(table) -> Space:
         if "choices" in spec:
             check_keys(spec, key, ("choices", "unit"))
             choices = check_sequence(spec["choices"], f"{key}.choices", min_length=2)
+            if len(choices) > MAX_CHOICES:
+                raise InputError(
+                    f"{key}.choices",
+                    f"at most {MAX_CHOICES} choices (the limit on a categorical parameter)",
+                    raw(f"{len(choices)} choices"),
+                )
             params.append(Categorical(name, tuple(choices), spec.get("unit", "")))
             continue
         check_keys(
@@ -88,7 +121,15 @@ def space_table(table) -> Space:
         if kind == "integer":
             if scale == "log":
                 raise InputError(f"{key}.scale", "'linear' for an integer parameter", scale)
-            params.append(Integer(name, spec["lower"], spec["upper"], unit))
+            integer = Integer(name, spec["lower"], spec["upper"], unit)
+            if integer.levels > MAX_LEVELS:
+                raise InputError(
+                    f"{key}.upper",
+                    f"at most {MAX_LEVELS - 1} above lower (the limit on an integer parameter's "
+                    f"values; use a continuous one)",
+                    spec["upper"],
+                )
+            params.append(integer)
         else:
             params.append(Continuous(name, spec["lower"], spec["upper"], scale == "log", unit))
     return Space(tuple(params))
@@ -203,7 +244,9 @@ def _features(table, key) -> int:
     """Random Fourier features of a drawn or fitted surface."""
 
     value = table.get("features", surfaces.DEFAULT_FEATURES)
-    return check_number(value, f"{key}.features", low=16, high=65536, integer=True)
+    return check_size(
+        value, f"{key}.features", low=16, high=MAX_FEATURES, limit="the limit on features"
+    )
 
 
 def _goal(entry, key) -> str:
@@ -316,7 +359,9 @@ def belief_table(table, space: Space | None):
     table = check_table(table, "belief")
     if space is None:
         check_keys(table, "belief", ("spread",))
-        spread = check_number(table.get("spread", 0.1), "belief.spread", low=0.0, closed="right")
+        spread = check_number(
+            table.get("spread", 0.1), "belief.spread", low=0.0, high=MAX_WIDTH, closed="right"
+        )
         return None, spread
     if "points" in table:
         check_keys(table, "belief", ("points",))
@@ -404,10 +449,18 @@ def _gaussian(p, spec, key: str):
         raise InputError(
             f"{key}.factor", "'within' or 'spread' on a linear parameter", raw("'factor'")
         )
+    # A belief wider than MAX_WIDTH ranges is flat on the range (say uniform = true); wider
+    # ones only overflow. Each way of giving the width is bounded at that many ranges.
     if how == "factor":
-        value = check_number(spec[how], f"{key}.factor", low=1.0, closed="neither")
+        high = float(np.exp(min(MAX_WIDTH * np.log(p.upper / p.lower), 700.0)))
+        value = check_number(spec[how], f"{key}.factor", low=1.0, high=high, closed="right")
+    elif how == "within":
+        width = p.levels if isinstance(p, Integer) else p.upper - p.lower
+        value = check_number(
+            spec[how], f"{key}.within", low=0.0, high=MAX_WIDTH * width, closed="right"
+        )
     else:
-        value = check_number(spec[how], f"{key}.{how}", low=0.0, closed="right")
+        value = check_number(spec[how], f"{key}.spread", low=0.0, high=MAX_WIDTH, closed="right")
     return bl.gaussian_for(p, centre, **{how: value})
 
 

@@ -18,18 +18,43 @@ from __future__ import annotations
 import csv
 import hashlib
 import math
+import re
 from collections.abc import Sequence
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from pathlib import Path
 
 import numpy as np
 
-from ..validation import InputError, raw
+from ..seeding import derive, generator
+from ..storage import read_input
+from ..validation import InputError, closest, raw
 from .space import Categorical, Integer, Space
 
-__all__ = ["GOALS", "History", "Table", "read_history", "read_table"]
+__all__ = [
+    "GOALS",
+    "MAX_FILE_BYTES",
+    "MAX_FIT_ROWS",
+    "MAX_ROWS",
+    "History",
+    "Table",
+    "fitting_source",
+    "read_history",
+    "read_table",
+]
 
 GOALS = ("minimise", "maximise")
+# Size limits of a CSV table, checked as it is read: its bytes and its data rows.
+MAX_FILE_BYTES = 50 * 2**20
+MAX_ROWS = 100_000
+# A GP fitted to the data (fitted and likedata landscapes, the audit) sees at most this many
+# rows, chosen with a fixed seed (:meth:`History.fitting_rows`): its cost grows as n³ and its
+# memory as n², and a few hundred evaluations pin a smooth response down.
+MAX_FIT_ROWS = 500
+# A number as a CSV cell writes it: digits, an optional point and exponent (no '1_000', 'nan',
+# 'inf', hex or non-ASCII digits, all of which float() accepts).
+_NUMBER = re.compile(r"[+-]?([0-9]+(\.[0-9]*)?|\.[0-9]+)([eE][+-]?[0-9]+)?")
+# How much of a cell or header a message quotes.
+_EXCERPT = 40
 
 
 @dataclass(frozen=True)
@@ -65,14 +90,39 @@ class History:
         """The response in the file's own orientation."""
         return -self.y if self.goal == "maximise" else self.y.copy()
 
+    def fitting_rows(self, limit: int = MAX_FIT_ROWS) -> History:
+        """At most ``limit`` rows for a GP fit: all of them, or ``limit`` drawn without
+        replacement by a fixed seed (so every process picks the same), in file order. The
+        ``digest`` stays the file's."""
+        if self.rows <= limit:
+            return self
+        rng = generator(derive(0, "fitting rows", self.digest))
+        keep = np.sort(rng.choice(self.rows, size=limit, replace=False))
+        return replace(self, X=self.X[keep], y=self.y[keep])
+
+
+def _excerpt(text: str) -> str:
+    """A short, escaped quotation of file text for a message (``repr``: no control
+    characters or line breaks reach the terminal; at most ``_EXCERPT`` characters)."""
+    shown = repr(text[:_EXCERPT])
+    return shown + "…" if len(text) > _EXCERPT else shown
+
+
+def _header_words(header: list[str], name: str) -> str:
+    """What a header without column ``name`` holds, in words: its size and the closest column
+    name (only a name like the missing one is quoted, never the line itself)."""
+    hint = closest(name, header)
+    words = f"{len(header)} column(s), none of them {name!r}"
+    return words + (f" (the closest is {_excerpt(hint)})" if hint else "")
+
 
 def _number(text: str, where: str, key: str) -> float:
-    try:
-        value = float(text)
-    except ValueError:
-        raise InputError(key, "a number", text, where) from None
+    text = text.strip()
+    if not _NUMBER.fullmatch(text):
+        raise InputError(key, "a number such as 12, -0.5 or 1e3", raw(_excerpt(text)), where)
+    value = float(text)
     if not math.isfinite(value):
-        raise InputError(key, "a finite number", text, where)
+        raise InputError(key, "a finite number", raw(_excerpt(text)), where)
     return value
 
 
@@ -81,14 +131,16 @@ def _cell(param, text: str, where: str, key: str) -> float:
     text = text.strip()
     if isinstance(param, Categorical):
         if text not in param.choices:
-            raise InputError(key, f"one of {', '.join(param.choices)}", text, where)
+            raise InputError(key, f"one of {', '.join(param.choices)}", raw(_excerpt(text)), where)
         return float(param.to_unit(np.array([text]))[0])
     value = _number(text, where, key)
     if isinstance(param, Integer):
         if value != int(value):
-            raise InputError(key, "a whole number", text, where)
+            raise InputError(key, "a whole number", raw(_excerpt(text)), where)
     if not param.lower <= value <= param.upper:
-        raise InputError(key, f"a value in [{param.lower:g}, {param.upper:g}]", text, where)
+        raise InputError(
+            key, f"a value in [{param.lower:g}, {param.upper:g}]", raw(_excerpt(text)), where
+        )
     return float(param.to_unit(np.array([value]))[0])
 
 
@@ -125,12 +177,7 @@ def read_table(
     """
     path = Path(path)
     where = str(path)
-    try:
-        raw_bytes = path.read_bytes()
-    except OSError as err:
-        raise InputError(
-            "data", "a readable CSV file", raw(err.strerror or str(err)), where
-        ) from None
+    raw_bytes = read_input(path, "data", "a CSV file", MAX_FILE_BYTES)
     try:
         text = raw_bytes.decode("utf-8-sig")
     except UnicodeDecodeError:
@@ -140,19 +187,33 @@ def read_table(
     ]
     if not lines:
         raise InputError("data", "a header row and data rows", raw("nothing"), where)
+    if len(lines) - 1 > MAX_ROWS:
+        raise InputError(
+            "data",
+            f"at most {MAX_ROWS} data rows (the limit on a table)",
+            raw(f"{len(lines) - 1} rows"),
+            where,
+        )
     reader = csv.reader(lines)
     header = [h.strip() for h in next(reader)]
     expected = [*space.names, *columns]
     for name in expected:
         if name not in header:
             raise InputError(
-                f"column '{name}'", "present in the header", raw(", ".join(header)), where
+                f"column '{name}'",
+                "present in the header",
+                raw(_header_words(header, name)),
+                where,
             )
     for name in header:
+        if header.count(name) > 1:
+            raise InputError(
+                f"column {_excerpt(name)}", "named once in the header", raw("twice"), where
+            )
         if name not in expected:
             what = "the response" if len(columns) == 1 else "the named columns"
             raise InputError(
-                f"column '{name}'",
+                f"column {_excerpt(name)}",
                 f"one of the space's parameters or {what} ({', '.join(expected)})",
                 raw("an unknown column"),
                 where,
@@ -170,9 +231,7 @@ def read_table(
             ]
         )
         for name in columns:
-            values[name].append(
-                _number(row[index[name]].strip(), where, f"row {r}, column '{name}'")
-            )
+            values[name].append(_number(row[index[name]], where, f"row {r}, column '{name}'"))
     if len(X) < min_rows:
         raise InputError(
             "data", f"at least {min_rows} rows ({rows_meaning})", raw(f"{len(X)} rows"), where
@@ -213,4 +272,15 @@ def read_history(
         goal=goal,
         path=table.path,
         digest=table.digest,
+    )
+
+
+def fitting_source(history: History, fit: History) -> str:
+    """Where a GP's data came from, in words, saying when it saw a subsample of the rows."""
+    name = Path(history.path).name
+    if fit.rows == history.rows:
+        return f"{history.rows} evaluations in {name}"
+    return (
+        f"{fit.rows} of the {history.rows} evaluations in {name} (a subsample drawn with a "
+        f"fixed seed: a GP is fitted to at most {MAX_FIT_ROWS} rows)"
     )

@@ -36,6 +36,7 @@ import numpy as np
 from .. import gp
 from ..validation import InputError, raw
 from . import likeness, surfaces
+from .history import fitting_source
 from .landscapes import Landscape
 from .space import Space
 
@@ -132,10 +133,11 @@ class Fitted:
     @classmethod
     def from_history(cls, history, **options) -> Fitted:
         """From earlier evaluations (a :class:`workbench.world.history.History`)."""
+        fit = history.fitting_rows()
         return cls(
-            X=tuple(map(tuple, history.X.tolist())),
-            y=tuple(history.y.tolist()),
-            source=f"{history.rows} evaluations in {Path(history.path).name}",
+            X=tuple(map(tuple, fit.X.tolist())),
+            y=tuple(fit.y.tolist()),
+            source=fitting_source(history, fit),
             digest=history.digest,
             response=history.response,
             goal=history.goal,

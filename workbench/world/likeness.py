@@ -44,7 +44,6 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass, field
 from functools import cache
-from pathlib import Path
 
 import numpy as np
 from numpy.typing import ArrayLike, NDArray
@@ -53,6 +52,7 @@ from scipy.linalg import lapack
 
 from .. import gp
 from . import surfaces
+from .history import fitting_source
 from .landscapes import Landscape
 
 __all__ = [
@@ -521,10 +521,11 @@ class LikeData:
             options.setdefault(
                 "categorical", tuple(isinstance(p, Categorical) for p in space.parameters)
             )
+        fit = history.fitting_rows()
         return cls(
-            X=tuple(map(tuple, history.X.tolist())),
-            y=tuple(history.y.tolist()),
-            source=f"{history.rows} evaluations in {Path(history.path).name}",
+            X=tuple(map(tuple, fit.X.tolist())),
+            y=tuple(fit.y.tolist()),
+            source=fitting_source(history, fit),
             digest=history.digest,
             response=history.response,
             goal=history.goal,
