@@ -64,7 +64,8 @@ class Rule:
         if self.landscape_weights:
             w = ", ".join(f"{k} {v:.2g}" for k, v in self.landscape_weights.items())
             return f"landscapes weighted {w} ({self.landscape_basis}); score: {score}"
-        return f"landscapes weighted equally; score: {score}"
+        why = "" if self.landscape_basis == "equal weights" else f" ({self.landscape_basis})"
+        return f"landscapes weighted equally{why}; score: {score}"
 
     def describe(self) -> str:
         """The rule in words, for reports and the command line."""
@@ -283,6 +284,7 @@ class Recommendation:
         out = [
             f"recommendation: {self.setting}",
             f"  rule ({self.rule.rule}): {self.rule.describe()}",
+            f"  {self.rule.landscapes_text()}",
             f"  {name}: {short_number(self.value)} {unit} "
             f"({level} interval {short_number(lo)} to {short_number(hi)})",
         ]
@@ -308,6 +310,9 @@ class Recommendation:
         out.update(
             rule=self.rule.rule,
             weights=dict(self.rule.weights),
+            landscape_weights=dict(self.rule.landscape_weights),
+            landscape_basis=self.rule.landscape_basis,
+            score=self.rule.score,
             level=self.rule.level,
             metric=self.rule.metric,
             lower_is_better=True,

@@ -97,6 +97,7 @@ def answer_rows(c: Content) -> list[tuple[str, str]]:
     level = pct(c.rs.level)
     rows = [
         ("rule", c.rule.describe()),
+        ("landscapes", c.rule.landscapes_text()),
         (
             metric_name,
             f"{num(r.value)} {unit} ({level} interval {span(*r.interval)})",
