@@ -4,7 +4,10 @@ VENV := .venv
 BIN := $(VENV)/bin
 STAMP := $(VENV)/.installed
 
-.PHONY: demo test lint format bench readme clean chromium
+OLDEST := .venv-oldest
+OLDEST_STAMP := $(OLDEST)/.installed
+
+.PHONY: demo test test-oldest lint format bench readme clean chromium
 
 $(STAMP): pyproject.toml
 	$(PYTHON) -m venv $(VENV)
@@ -21,6 +24,19 @@ lint: $(STAMP)
 
 test: lint chromium
 	$(BIN)/python -m pytest -q
+
+# The declared floors: a separate venv with the lowest versions (constraints/oldest.txt) and
+# the fast tests of the numerical stages. Not part of `make test` (it installs a second set).
+$(OLDEST_STAMP): pyproject.toml constraints/oldest.txt
+	$(PYTHON) -m venv $(OLDEST)
+	$(OLDEST)/bin/python -m pip install --quiet --upgrade pip
+	$(OLDEST)/bin/python -m pip install --quiet -c constraints/oldest.txt -e '.[test,cluster]'
+	touch $(OLDEST_STAMP)
+
+test-oldest: $(OLDEST_STAMP)
+	$(OLDEST)/bin/python -m pip list --format=freeze | grep -iE '^(numpy|scipy|scikit-learn|xarray)=='
+	$(OLDEST)/bin/python -m pytest -q -m "not slow" -p no:cacheprovider \
+	  tests/engine tests/world tests/study/test_spec.py tests/study/test_runner.py
 
 # Headless Chromium renders the HTML report in tests/test_report.py (Debian's package).
 chromium:
@@ -41,4 +57,4 @@ readme: $(STAMP)
 	$(BIN)/python docs/readme.py
 
 clean:
-	rm -rf $(VENV) .pytest_cache .ruff_cache
+	rm -rf $(VENV) $(OLDEST) .pytest_cache .ruff_cache

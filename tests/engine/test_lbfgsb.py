@@ -98,6 +98,9 @@ def test_evaluation_and_iteration_limits_hold_per_problem():
     assert res.nfev[3] <= 4
 
 
+@pytest.mark.skipif(
+    not lbfgsb.scipy_driver_usable(), reason="this scipy's L-BFGS-B driver is not the expected one"
+)
 def test_the_driven_minimiser_is_scipys_fmin_l_bfgs_b_answered_in_batches():
     # Reference: scipy.optimize.fmin_l_bfgs_b on each problem alone, with the same function,
     # start and limits: the batched driver must give the same optimum (measured: bit for bit;
