@@ -3,16 +3,27 @@ PYTHON ?= python3
 VENV := .venv
 BIN := $(VENV)/bin
 STAMP := $(VENV)/.installed
+# Exact versions of everything .venv holds, so that every install gets the same libraries
+# (the grid's values depend on them): `make lock` rewrites it from the current .venv.
+LOCK := constraints/lock.txt
 
 OLDEST := .venv-oldest
 OLDEST_STAMP := $(OLDEST)/.installed
 
-.PHONY: demo test test-oldest lint format bench readme clean chromium
+.PHONY: demo test test-oldest lock lint format bench readme clean chromium
 
-$(STAMP): pyproject.toml
+$(STAMP): pyproject.toml $(LOCK)
 	$(PYTHON) -m venv $(VENV)
 	$(BIN)/python -m pip install --quiet --upgrade pip
-	$(BIN)/python -m pip install --quiet -e '.[test,cluster]'
+	$(BIN)/python -m pip install --quiet -c $(LOCK) -e '.[test,cluster]'
+	touch $(STAMP)
+
+# To move to newer releases: `.venv/bin/python -m pip install --upgrade -e '.[test,cluster]'`
+# (or upgrade one package), `make test`, then `make lock` and commit constraints/lock.txt.
+lock:
+	@test -x $(BIN)/python || { echo "no $(VENV): run make test first"; exit 1; }
+	{ echo "# Written by make lock from .venv ($$($(BIN)/python --version)); do not edit."; \
+	  $(BIN)/python -m pip freeze --exclude-editable; } > $(LOCK)
 	touch $(STAMP)
 
 demo: $(STAMP)
