@@ -49,7 +49,8 @@ $(OLDEST_STAMP): pyproject.toml constraints/oldest.txt
 test-oldest: $(OLDEST_STAMP)
 	$(OLDEST)/bin/python -m pip list --format=freeze | grep -iE '^(numpy|scipy|scikit-learn|xarray)=='
 	OPENBLAS_NUM_THREADS=1 $(OLDEST)/bin/python -m pytest -q -m "not slow" -p no:cacheprovider \
-	  tests/engine tests/world tests/study/test_spec.py tests/study/test_runner.py
+	  tests/engine tests/world tests/study/test_spec.py tests/study/test_runner.py \
+	  tests/study/test_provenance.py
 
 # Headless Chromium renders the HTML report in tests/test_report.py (Debian's package).
 chromium:
