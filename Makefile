@@ -3,13 +3,27 @@ PYTHON ?= python3
 VENV := .venv
 BIN := $(VENV)/bin
 STAMP := $(VENV)/.installed
+# Exact versions of everything .venv holds, so that every install gets the same libraries
+# (the grid's values depend on them): `make lock` rewrites it from the current .venv.
+LOCK := constraints/lock.txt
 
-.PHONY: demo test lint format bench readme clean chromium
+OLDEST := .venv-oldest
+OLDEST_STAMP := $(OLDEST)/.installed
 
-$(STAMP): pyproject.toml
+.PHONY: demo test test-oldest lock lint format bench readme clean chromium
+
+$(STAMP): pyproject.toml $(LOCK)
 	$(PYTHON) -m venv $(VENV)
 	$(BIN)/python -m pip install --quiet --upgrade pip
-	$(BIN)/python -m pip install --quiet -e '.[test,cluster]'
+	$(BIN)/python -m pip install --quiet -c $(LOCK) -e '.[test,cluster]'
+	touch $(STAMP)
+
+# To move to newer releases: `.venv/bin/python -m pip install --upgrade -e '.[test,cluster]'`
+# (or upgrade one package), `make test`, then `make lock` and commit constraints/lock.txt.
+lock:
+	@test -x $(BIN)/python || { echo "no $(VENV): run make test first"; exit 1; }
+	{ echo "# Written by make lock from .venv ($$($(BIN)/python --version)); do not edit."; \
+	  $(BIN)/python -m pip freeze --exclude-editable; } > $(LOCK)
 	touch $(STAMP)
 
 demo: $(STAMP)
@@ -21,6 +35,22 @@ lint: $(STAMP)
 
 test: lint chromium
 	$(BIN)/python -m pytest -q
+
+# The declared floors: a separate venv with the lowest versions (constraints/oldest.txt) and
+# the fast tests of the numerical stages. Not part of `make test` (it installs a second set).
+$(OLDEST_STAMP): pyproject.toml constraints/oldest.txt
+	$(PYTHON) -m venv $(OLDEST)
+	$(OLDEST)/bin/python -m pip install --quiet --upgrade pip
+	$(OLDEST)/bin/python -m pip install --quiet -c constraints/oldest.txt -e '.[test,cluster]'
+	touch $(OLDEST_STAMP)
+
+# One BLAS thread: numpy 1.26's multithreaded OpenBLAS makes a campaign's trace depend on
+# its batch in the last bits (tests/engine/test_batch.py, measured); one thread does not.
+test-oldest: $(OLDEST_STAMP)
+	$(OLDEST)/bin/python -m pip list --format=freeze | grep -iE '^(numpy|scipy|scikit-learn|xarray)=='
+	OPENBLAS_NUM_THREADS=1 $(OLDEST)/bin/python -m pytest -q -m "not slow" -p no:cacheprovider \
+	  tests/engine tests/world tests/study/test_spec.py tests/study/test_runner.py \
+	  tests/study/test_provenance.py
 
 # Headless Chromium renders the HTML report in tests/test_report.py (Debian's package).
 chromium:
@@ -41,4 +71,4 @@ readme: $(STAMP)
 	$(BIN)/python docs/readme.py
 
 clean:
-	rm -rf $(VENV) .pytest_cache .ruff_cache
+	rm -rf $(VENV) $(OLDEST) .pytest_cache .ruff_cache

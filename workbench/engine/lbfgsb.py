@@ -20,16 +20,27 @@ Nocedal & Zhu 1995):
 A problem stops when its projected gradient is below ``pgtol`` (infinity norm), its relative
 reduction is below ``factr·ε`` (scipy's ``fmin_l_bfgs_b`` defaults), or it reaches its
 ``maxiter`` iterations or ``maxfun`` evaluations. The best point seen is returned.
+
+:func:`minimise_driven` runs scipy's own L-BFGS-B instead, through its private driver
+``scipy.optimize._lbfgsb.setulb``, whose argument list is the one of scipy's C port (1.15 and
+later). It is used only after :func:`scipy_driver_usable` has found that driver's documented
+signature and checked it on a one-dimensional quadratic whose minimiser is known; otherwise
+(an older or a future scipy) the same problems go to :func:`minimise`, with a warning logged
+once per process.
 """
 
 from __future__ import annotations
 
+import functools
+import logging
 from collections.abc import Callable
 from dataclasses import dataclass
 
 import numpy as np
 
-__all__ = ["BatchResult", "minimise"]
+__all__ = ["BatchResult", "minimise", "minimise_driven", "scipy_driver_usable"]
+
+log = logging.getLogger(__name__)
 
 _EPS = np.finfo(float).eps
 _ARMIJO = 1e-4
@@ -189,6 +200,47 @@ def minimise(
     return BatchResult(best_x, best_f, nit, nfev)
 
 
+# The private driver's argument list this module was written for (its f2py/C docstring's
+# first line); scipy's C port of L-BFGS-B has it from 1.15 on.
+DRIVER_SIGNATURE = "setulb(m,x,l,u,nbd,f,g,factr,pgtol,wa,iwa,task,lsave,isave,dsave,maxls,ln_task)"
+
+
+@functools.cache
+def scipy_driver_usable() -> bool:
+    """Whether scipy's private L-BFGS-B driver is the one :func:`minimise_driven` was written
+    for: its docstring names :data:`DRIVER_SIGNATURE`, and it minimises ``f(x) = (x − 0.3)²``
+    on ``[−1, 1]`` from ``x = 0.9`` to ``0.3`` (within 1e-6). Checked once per process."""
+    try:
+        from scipy.optimize import _lbfgsb
+    except ImportError:
+        reason = "scipy.optimize._lbfgsb is missing"
+    else:
+        doc = (getattr(getattr(_lbfgsb, "setulb", None), "__doc__", None) or "").strip()
+        if not doc.startswith(DRIVER_SIGNATURE):
+            reason = f"its driver reads {doc.splitlines()[0] if doc else 'nothing'!r}"
+        else:
+
+            def parabola(X, idx):
+                return ((X - 0.3) ** 2).sum(axis=1), 2.0 * (X - 0.3)
+
+            try:
+                res = _driven(parabola, np.array([[0.9]]), -1.0, 1.0, maxiter=20, maxfun=40)
+                works = abs(float(res.x[0, 0]) - 0.3) < 1e-6
+            except Exception:  # any failure of a private API means: do not use it
+                works = False
+            reason = None if works else "its driver failed the check on a quadratic"
+    if reason is None:
+        return True
+    import scipy
+
+    log.warning(
+        "scipy %s: %s; L-BFGS-B runs on workbench's own implementation instead",
+        scipy.__version__,
+        reason,
+    )
+    return False
+
+
 def minimise_driven(
     fun: Callable[[np.ndarray, np.ndarray], tuple[np.ndarray, np.ndarray]],
     x0: np.ndarray,
@@ -205,12 +257,38 @@ def minimise_driven(
     """The same ``B`` problems as :func:`minimise`, each driven by scipy's own L-BFGS-B (the
     reverse-communication ``setulb`` behind ``scipy.optimize.fmin_l_bfgs_b``: generalised
     Cauchy point, subspace minimisation, Moré–Thuente line search), with every problem's
-    request for a value and gradient answered in one call of ``fun``.
+    request for a value and gradient answered in one call of ``fun``; :func:`minimise` when
+    :func:`scipy_driver_usable` says the installed scipy's driver is not the expected one.
 
     The stopping rules are ``fmin_l_bfgs_b``'s: ``maxiter`` iterations, or more than ``maxfun``
     evaluations at the end of an iteration. A problem whose evaluation fails (non-finite) stops
     with value ``inf``, as a failed start is skipped by :func:`workbench.gp.fit`.
     """
+    if not scipy_driver_usable():
+        return minimise(
+            fun, x0, lower, upper, maxiter=maxiter, maxfun=maxfun, memory=memory, pgtol=pgtol,
+            factr=factr,
+        )  # fmt: skip
+    return _driven(
+        fun, x0, lower, upper, maxiter=maxiter, maxfun=maxfun, memory=memory, pgtol=pgtol,
+        factr=factr, maxls=maxls,
+    )  # fmt: skip
+
+
+def _driven(
+    fun: Callable[[np.ndarray, np.ndarray], tuple[np.ndarray, np.ndarray]],
+    x0: np.ndarray,
+    lower: np.ndarray,
+    upper: np.ndarray,
+    *,
+    maxiter: int | np.ndarray,
+    maxfun: int | np.ndarray,
+    memory: int = 10,
+    pgtol: float = 1e-5,
+    factr: float = 1e7,
+    maxls: int = 20,
+) -> BatchResult:
+    """:func:`minimise_driven` on scipy's driver, unchecked."""
     from scipy.optimize import _lbfgsb  # the driver of fmin_l_bfgs_b
 
     x = np.array(x0, dtype=float, ndmin=2)

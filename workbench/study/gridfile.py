@@ -39,6 +39,10 @@ leave-one-out log predictive density per point for a fitted landscape),
 with the attributes ``resemblance_data`` (where the data come from) and ``resemblance_level``;
 absent otherwise.
 
+What the run was: ``study_path`` (relative to the grid's folder), ``version`` (the package's),
+``numpy_version``, ``scipy_version``, ``scikit_learn_version``, ``xarray_version``,
+``netcdf4_version``, ``blas``, ``kernels`` and ``lbfgsb`` (see :mod:`workbench.study.provenance`).
+
 Repeats, by design: prior-weighted ignores the quantile, so its values repeat across the
 ``quantile`` levels; no-belief and random ignore the belief, so theirs repeat across
 ``distortion``. NaN marks a combination the study does not run (a decay level of one strategy
@@ -51,6 +55,7 @@ large the grid; it is written to a temporary name and renamed at the end.
 from __future__ import annotations
 
 import json
+import os
 from pathlib import Path
 
 import numpy as np
@@ -171,7 +176,6 @@ def _define(ds, study: Study) -> None:
     ds.title = study.title
     ds.study_name = study.name
     ds.study = study.text
-    ds.study_path = str(Path(study.path).resolve()) if Path(study.path).is_file() else study.path
     ds.root_seed = study.seed
     ds.version = __version__
     ds.budget = study.budget
@@ -328,8 +332,28 @@ def _write_replicate(ds, study: Study, chunk: Chunk, r: int, data) -> float:
     return float(np.nanmin(data["normalized_regret"]))
 
 
-def assemble(study: Study, chunk_dir: Path, path: Path, every: list[Chunk]) -> dict[str, float]:
-    """Write ``path`` from the chunk files in ``chunk_dir`` (all of ``every`` must be there).
+def run_attributes(study: Study, path: Path, provenance: dict | None) -> dict:
+    """The attributes of the run: the study file's path relative to the grid's folder
+    (``study_path``; the study's own label when it was not read from a file) and what the
+    values were computed with (:func:`workbench.study.provenance.provenance`; ``version`` is
+    the package's)."""
+    where = Path(study.path)
+    if where.is_file():
+        where_rel = os.path.relpath(where.resolve(), Path(path).resolve().parent)
+    else:
+        where_rel = str(study.path)
+    return {"study_path": where_rel, **(provenance or {})}
+
+
+def assemble(
+    study: Study,
+    chunk_dir: Path,
+    path: Path,
+    every: list[Chunk],
+    provenance: dict | None = None,
+) -> dict[str, float]:
+    """Write ``path`` from the chunk files in ``chunk_dir`` (all of ``every`` must be there),
+    with :func:`run_attributes` (``provenance``: what the chunks were computed with).
 
     Returns the lowest normalized regret of any campaign per landscape label: below zero, a
     campaign found a value lower than the landscape's computed minimum.
@@ -340,6 +364,7 @@ def assemble(study: Study, chunk_dir: Path, path: Path, every: list[Chunk]) -> d
     with atomic_path(path) as tmp:
         with netCDF4.Dataset(tmp, "w", format="NETCDF4") as ds:
             _define(ds, study)
+            ds.setncatts(run_attributes(study, path, provenance))
             _write_beliefs(ds, study)
             # After the beliefs: replicate 0's surfaces are built and cached by then.
             _write_resemblance(ds, study)

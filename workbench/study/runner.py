@@ -3,8 +3,10 @@
 Layout of an output folder::
 
     manifest.json     format, study name, digest (SHA-256 of the study text), package
-                      version; per finished chunk the SHA-256 of its file and its compute
-                      seconds; the SHA-256 of the grid it was last assembled into
+                      version; what the chunks were computed with (``provenance``: library
+                      versions, BLAS, kernel choice); per finished chunk the SHA-256 of its
+                      file and its compute seconds; the SHA-256 of the grid it was last
+                      assembled into
     chunks/*.npz      one file per finished chunk (written to a temporary name, then renamed);
                       besides the results it records its study's digest and its key
                       (landscape, distortion, replicates, block size)
@@ -13,7 +15,9 @@ Layout of an output folder::
 
 Running again resumes: every chunk on disk is checked (its checksum against the manifest, its
 record against the study and its key) and a damaged, foreign or unlisted one is computed
-again; a run with nothing to do writes nothing. A folder holding another study's results is
+again; a run with nothing to do writes nothing. A run that would add chunks to chunks computed
+with other libraries, BLAS or kernels (:mod:`workbench.study.provenance`) is refused: the grid
+would mix values computed differently. A folder holding another study's results is
 refused unless ``fresh`` is set, which deletes what the workbench wrote there (the chunks its
 manifest lists, grid.nc, manifest.json) and nothing else; a folder with results but no
 readable manifest is never assumed to be this study's, and ``fresh`` refuses a folder holding
@@ -46,6 +50,7 @@ from .. import __version__
 from ..storage import FolderBusy, atomic_path, folder_lock, remove_parts, sha256_of, write_text
 from ..validation import InputError, raw
 from .grid import Chunk, chunks, run_chunk
+from .provenance import differences, provenance
 from .spec import Study
 
 __all__ = ["RunSummary", "execute", "run_study"]
@@ -269,6 +274,27 @@ def prepare(study: Study, out: Path, fresh: bool) -> tuple[dict, bool]:
     if manifest is None:
         return _new_manifest(study), True
     return manifest, False
+
+
+def _check_provenance(
+    study: Study, out: Path, manifest: dict, todo: list[Chunk], current: dict[str, str]
+) -> None:
+    """Refuse to compute chunks beside chunks computed with other libraries (kept chunks
+    are those still listed after :func:`_sort`); otherwise record what the new ones use."""
+    if not todo:
+        return  # nothing computed: the grid is assembled with the recorded provenance
+    if manifest["chunks"]:
+        differ = differences(manifest.get("provenance"), current)
+        if differ:
+            shown = "; ".join(differ[:3]) + ("; ..." if len(differ) > 3 else "")
+            raise _refuse(
+                out,
+                "a folder whose chunks were computed with these libraries "
+                "(use --fresh to start over)",
+                f"holding chunks computed with {shown}",
+                study.path,
+            )
+    manifest["provenance"] = current
 
 
 def _remove_stale_parts(out: Path) -> None:
@@ -545,6 +571,7 @@ def run_study(
             manifest, new = prepare(study, out, fresh)
             every = chunks(study)
             todo, recomputed = _sort(study, out, manifest, every)
+            _check_provenance(study, out, manifest, todo, provenance())
             total = sum(c.campaigns for c in every)
             done = resumed = total - sum(c.campaigns for c in todo)
             current = not todo and not new and _grid_current(out, manifest)
@@ -570,7 +597,9 @@ def run_study(
                     if progress:
                         progress(done, total)
                 with _disk(out):
-                    lowest = assemble(study, out / CHUNKS, out / GRID, every)
+                    lowest = assemble(
+                        study, out / CHUNKS, out / GRID, every, manifest.get("provenance")
+                    )
                     manifest["grid"] = {"sha256": sha256_of(out / GRID), "lowest": lowest}
                 _save(out, manifest)
     below = {k: v for k, v in lowest.items() if v < -BELOW_MINIMUM}
