@@ -42,12 +42,12 @@ def variants(ds):
 
     labels = [str(v) for v in ds["landscape"].values]
     before = ds.isel(landscape=[i for i, n in enumerate(labels) if n != LIKE])
-    plain = decision_rule(ds, landscapes={}, score_method="raw")
+    plain = decision_rule(ds, landscapes="equal", score_method="raw")
     out = [
         (
             "before: textbook, drawn, fitted; equal; raw",
             before,
-            decision_rule(before, landscapes={}, score_method="raw"),
+            decision_rule(before, landscapes="equal", score_method="raw"),
         ),
         ("+ like data; equal; raw", ds, plain),
         ("+ like data; equal; ranks", ds, replace(plain, score="ranks")),
@@ -57,7 +57,7 @@ def variants(ds):
         for score in ("raw", "ranks", "saving"):
             rule = decision_rule(ds, landscapes="resemblance", score_method=score)
             out.append((f"+ like data; resemblance; {score}", ds, rule))
-    out.append(("the study's own rule", ds, decision_rule(ds)))
+    out.append(("the study's own rule (resemblance by default; raw)", ds, decision_rule(ds)))
     return out
 
 

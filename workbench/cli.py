@@ -359,10 +359,10 @@ def _decision(args):
 
 def _landscapes(args):
     """``--landscapes``: 'resemblance', or name=value weights by landscape label or kind."""
-    from .analysis.recommendation import RESEMBLANCE, parse_weights
+    from .analysis.recommendation import EQUAL, RESEMBLANCE, parse_weights
 
     text = args.landscapes
-    if text is None or text == RESEMBLANCE:
+    if text is None or text in (RESEMBLANCE, EQUAL):
         return text
     return parse_weights(text, None, "--landscapes")
 
@@ -598,7 +598,8 @@ def build_parser() -> argparse.ArgumentParser:
             "--landscapes",
             default=None,
             help="landscape weights by label or kind (e.g. textbook=0.2,fitted-history=0.8), "
-            "or 'resemblance' (default: the study's)",
+            "'resemblance' or 'equal' (default: the study's; none set: resemblance when the "
+            "study has earlier evaluations)",
         )
         p.add_argument(
             "--score",

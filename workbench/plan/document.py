@@ -205,17 +205,21 @@ def _questions(study: Study) -> tuple[str, ...]:
 def _rule_words(study: Study) -> str:
     """The decision rule as the report words it (weights normalised; none given: equal)."""
     from ..analysis import Rule
-    from ..study.spec import RESEMBLANCE
+    from ..study.resemblance import earlier_evaluations
+    from ..study.spec import EQUAL, RESEMBLANCE
 
     d = study.decision
     names = [x.name for x in study.distortions]
     weights = dict(d.weights) or dict.fromkeys(names, 1.0)
     total = float(sum(weights.values())) or 1.0
     full = {n: float(weights.get(n, 0.0)) / total for n in names}
-    if d.landscapes == RESEMBLANCE:
+    resemblance = d.landscapes == RESEMBLANCE or (
+        not d.landscapes and earlier_evaluations(study) is not None
+    )
+    if resemblance:
         rule = Rule(d.rule, full, float(d.level), d.metric, {}, d.score)
         return f"{rule.describe()}; landscapes weighted by their resemblance to the data"
-    lw = dict(d.landscapes)
+    lw = {} if d.landscapes == EQUAL else dict(d.landscapes)
     return Rule(d.rule, full, float(d.level), d.metric, lw, d.score, "the study's").describe()
 
 

@@ -98,6 +98,7 @@ class StrategyFactors:
 # from each landscape's resemblance to the study's earlier evaluations.
 SCORES = ("raw", "ranks", "saving")
 RESEMBLANCE = "resemblance"
+EQUAL = "equal"
 
 
 @dataclass(frozen=True)
@@ -105,7 +106,8 @@ class Decision:
     """The decision rule the recommendation uses (see :mod:`workbench.analysis`).
 
     ``weights`` are over distortions; ``landscapes`` over landscapes (by label or by kind, a
-    kind's weight shared by its landscapes), or ``"resemblance"``; empty means equal weights.
+    kind's weight shared by its landscapes), ``"resemblance"`` or ``"equal"``; empty means
+    resemblance when the study has earlier evaluations, else equal.
     ``score`` standardises the metric within each landscape (``SCORES``)."""
 
     rule: str = "expected"
@@ -614,7 +616,7 @@ def _landscape_weights(table, landscapes) -> dict | str:
     """``decision.landscapes``: "resemblance", or weights by landscape label or kind."""
     given = table.get("landscapes", {})
     if isinstance(given, str):
-        return check_choice(given, "decision.landscapes", (RESEMBLANCE,))
+        return check_choice(given, "decision.landscapes", (RESEMBLANCE, EQUAL))
     given = dict(check_table(given, "decision.landscapes"))
     labels = [e.label for e in landscapes]
     kinds = list(dict.fromkeys(e.kind for e in landscapes))
