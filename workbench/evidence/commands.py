@@ -167,19 +167,29 @@ MONITOR_EVERY = 4
 
 def cmd_monitor(args) -> int:
     from .. import analysis as an
+    from ..engine.strategies import DEFAULT_QUANTILE
+    from . import cache
     from . import monitor as mo
     from .pages import CAUTIONS, monitor_lines, write_page
 
+    # Every argument is checked before the training, which is the only slow part.
     study = _study_with_space(args.study)
     ds = _study_grid(study, args.grid)
-    live = _history(study, args.observations, args.response, args.goal, min_rows=2)
+    steps = monitor_steps(study)
     setting = args.setting or an.recommend(ds).setting
+    strategy = mo.check_setting(ds, setting, "--setting", "command line")
+    live = _history(study, args.observations, args.response, args.goal, min_rows=steps[0])
     start = time.perf_counter()
-    table = mo.training_table(ds, mo.grid_beliefs(study, ds), monitor_steps(study))
-    # Learn from the campaigns of the live campaign's strategy (all its decays and quantiles).
-    strategy = setting.split(",")[0]
-    table = mo.restrict(table, [str(x).split(",")[0] == strategy for x in table.settings])
-    monitor = mo.train(table, seed=0)
+    # Learn from the campaigns of the live campaign's strategy (all its decays and quantiles);
+    # trained once per grid and strategy, then read from the cache beside the grid.
+    key = cache.MonitorKey.of(args.grid, strategy, steps, DEFAULT_QUANTILE, seed=0)
+    monitor = cache.load(args.grid, key)
+    cached = monitor is not None
+    if monitor is None:
+        table = mo.training_table(ds, mo.grid_beliefs(study, ds), steps)
+        table = mo.restrict(table, [str(x) == strategy for x in table.strategies])
+        monitor = mo.train(table, seed=0)
+        cache.save(args.grid, key, monitor)
     try:
         advice = mo.advise(monitor, ds, live.X, live.y, study.belief, setting)
     except InputError as err:
@@ -190,7 +200,7 @@ def cmd_monitor(args) -> int:
         out["validation"] = json.loads(monitor.validation.to_dataframe().to_json(orient="index"))
         print(json.dumps(out, indent=2, ensure_ascii=False))
         return 0
-    lines = monitor_lines(monitor, advice, args.observations, seconds)
+    lines = monitor_lines(monitor, advice, args.observations, seconds, cached)
     print("\n".join(lines))
     out = Path(args.out) if args.out else Path("results") / study.name / "monitor"
 

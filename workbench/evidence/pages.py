@@ -68,21 +68,23 @@ def audit_lines(a: Audit, space: Space, data: str) -> list[str]:
     return lines
 
 
-def monitor_lines(monitor, advice, data: str, seconds: float) -> list[str]:
-    """The monitor's validation and its reading of the live campaign, in plain lines."""
+def monitor_lines(monitor, advice, data: str, seconds: float, cached: bool = False) -> list[str]:
+    """The monitor's validation and its reading of the live campaign, in plain lines;
+    ``cached``: the classifiers came from the cache beside the grid, not a training."""
     v = monitor.validation
     last = int(advice.t[-1])
     i = len(advice.t) - 1
     probs = ", ".join(
         f"{d} {p:.2f}" for d, p in zip(advice.distortions, advice.probabilities[i], strict=True)
     )
+    how = "read from the cache beside the grid" if cached else "trained"
     lines = [
         f"monitor of the live campaign in {data} ({last} evaluations), setting {advice.setting}",
         f"after evaluation {last}: {probs}; advice: {advice.best_action[i]} (sure to "
         f"{advice.confidence[i]:.0%}: the probability of the distortions under which it is "
         f"the cheapest)",
         f"validation on held-out replicates of the grid ({v.attrs['campaigns']} campaigns, "
-        f"{v.attrs['replicates']} replicates, trained in {seconds:.0f} s): per t, accuracy "
+        f"{v.attrs['replicates']} replicates, {how} in {seconds:.0f} s): per t, accuracy "
         f"against the base rate and Brier score against the base rate's (lower is better):",
     ]
     for k, step in enumerate(v["step"].values):
