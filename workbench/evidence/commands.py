@@ -186,7 +186,7 @@ def cmd_monitor(args) -> int:
     monitor = cache.load(args.grid, key)
     cached = monitor is not None
     if monitor is None:
-        table = mo.training_table(ds, mo.grid_beliefs(study, ds), steps)
+        table = mo.training_table(ds, mo.grid_beliefs(study, ds, jobs=None), steps)
         table = mo.restrict(table, [str(x) == strategy for x in table.strategies])
         monitor = mo.train(table, seed=0)
         cache.save(args.grid, key, monitor)

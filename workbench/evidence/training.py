@@ -22,6 +22,7 @@ folds' held-out probabilities only, so it stays held out.
 
 from __future__ import annotations
 
+import os
 from dataclasses import dataclass, replace
 
 import numpy as np
@@ -72,15 +73,47 @@ class TrainingTable:
     quantile: float
 
 
-def grid_beliefs(study, ds: xr.Dataset) -> dict[tuple[int, int, int], Belief]:
-    """The belief every cell's campaigns used: ``{(landscape, distortion, replicate): belief}``,
-    the distorted belief of :class:`workbench.study.cells.Cell`."""
+def _replicate_beliefs(study, ds_sizes: dict, replicates) -> dict:
     return {
         (li, di, r): Cell(study, li, di, r).belief
-        for li in range(ds.sizes["landscape"])
-        for di in range(ds.sizes["distortion"])
-        for r in range(ds.sizes["replicate"])
+        for r in replicates
+        for li in range(ds_sizes["landscape"])
+        for di in range(ds_sizes["distortion"])
     }
+
+
+def grid_beliefs(study, ds: xr.Dataset, jobs: int | None = 1) -> dict[tuple[int, int, int], Belief]:
+    """The belief every cell's campaigns used: ``{(landscape, distortion, replicate): belief}``,
+    the distorted belief of :class:`workbench.study.cells.Cell`.
+
+    Most of a first monitor's time goes here: a misplaced belief needs the landscape's worst
+    point, so every drawn or fitted landscape of every replicate is built again (about 3.5 s
+    per replicate of the demo on a busy machine). ``jobs`` processes share the replicates
+    (None: one per idle core, from the load average; 1: none started). On a machine already
+    busy, processes only add their start-up: 8 replicates of the demo took 25 s in 2
+    processes against 20 s in one at a load of 7 on 2 cores.
+    """
+    sizes = {k: int(ds.sizes[k]) for k in ("landscape", "distortion", "replicate")}
+    replicates = range(sizes["replicate"])
+    if jobs is None:
+        cores = os.cpu_count() or 1
+        load = os.getloadavg()[0] if hasattr(os, "getloadavg") else 0.0
+        jobs = max(1, round(cores - load))
+    n = min(jobs, len(replicates))
+    if n <= 1:
+        return _replicate_beliefs(study, sizes, replicates)
+    import joblib
+
+    # A replicate's cells share its landscapes (built once per process), so replicates are
+    # the unit of work.
+    parts = [replicates[i::n] for i in range(n)]
+    found = joblib.Parallel(n_jobs=n)(
+        joblib.delayed(_replicate_beliefs)(study, sizes, part) for part in parts
+    )
+    out = {}
+    for part in found:
+        out |= part
+    return dict(sorted(out.items()))
 
 
 def _guided(ds: xr.Dataset, name: str) -> xr.DataArray:
@@ -185,6 +218,19 @@ def restrict(table: TrainingTable, keep) -> TrainingTable:
         strategies=table.strategies[keep],
         landscapes=table.landscapes[keep],
     )
+
+
+def _one_thread() -> threadpool_limits:
+    """One thread in every thread pool (BLAS and scikit-learn's OpenMP runtime).
+
+    threadpoolctl limits the libraries loaded when the limit is set, and scikit-learn loads
+    its OpenMP runtime on the first import of its compiled estimators; so they are imported
+    first. Without that, the boosted trees ran with every core's thread on a busy machine, and
+    a fit of 384 campaigns took 2-11 s instead of 0.2 s (measured on the demo's strategy).
+    """
+    import sklearn.ensemble  # noqa: F401  (loads the OpenMP runtime)
+
+    return threadpool_limits(limits=1)
 
 
 def _candidate(kind: str, seed: int):
@@ -330,7 +376,7 @@ class Monitor:
         (n, F) or (F,)."""
         X = np.atleast_2d(np.asarray(features, dtype=float))
         model = self.models[self.steps.index(self.model_step(t))]
-        with threadpool_limits(limits=1):
+        with _one_thread():
             return _proba(model, X, len(self.classes))
 
 
@@ -351,8 +397,8 @@ def train(
     n_classes = len(table.classes)
     models, kinds, rows = [], [], []
     # The data are small: parallel threads only contend (on a busy machine, OpenMP threads
-    # spinning made a fit 10-100 times slower).
-    with threadpool_limits(limits=1):
+    # spinning made a fit 10-100 times slower); see _one_thread.
+    with _one_thread():
         for s in range(len(table.steps)):
             X = table.features[:, s]
             kind, scores, held_out, raw_held_out = _select(X, y, groups, n_classes, seed, folds)
