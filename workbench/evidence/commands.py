@@ -41,21 +41,74 @@ def _study_grid(study, folder: str):
     return ds
 
 
+# Landscape kinds that read earlier evaluations: their spec names the response and its goal.
+_READERS = ("fitted", "likedata")
+
+
+def _study_response(study, file: str) -> tuple[str | None, str | None, str]:
+    """The response, goal and their source of the study's earlier evaluations: its landscape
+    that reads a file of the same name as ``file``, else its first that reads data, else its
+    ``[truth]``; (None, None, "") when the study names neither."""
+    readers = [e for e in study.landscapes if e.kind in _READERS]
+    same = [e for e in readers if e.spec.source.endswith(f" in {Path(file).name}")]
+    entries = same + readers + ([study.truth] if study.truth is not None else [])
+    for entry in entries:
+        response = getattr(entry.spec, "response", "") or None
+        goal = getattr(entry.spec, "goal", None)
+        if response or goal:
+            return response, goal, f"the study's landscape '{entry.label}'"
+    return None, None, ""
+
+
+def _header(file: str) -> list[str] | None:
+    """The column names of a CSV file (its first line not starting with '#'), or None when it
+    cannot be read (the table reader then says why)."""
+    import csv
+
+    try:
+        with open(file, encoding="utf-8", newline="") as fh:
+            lines = (line for line in fh if not line.lstrip().startswith("#"))
+            return [c.strip() for c in next(csv.reader(lines), [])]
+    except (OSError, UnicodeDecodeError):
+        return None
+
+
 def _history(study, file: str, response: str | None, goal: str | None, min_rows=None):
-    """Evaluations in ``file``; the response and goal default to those of the study's fitted
-    landscape (the one reading a file of the same name, if several)."""
+    """Evaluations in ``file`` and where their goal came from. The response and goal default
+    to those the study names for its earlier evaluations (:func:`_study_response`); nothing is
+    guessed: a study's response that is not a column of ``file``, a response other than the
+    study's without ``--goal``, or no goal anywhere, is refused."""
     from ..validation import check_choice
     from ..world.history import GOALS, read_history
 
-    fitted = [e.spec for e in study.landscapes if e.kind == "fitted"]
-    same = [f for f in fitted if f.source.endswith(f" in {Path(file).name}")]
-    if same or fitted:
-        spec = (same or fitted)[0]
-        response, goal = response or spec.response, goal or spec.goal
+    study_response, study_goal, source = _study_response(study, file)
+    header = _header(file)
+    if response is None and study_response is not None:
+        if header is not None and study_response not in header:
+            others = [c for c in header if c not in study.space.names] or ["none"]
+            raise InputError(
+                "--response",
+                f"given: the study's response '{study_response}' is not a column of "
+                f"{Path(file).name} (its other columns: {', '.join(others)})",
+                raw("nothing"),
+                "command line",
+            )
+        response = study_response
     if response is None:
         raise InputError("--response", "the response column's name", raw("nothing"), "command line")
-    goal = check_choice(goal or "minimise", "--goal", GOALS)
-    return read_history(file, study.space, response, goal, min_rows=min_rows)
+    if goal is not None:
+        goal, goal_source = check_choice(goal, "--goal", GOALS, where="command line"), "--goal"
+    elif study_goal is not None and response == study_response:
+        goal, goal_source = study_goal, f"goal from {source}"
+    else:
+        why = (
+            f"the study's goal is for '{study_response}', not '{response}'"
+            if study_response
+            else "the study names no goal for its earlier evaluations"
+        )
+        raise InputError("--goal", f"minimise or maximise ({why})", raw("nothing"), "command line")
+    history = read_history(file, study.space, response, goal, min_rows=min_rows)
+    return history, goal_source
 
 
 def _figure_png(draw, dim: int) -> bytes:
@@ -96,7 +149,7 @@ def cmd_audit(args) -> int:
 
     study = _study_with_space(args.study)
     ds = _study_grid(study, args.grid) if args.grid else None
-    history = _history(study, args.data, args.response, args.goal)
+    history, goal_source = _history(study, args.data, args.response, args.goal)
     top = study.quantile_levels[0] if args.top is None else args.top
     top = check_number(top, "--top", low=0.0, high=1.0, closed="right", where="command line")
     result = au.audit(
@@ -107,6 +160,7 @@ def cmd_audit(args) -> int:
         rng=generator(derive(study.seed, "audit")),
         severities=au.study_severities(study, ds),
     )
+    result = replace(result, goal_source=goal_source)
     if ds is not None and result.distortion is not None:
         rec = an.recommend(ds)
         cost = an.summarise(an.belief_cost(ds)).sel(
@@ -178,7 +232,7 @@ def cmd_monitor(args) -> int:
     steps = monitor_steps(study)
     setting = args.setting or an.recommend(ds).setting
     strategy = mo.check_setting(ds, setting, "--setting", "command line")
-    live = _history(study, args.observations, args.response, args.goal, min_rows=steps[0])
+    live, _ = _history(study, args.observations, args.response, args.goal, min_rows=steps[0])
     start = time.perf_counter()
     # Learn from the campaigns of the live campaign's strategy (all its decays and quantiles);
     # trained once per grid and strategy, then read from the cache beside the grid.
