@@ -136,3 +136,16 @@ def test_an_unknown_setting_is_refused_before_any_training(small_grid, monkeypat
     assert code == 2 and len(err.splitlines()) == 1 and "'--setting'" in err
     assert '"prior-weighted, decay hyperbolic:2"' in err and "hyperbolic:8" in err
     assert err.startswith("workbench: command line:") and not out.exists()
+
+
+def test_an_interrupted_monitor_does_not_promise_to_resume(monkeypatch, capsys):
+    import workbench.cli as cli
+
+    def interrupted(args):
+        raise KeyboardInterrupt
+
+    monkeypatch.setattr(cli, "cmd_monitor", interrupted)
+    code = cli.main(["monitor", "s.toml", "--observations", "live.csv", "--grid", "g"])
+    err = capsys.readouterr().err.strip()
+    assert code == 130 and len(err.splitlines()) == 1
+    assert "not kept" in err and "resumes" not in err
