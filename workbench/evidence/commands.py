@@ -250,7 +250,7 @@ def cmd_monitor(args) -> int:
         raise err.located(args.observations) from None
     seconds = time.perf_counter() - start
     if args.json:
-        out = advice.to_dict()
+        out = advice.to_dict() | {"from_cache": cached, "seconds": round(seconds, 2)}
         out["validation"] = json.loads(monitor.validation.to_dataframe().to_json(orient="index"))
         print(json.dumps(out, indent=2, ensure_ascii=False))
         return 0
