@@ -618,6 +618,18 @@ def build_parser() -> argparse.ArgumentParser:
     return parser
 
 
+# What an interrupted command leaves for a rerun (Ctrl-C): only the grid runs save as they go.
+_RESUMES = "the finished chunks are kept in the results folder and a rerun resumes from them"
+_KEPT = {
+    "run": _RESUMES,
+    "demo": _RESUMES,
+    "transfer": _RESUMES,
+    "monitor": "a monitor is cached beside the grid only once its training finishes; this "
+    "one is not kept and a rerun trains it again",
+}
+_NOTHING_KEPT = "nothing is kept for a rerun, which starts again from the beginning"
+
+
 def main(argv: list[str] | None = None) -> int:
     parser = build_parser()
     args = parser.parse_args(argv)
@@ -645,7 +657,7 @@ def main(argv: list[str] | None = None) -> int:
         print(f"workbench: {err}; finished chunks are kept, a rerun resumes", file=sys.stderr)
         return 1
     except KeyboardInterrupt:
-        print("workbench: interrupted; finished work is kept and a rerun resumes", file=sys.stderr)
+        print(f"workbench: interrupted; {_KEPT.get(args.command, _NOTHING_KEPT)}", file=sys.stderr)
         return 130
     except BrokenPipeError:
         # The reader (a pager, head) went away: stop quietly, as command-line tools do.

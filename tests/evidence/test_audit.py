@@ -1,7 +1,9 @@
 """The audit: an exact belief passes, a belief on the worst point fails, and its measures agree
 with their definitions."""
 
+import json
 import textwrap
+from pathlib import Path
 
 import numpy as np
 import pytest
@@ -9,7 +11,14 @@ import scipy.stats
 from scipy.stats import qmc
 
 from workbench.cli import main
-from workbench.evidence.audit import CONSISTENT_AT, audit
+from workbench.evidence.audit import (
+    CONSISTENT_AT,
+    MAX_UNSUPPORTED_SHARE,
+    TOO_LITTLE,
+    audit,
+    support,
+)
+from workbench.evidence.pages import audit_lines
 from workbench.world import landscapes as ls
 from workbench.world.beliefs import gaussian_at
 from workbench.world.history import History
@@ -99,7 +108,7 @@ def _files(tmp_path, seed=1):
 
 
 def _audit(tmp_path, study, *extra):
-    data = ["--data", str(tmp_path / "h.csv"), "--response", "f"]
+    data = ["--data", str(tmp_path / "h.csv"), "--response", "f", "--goal", "minimise"]
     return main(["audit", str(study), *data, *extra, "--out", str(tmp_path / "audit")])
 
 
@@ -126,3 +135,80 @@ def test_a_grid_of_another_study_is_refused(tmp_path, capsys):
     err = capsys.readouterr().err.strip()
     assert code == 2 and len(err.splitlines()) == 1 and "'--grid'" in err
     assert not (tmp_path / "audit").exists()
+
+
+# --------------------------------------------------------------------------- enough data?
+
+
+def test_five_rows_in_four_dimensions_are_too_little_to_judge():
+    # Common practice: a GP surrogate is trusted globally from about 10 points per dimension
+    # (the 10·d initial design; value from memory); 5 rows for 4 parameters is far below.
+    rng = np.random.default_rng(4)
+    X = rng.random((5, 4))
+    y = np.sum((X - 0.3) ** 2, axis=1)
+    history = History(X=X, y=y, response="f", goal="minimise", path="t", digest="")
+    belief = gaussian_at(np.full(4, 0.3), 0.1)
+    a = audit(history, belief, top=0.25, radius=0.1, rng=rng, draws=16, severities={"x": (0, 1)})
+    assert a.verdict == TOO_LITTLE and a.distortion is None
+    assert a.support.needs[0] == "at least 5 rows per parameter (20 for 4); got 5 for 4"
+    assert "too little data to judge: it needs at least 5 rows" in audit_lines(a, _cube(4), "t")[1]
+
+
+def test_draws_on_the_bounds_or_outside_the_data_are_counted_and_far_ones_marked():
+    X = np.array([[0.4, 0.4], [0.6, 0.6], [0.5, 0.45]])
+    draws = np.array([[0.5, 0.5], [0.0, 0.5], [0.7, 0.5], [0.95, 0.95]])
+    s = support(X, draws)
+    # On a bound: the second; outside the box [0.38, 0.62]²: all but the first.
+    assert s.on_bounds == 0.25 and s.outside_box == 0.75 and s.unsupported == 0.75
+    # Nearest evaluation: 0.05, 0.40, 0.14, 0.49 away (Euclidean).
+    assert s.far.tolist() == [False, True, False, True]
+    assert not s.enough and s.unsupported > MAX_UNSUPPORTED_SHARE
+
+
+def _cube(dim):
+    from workbench.world.space import Space
+
+    return Space.unit_cube(dim)
+
+
+@pytest.mark.slow
+def test_the_demo_bakes_keep_their_verdict_and_name_their_response(tmp_path, capsys):
+    studies = Path(__file__).parents[2] / "studies"
+    argv = ["audit", str(studies / "demo.toml"), "--data", str(studies / "bakery-history.csv")]
+    assert main([*argv, "--json"]) == 0
+    out = json.loads(capsys.readouterr().out)
+    assert list(out)[:3] == ["response", "goal", "goal_source"]
+    assert (out["response"], out["goal"]) == ("crumb_score", "maximise")
+    assert out["support"]["enough"] and out["verdict"] == "consistent"
+
+
+def test_a_response_to_maximise_is_never_silently_minimised(tmp_path, capsys):
+    study = _files(tmp_path)
+    data = tmp_path / "acc.csv"
+    # An accuracy peaking at (0.4, 0.4): 12 rows of the same design as h.csv.
+    rows = (tmp_path / "h.csv").read_text().splitlines()[1:]
+    X = np.array([[float(v) for v in r.split(",")[:2]] for r in rows])
+    acc = 1 - np.sum((X - 0.4) ** 2, axis=1)
+    body = "\n".join(f"{a:.4f},{b:.4f},{v:.5f}" for (a, b), v in zip(X, acc, strict=True))
+    data.write_text("x1,x2,accuracy\n" + body + "\n")
+    argv = ["audit", str(study), "--data", str(data), "--response", "accuracy", "--json"]
+    # The study names no goal: without --goal the audit refuses instead of minimising.
+    assert main(argv) == 2
+    err = capsys.readouterr().err.strip()
+    assert len(err.splitlines()) == 1 and "'--goal'" in err and "minimise or maximise" in err
+    assert main([*argv, "--goal", "maximise"]) == 0
+    out = json.loads(capsys.readouterr().out)
+    assert (out["response"], out["goal"], out["goal_source"]) == ("accuracy", "maximise", "--goal")
+    # Maximised, the optimum is where the accuracy peaks, not in a corner.
+    median = np.array(list(out["median_optimum"].values()), dtype=float)
+    assert np.all(np.abs(median - 0.4) < 0.15)
+
+
+def test_a_data_file_without_the_studys_response_is_refused(tmp_path, capsys):
+    studies = Path(__file__).parents[2] / "studies"
+    renamed = tmp_path / "bakes.csv"
+    renamed.write_text((studies / "bakery-history.csv").read_text().replace("crumb_score", "score"))
+    code = main(["audit", str(studies / "demo.toml"), "--data", str(renamed), "--json"])
+    err = capsys.readouterr().err.strip()
+    assert code == 2 and len(err.splitlines()) == 1
+    assert "'--response'" in err and "'crumb_score'" in err and "score" in err

@@ -172,7 +172,7 @@ def test_training_table_holds_every_guided_campaign_once(trained):
 @pytest.mark.slow
 def test_held_out_accuracy_beats_the_base_rate_from_eight_evaluations(trained):
     v = trained["monitor"].validation
-    # Observed: accuracy 0.88-0.95 against a base rate of 0.33; Brier 0.08-0.20 against 0.67.
+    # Observed: accuracy 0.88-0.95 against a base rate of 0.33; Brier 0.10-0.19 against 0.67.
     assert np.all(v["accuracy"] >= v["base_accuracy"] + 0.3)
     assert np.all(v["brier"] <= v["base_brier"] - 0.25)
 
@@ -187,7 +187,7 @@ def test_probabilities_are_calibrated_on_campaigns_with_fresh_seeds(trained):
     # Reliability (sklearn.calibration.calibration_curve): observed frequency against mean
     # predicted probability in 5 bins of equal count (~170 class-campaign pairs each).
     observed, predicted = calibration_curve(y.ravel(), p.ravel(), n_bins=5, strategy="quantile")
-    # Observed: largest gap 0.012 (accuracy on these fresh campaigns 0.81-0.89).
+    # Observed: largest gap 0.023 (accuracy on these fresh campaigns 0.83-0.92).
     assert np.max(np.abs(observed - predicted)) < 0.1
 
 

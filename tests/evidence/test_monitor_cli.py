@@ -51,7 +51,7 @@ def _monitor(root, out, observations: str, grid: str = "g1", study: str = "s1.to
     path = out.parent / "live.csv"
     path.write_text(observations)
     argv = ["monitor", str(root / study), "--observations", str(path), "--grid", str(root / grid)]
-    return main([*argv, "--response", "y", "--out", str(out)]), out
+    return main([*argv, "--response", "y", "--goal", "minimise", "--out", str(out)]), out
 
 
 @pytest.mark.slow
@@ -70,7 +70,7 @@ def test_monitor_prints_its_validation_with_the_advice_and_writes_its_pages(grid
     [
         (GOOD.replace("x1,x2,y", "x1,x3,y"), "column"),
         (GOOD.replace("6,4,2.5", "16,4,2.5"), "row 3, column 'x1'"),
-        ("x1,x2,y\n5,5,3.1\n", "at least 2 rows"),
+        ("x1,x2,y\n5,5,3.1\n", "at least 4 rows"),
     ],
 )
 def test_a_bad_observations_file_is_one_line_and_writes_nothing(

@@ -23,7 +23,12 @@ distortions' severity read.
 
 The verdict: ``consistent`` when the data put the optimum inside the belief's 90 % region with
 probability at least ``CONSISTENT_AT``, ``contradicted`` below ``CONTRADICTED_BELOW``,
-``doubtful`` between.
+``doubtful`` between; but first, whether the data can support a verdict at all
+(:func:`support`): at least ``MIN_ROWS_PER_PARAMETER`` rows per parameter, and at most
+``MAX_UNSUPPORTED_SHARE`` of the optimum draws on the bounds of the space or outside the data's
+bounding box (there the GP extrapolates: its optimum is the prior's, not the data's). Otherwise
+the verdict is ``too little data to judge``, with what would be needed, and no distortion is
+matched. Draws farther than ``FAR_FROM_DATA`` from every evaluation are marked.
 """
 
 from __future__ import annotations
@@ -37,12 +42,20 @@ from ..world.history import History
 from ..world.reference import Belief, BeliefReference
 
 __all__ = [
+    "BOUND_TOLERANCE",
+    "BOX_MARGIN",
     "CONSISTENT_AT",
     "CONTRADICTED_BELOW",
+    "FAR_FROM_DATA",
+    "MAX_UNSUPPORTED_SHARE",
+    "MIN_ROWS_PER_PARAMETER",
+    "TOO_LITTLE",
     "Audit",
+    "Support",
     "audit",
     "nearest_distortion",
     "study_severities",
+    "support",
     "to_dict",
 ]
 
@@ -51,6 +64,74 @@ CONTRADICTED_BELOW = 0.1
 # Posterior draws of the data's GP whose argmins say where the optimum is.
 DRAWS = 64
 
+# When the data can support a verdict (cube units: fractions of each parameter's range).
+# Common practice: a GP surrogate wants about 10 points per dimension to be trusted globally
+# (an initial design of 10·d); 5 per parameter is the least we judge a belief on.
+MIN_ROWS_PER_PARAMETER = 5
+# A draw's coordinate this close to 0 or 1 sits on the bounds of the space.
+BOUND_TOLERANCE = 0.01
+# A draw's coordinate beyond the data's range by more than this is outside their bounding box.
+BOX_MARGIN = 0.02
+# Largest share of optimum draws on the bounds or outside the data's box for a verdict.
+MAX_UNSUPPORTED_SHARE = 0.25
+# A draw farther than this (Euclidean) from every evaluation is marked as far outside the data.
+FAR_FROM_DATA = 0.2
+TOO_LITTLE = "too little data to judge"
+
+
+@dataclass(frozen=True)
+class Support:
+    """Whether the data can support a verdict: ``rows`` and ``dim``; the shares of optimum
+    draws ``on_bounds`` (a coordinate within ``BOUND_TOLERANCE`` of a bound), ``outside_box``
+    (beyond the data's range by more than ``BOX_MARGIN``) and ``unsupported`` (either);
+    ``far`` (draws,) marks draws farther than ``FAR_FROM_DATA`` from every evaluation;
+    ``needs`` says what is missing (empty: enough)."""
+
+    rows: int
+    dim: int
+    on_bounds: float
+    outside_box: float
+    unsupported: float
+    far: np.ndarray = field(repr=False)
+    needs: tuple[str, ...]
+
+    @property
+    def enough(self) -> bool:
+        return not self.needs
+
+
+def support(X: np.ndarray, argmins: np.ndarray) -> Support:
+    """How far the data ``X`` (n, d) support the optimum draws ``argmins`` (draws, d), cube
+    points (see :class:`Support`)."""
+    X, argmins = np.atleast_2d(X), np.atleast_2d(argmins)
+    n, d = X.shape
+    bounds = np.any((argmins <= BOUND_TOLERANCE) | (argmins >= 1 - BOUND_TOLERANCE), axis=1)
+    low, high = X.min(axis=0) - BOX_MARGIN, X.max(axis=0) + BOX_MARGIN
+    box = np.any((argmins < low) | (argmins > high), axis=1)
+    nearest = np.min(np.linalg.norm(argmins[:, None, :] - X[None, :, :], axis=-1), axis=1)
+    unsupported = float(np.mean(bounds | box))
+    needs = []
+    if n < MIN_ROWS_PER_PARAMETER * d:
+        needs.append(
+            f"at least {MIN_ROWS_PER_PARAMETER} rows per parameter "
+            f"({MIN_ROWS_PER_PARAMETER * d} for {d}); got {n} for {d}"
+        )
+    if unsupported > MAX_UNSUPPORTED_SHARE:
+        needs.append(
+            f"at most {MAX_UNSUPPORTED_SHARE:.0%} of the optimum draws on the bounds of the "
+            f"space or outside the data's bounding box; got {unsupported:.0%} (evaluations "
+            f"nearer to where the draws go would settle it)"
+        )
+    return Support(
+        rows=n,
+        dim=d,
+        on_bounds=float(np.mean(bounds)),
+        outside_box=float(np.mean(box)),
+        unsupported=unsupported,
+        far=nearest > FAR_FROM_DATA,
+        needs=tuple(needs),
+    )
+
 
 @dataclass(frozen=True)
 class Audit:
@@ -58,6 +139,7 @@ class Audit:
 
     rows: int
     top: float
+    support: Support
     good: np.ndarray = field(repr=False)  # (k, d) cube points of the best share
     good_levels: np.ndarray = field(repr=False)  # (k,)
     argmins: np.ndarray = field(repr=False)  # (draws, d)
@@ -74,6 +156,9 @@ class Audit:
     distortion_distances: dict[str, tuple[float, float]] = field(default_factory=dict)
     cost: tuple[float, float, float] | None = None  # belief cost of the recommended setting
     setting: str | None = None
+    response: str = ""
+    goal: str = "minimise"
+    goal_source: str = ""
 
     @property
     def good_median_level(self) -> float:
@@ -129,9 +214,11 @@ def audit(
     distance = float(np.linalg.norm(mode - median))
     mass = ref.mass_within(median, radius)
     severities = severities or {}
+    enough = support(history.X, argmins)
     return Audit(
         rows=history.rows,
         top=top,
+        support=enough,
         good=good,
         good_levels=good_levels,
         argmins=argmins,
@@ -143,9 +230,12 @@ def audit(
         radius=radius,
         inside_50=inside_50,
         inside_90=inside_90,
-        verdict=_verdict(inside_90),
-        distortion=nearest_distortion(distance, mass, severities),
+        verdict=_verdict(inside_90) if enough.enough else TOO_LITTLE,
+        # The median optimum of draws the data do not support matches no distortion.
+        distortion=nearest_distortion(distance, mass, severities) if enough.enough else None,
         distortion_distances=dict(severities),
+        response=history.response,
+        goal=history.goal,
     )
 
 
@@ -178,9 +268,29 @@ def study_severities(study, ds=None, replicates: int = 4) -> dict[str, tuple[flo
 
 def to_dict(a: Audit, space) -> dict:
     """The audit as plain JSON-ready values (points in user units)."""
+    s = a.support
     return {
+        "response": a.response,
+        "goal": a.goal,
+        "goal_source": a.goal_source,
         "verdict": a.verdict,
-        "thresholds": {"consistent_at": CONSISTENT_AT, "contradicted_below": CONTRADICTED_BELOW},
+        "thresholds": {
+            "consistent_at": CONSISTENT_AT,
+            "contradicted_below": CONTRADICTED_BELOW,
+            "min_rows_per_parameter": MIN_ROWS_PER_PARAMETER,
+            "max_unsupported_share": MAX_UNSUPPORTED_SHARE,
+            "bound_tolerance": BOUND_TOLERANCE,
+            "box_margin": BOX_MARGIN,
+            "far_from_data": FAR_FROM_DATA,
+        },
+        "support": {
+            "enough": s.enough,
+            "needs": list(s.needs),
+            "rows_per_parameter": s.rows / s.dim,
+            "draws_on_bounds": s.on_bounds,
+            "draws_outside_data_box": s.outside_box,
+            "draws_far_from_data": float(np.mean(s.far)),
+        },
         "rows": a.rows,
         "top": a.top,
         "good_levels": [float(v) for v in a.good_levels],
@@ -189,6 +299,10 @@ def to_dict(a: Audit, space) -> dict:
         "inside_50": a.inside_50,
         "inside_90": a.inside_90,
         "median_optimum": space.format_point(a.median_argmin),
+        "optimum_draws": [
+            {"point": space.format_point(u), "far_from_data": bool(f)}
+            for u, f in zip(a.argmins, s.far, strict=True)
+        ],
         "belief_mode": space.format_point(a.mode),
         "distance": a.distance,
         "mass_within": a.mass_within,

@@ -42,21 +42,74 @@ def _study_grid(study, folder: str):
     return ds
 
 
+# Landscape kinds that read earlier evaluations: their spec names the response and its goal.
+_READERS = ("fitted", "likedata")
+
+
+def _study_response(study, file: str) -> tuple[str | None, str | None, str]:
+    """The response, goal and their source of the study's earlier evaluations: its landscape
+    that reads a file of the same name as ``file``, else its first that reads data, else its
+    ``[truth]``; (None, None, "") when the study names neither."""
+    readers = [e for e in study.landscapes if e.kind in _READERS]
+    same = [e for e in readers if e.spec.source.endswith(f" in {Path(file).name}")]
+    entries = same + readers + ([study.truth] if study.truth is not None else [])
+    for entry in entries:
+        response = getattr(entry.spec, "response", "") or None
+        goal = getattr(entry.spec, "goal", None)
+        if response or goal:
+            return response, goal, f"the study's landscape '{entry.label}'"
+    return None, None, ""
+
+
+def _header(file: str) -> list[str] | None:
+    """The column names of a CSV file (its first line not starting with '#'), or None when it
+    cannot be read (the table reader then says why)."""
+    import csv
+
+    try:
+        with open(file, encoding="utf-8", newline="") as fh:
+            lines = (line for line in fh if not line.lstrip().startswith("#"))
+            return [c.strip() for c in next(csv.reader(lines), [])]
+    except (OSError, UnicodeDecodeError):
+        return None
+
+
 def _history(study, file: str, response: str | None, goal: str | None, min_rows=None):
-    """Evaluations in ``file``; the response and goal default to those of the study's fitted
-    landscape (the one reading a file of the same name, if several)."""
+    """Evaluations in ``file`` and where their goal came from. The response and goal default
+    to those the study names for its earlier evaluations (:func:`_study_response`); nothing is
+    guessed: a study's response that is not a column of ``file``, a response other than the
+    study's without ``--goal``, or no goal anywhere, is refused."""
     from ..validation import check_choice
     from ..world.history import GOALS, read_history
 
-    fitted = [e.spec for e in study.landscapes if e.kind == "fitted"]
-    same = [f for f in fitted if f.source.endswith(f" in {Path(file).name}")]
-    if same or fitted:
-        spec = (same or fitted)[0]
-        response, goal = response or spec.response, goal or spec.goal
+    study_response, study_goal, source = _study_response(study, file)
+    header = _header(file)
+    if response is None and study_response is not None:
+        if header is not None and study_response not in header:
+            others = [c for c in header if c not in study.space.names] or ["none"]
+            raise InputError(
+                "--response",
+                f"given: the study's response '{study_response}' is not a column of "
+                f"{Path(file).name} (its other columns: {', '.join(others)})",
+                raw("nothing"),
+                "command line",
+            )
+        response = study_response
     if response is None:
         raise InputError("--response", "the response column's name", raw("nothing"), "command line")
-    goal = check_choice(goal or "minimise", "--goal", GOALS)
-    return read_history(file, study.space, response, goal, min_rows=min_rows)
+    if goal is not None:
+        goal, goal_source = check_choice(goal, "--goal", GOALS, where="command line"), "--goal"
+    elif study_goal is not None and response == study_response:
+        goal, goal_source = study_goal, f"goal from {source}"
+    else:
+        why = (
+            f"the study's goal is for '{study_response}', not '{response}'"
+            if study_response
+            else "the study names no goal for its earlier evaluations"
+        )
+        raise InputError("--goal", f"minimise or maximise ({why})", raw("nothing"), "command line")
+    history = read_history(file, study.space, response, goal, min_rows=min_rows)
+    return history, goal_source
 
 
 def _figure_png(draw, dim: int) -> bytes:
@@ -97,7 +150,7 @@ def cmd_audit(args) -> int:
 
     study = _study_with_space(args.study)
     ds = _study_grid(study, args.grid) if args.grid else None
-    history = _history(study, args.data, args.response, args.goal)
+    history, goal_source = _history(study, args.data, args.response, args.goal)
     top = study.quantile_levels[0] if args.top is None else args.top
     top = check_number(top, "--top", low=0.0, high=1.0, closed="right", where="command line")
     result = au.audit(
@@ -108,6 +161,7 @@ def cmd_audit(args) -> int:
         rng=generator(derive(study.seed, "audit")),
         severities=au.study_severities(study, ds),
     )
+    result = replace(result, goal_source=goal_source)
     if ds is not None and result.distortion is not None:
         rec = an.recommend(ds)
         cost = an.summarise(an.belief_cost(ds)).sel(
@@ -168,12 +222,18 @@ MONITOR_EVERY = 4
 
 def cmd_monitor(args) -> int:
     from .. import analysis as an
+    from ..engine.strategies import DEFAULT_QUANTILE
+    from . import cache
     from . import monitor as mo
     from .pages import CAUTIONS, monitor_lines, write_page
 
+    # Every argument is checked before the training, which is the only slow part.
     study = _study_with_space(args.study)
     ds = _study_grid(study, args.grid)
-    live = _history(study, args.observations, args.response, args.goal, min_rows=2)
+    steps = monitor_steps(study)
+    setting = args.setting or an.recommend(ds).setting
+    strategy = mo.check_setting(ds, setting, "--setting", "command line")
+    live, _ = _history(study, args.observations, args.response, args.goal, min_rows=steps[0])
     if live.rows > study.budget:
         # The grid holds no campaign past its budget: there is nothing to read it against.
         raise InputError(
@@ -182,24 +242,28 @@ def cmd_monitor(args) -> int:
             raw(f"{live.rows} rows"),
             args.observations,
         )
-    setting = args.setting or an.recommend(ds).setting
     start = time.perf_counter()
-    table = mo.training_table(ds, mo.grid_beliefs(study, ds), monitor_steps(study))
-    # Learn from the campaigns of the live campaign's strategy (all its decays and quantiles).
-    strategy = setting.split(",")[0]
-    table = mo.restrict(table, [str(x).split(",")[0] == strategy for x in table.settings])
-    monitor = mo.train(table, seed=0)
+    # Learn from the campaigns of the live campaign's strategy (all its decays and quantiles);
+    # trained once per grid and strategy, then read from the cache beside the grid.
+    key = cache.MonitorKey.of(args.grid, strategy, steps, DEFAULT_QUANTILE, seed=0)
+    monitor = cache.load(args.grid, key)
+    cached = monitor is not None
+    if monitor is None:
+        table = mo.training_table(ds, mo.grid_beliefs(study, ds, jobs=None), steps)
+        table = mo.restrict(table, [str(x) == strategy for x in table.strategies])
+        monitor = mo.train(table, seed=0)
+        cache.save(args.grid, key, monitor)
     try:
         advice = mo.advise(monitor, ds, live.X, live.y, study.belief, setting)
     except InputError as err:
         raise err.located(args.observations) from None
     seconds = time.perf_counter() - start
     if args.json:
-        out = advice.to_dict()
+        out = advice.to_dict() | {"from_cache": cached, "seconds": round(seconds, 2)}
         out["validation"] = json.loads(monitor.validation.to_dataframe().to_json(orient="index"))
         print(json.dumps(out, indent=2, ensure_ascii=False))
         return 0
-    lines = monitor_lines(monitor, advice, args.observations, seconds)
+    lines = monitor_lines(monitor, advice, args.observations, seconds, cached)
     print("\n".join(lines))
     out = Path(args.out) if args.out else Path("results") / study.name / "monitor"
 

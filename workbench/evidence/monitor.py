@@ -19,7 +19,7 @@ from typing import Any
 import numpy as np
 import xarray as xr
 
-from ..analysis import campaign_metric
+from ..analysis import campaign_metric, series
 from ..engine.strategies import reference
 from ..study.decay import parse
 from ..validation import InputError, check_choice, raw
@@ -35,6 +35,7 @@ __all__ = [
     "TrainingTable",
     "advise",
     "campaign_features",
+    "check_setting",
     "grid_beliefs",
     "restrict",
     "train",
@@ -108,6 +109,28 @@ class Advice:
                 for i in range(len(self.t))
             ],
         }
+
+
+def check_setting(
+    ds: xr.Dataset, setting: str, key: str = "setting", where: str | None = None
+) -> str:
+    """The strategy of ``setting``, once it is known to be a belief-guided setting of the grid
+    ``ds`` (a label of the analysis ``setting`` axis) and the grid has the no-belief baseline
+    that the monitor's "drop the belief" action needs; else one :class:`InputError` that lists
+    the valid labels. Cheap: call it before any training."""
+    labels = series(ds, "normalized_regret")
+    guided = labels["kind"].values == "guided"
+    strategies = dict(
+        zip(labels["setting"].values[guided], labels["strategy"].values[guided], strict=True)
+    )
+    if setting not in strategies:
+        valid = "; ".join(f'"{s}"' for s in strategies)
+        raise InputError(key, f"one of the grid's belief-guided settings ({valid})", setting, where)
+    if NO_BELIEF not in labels["setting"].values:
+        raise InputError(
+            "baselines", f"a grid with the {NO_BELIEF!r} baseline", raw("a grid without it"), where
+        )
+    return str(strategies[setting])
 
 
 def _actions(costs: xr.DataArray, setting: str) -> list[tuple[str, str, Any]]:

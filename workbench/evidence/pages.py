@@ -13,7 +13,7 @@ from ..report.markup import md_text
 from ..storage import write_text
 from ..world.history import MAX_FIT_ROWS
 from ..world.space import Space
-from .audit import CONSISTENT_AT, CONTRADICTED_BELOW, Audit
+from .audit import CONSISTENT_AT, CONTRADICTED_BELOW, FAR_FROM_DATA, Audit
 
 __all__ = ["CAUTIONS", "audit_lines", "monitor_lines", "write_page"]
 
@@ -39,18 +39,34 @@ def _point(space: Space, u: np.ndarray) -> str:
 
 def audit_lines(a: Audit, space: Space, data: str) -> list[str]:
     """The audit in plain lines (the terminal prints them; the pages reuse them)."""
+    s = a.support
+    direction = "maximised" if a.goal == "maximise" else "minimised"
+    source = f" ({a.goal_source})" if a.goal_source else ""
+    if s.enough:
+        verdict = (
+            f"verdict: {a.verdict} (consistent when the data put the optimum inside the "
+            f"belief's 90 % region with probability ≥ {CONSISTENT_AT:g}; contradicted below "
+            f"{CONTRADICTED_BELOW:g}; doubtful between)"
+        )
+    else:
+        verdict = f"verdict: {a.verdict}: it needs {'; and '.join(s.needs)}"
+    far = int(np.sum(s.far))
     lines = [
-        f"audit of the belief against {a.rows} earlier evaluations in {data}",
-        f"verdict: {a.verdict} (consistent when the data put the optimum inside the belief's "
-        f"90 % region with probability ≥ {CONSISTENT_AT:g}; contradicted below "
-        f"{CONTRADICTED_BELOW:g}; doubtful between)",
+        f"audit of the belief against {a.rows} earlier evaluations in {data}: response "
+        f"'{a.response}', {direction}{source}",
+        verdict,
         f"good evaluations (best {_pct(a.top)}, {len(a.good_levels)} points): median "
         f"highest-density level {a.good_median_level:.2f} (an exact belief gives 0.5), "
         f"{_pct(a.good_outside_90)} outside the 90 % region (an exact belief gives 10 %)",
         f"where the data put the optimum ({len(a.argmin_levels)} posterior draws): inside the "
         f"50 % region with probability {a.inside_50:.2f}, inside the 90 % region with "
         f"probability {a.inside_90:.2f}",
-        f"median optimum: {_point(space, a.median_argmin)}; belief's mode: {_point(space, a.mode)}",
+        f"support of those draws: {_pct(s.on_bounds)} on the bounds of the space, "
+        f"{_pct(s.outside_box)} outside the data's bounding box, {far} of "
+        f"{len(s.far)} far outside the data (farther than {FAR_FROM_DATA:g} of the range from "
+        f"every evaluation: there the model extrapolates)",
+        f"median optimum{'' if s.enough else ' (not supported by the data)'}: "
+        f"{_point(space, a.median_argmin)}; belief's mode: {_point(space, a.mode)}",
         f"distance from the belief's mode to it: {a.distance:.2f} of the range; belief mass "
         f"within {a.radius:g} of it: {_pct(a.mass_within)}",
     ]
@@ -75,21 +91,23 @@ def audit_lines(a: Audit, space: Space, data: str) -> list[str]:
     return lines
 
 
-def monitor_lines(monitor, advice, data: str, seconds: float) -> list[str]:
-    """The monitor's validation and its reading of the live campaign, in plain lines."""
+def monitor_lines(monitor, advice, data: str, seconds: float, cached: bool = False) -> list[str]:
+    """The monitor's validation and its reading of the live campaign, in plain lines;
+    ``cached``: the classifiers came from the cache beside the grid, not a training."""
     v = monitor.validation
     last = int(advice.t[-1])
     i = len(advice.t) - 1
     probs = ", ".join(
         f"{d} {p:.2f}" for d, p in zip(advice.distortions, advice.probabilities[i], strict=True)
     )
+    how = "read from the cache beside the grid" if cached else "trained"
     lines = [
         f"monitor of the live campaign in {data} ({last} evaluations), setting {advice.setting}",
         f"after evaluation {last}: {probs}; advice: {advice.best_action[i]} (sure to "
         f"{advice.confidence[i]:.0%}: the probability of the distortions under which it is "
         f"the cheapest)",
         f"validation on held-out replicates of the grid ({v.attrs['campaigns']} campaigns, "
-        f"{v.attrs['replicates']} replicates, trained in {seconds:.0f} s): per t, accuracy "
+        f"{v.attrs['replicates']} replicates, {how} in {seconds:.0f} s): per t, accuracy "
         f"against the base rate and Brier score against the base rate's (lower is better):",
     ]
     for k, step in enumerate(v["step"].values):

@@ -1,0 +1,175 @@
+"""The monitor keeps up with a live campaign: it trains once per grid and strategy, keeps the
+classifiers beside the grid, answers the next evaluation from them, and checks its arguments
+before any training."""
+
+import json
+import textwrap
+
+import numpy as np
+import pytest
+
+from workbench.analysis import open_grid
+from workbench.cli import main
+from workbench.evidence import cache
+from workbench.evidence import monitor as mo
+from workbench.evidence.commands import monitor_steps
+from workbench.study.spec import load
+from workbench.world.history import read_history
+
+STUDY = """
+title = "monitor cache"
+budget = 9
+replicates = 4
+seed = 5
+baselines = ["no-belief"]
+[initial]
+size = 3
+[space.x1]
+lower = 0
+upper = 10
+[space.x2]
+lower = 0
+upper = 10
+[belief.x1]
+centre = 5
+spread = 0.15
+[belief.x2]
+centre = 5
+spread = 0.15
+[[landscape]]
+name = "branin"
+[distortion]
+misplaced = { misplace = "worst" }
+[strategy.prior-weighted]
+decay = ["hyperbolic:2", "hyperbolic:8"]
+"""
+ROWS = ["5,5,3.1", "4,6,2.0", "6,4,2.5", "5.5,5.2,1.1", "4.8,5.1,0.9", "5.1,4.7,0.7"]
+SETTING = "prior-weighted, decay hyperbolic:2"
+
+
+@pytest.fixture(scope="session")
+def small_grid(tmp_path_factory):
+    """A 4-replicate grid of one landscape, two distortions and two decays."""
+    root = tmp_path_factory.mktemp("monitor-cache")
+    (root / "s.toml").write_text(textwrap.dedent(STUDY))
+    argv = ["run", str(root / "s.toml"), "--out", str(root / "g"), "--quiet", "--jobs", "1"]
+    assert main(argv) == 0
+    return root
+
+
+class _Counted:
+    """Counts the calls of a function and passes them on (or refuses them)."""
+
+    def __init__(self, func=None):
+        self.func, self.calls = func, 0
+
+    def __call__(self, *args, **kwargs):
+        self.calls += 1
+        if self.func is None:
+            raise AssertionError("no training expected")
+        return self.func(*args, **kwargs)
+
+
+def _live(root, rows: int):
+    path = root / f"live{rows}.csv"
+    path.write_text("x1,x2,y\n" + "\n".join(ROWS[:rows]) + "\n")
+    return path
+
+
+def _monitor(root, live, *extra):
+    argv = ["monitor", str(root / "s.toml"), "--observations", str(live), "--grid"]
+    argv += [str(root / "g"), "--response", "y", "--goal", "minimise", "--json", *extra]
+    return main([*argv, "--setting", SETTING])
+
+
+def test_the_next_evaluation_is_read_from_the_cache_with_a_fresh_trainings_probabilities(
+    small_grid, monkeypatch, capsys
+):
+    folder = small_grid / "g" / cache.CACHE_FOLDER
+    for old in folder.glob("*.joblib") if folder.exists() else ():
+        old.unlink()
+    original = mo.train
+    train = _Counted(original)
+    monkeypatch.setattr(mo, "train", train)
+    assert _monitor(small_grid, _live(small_grid, 5)) == 0
+    first = json.loads(capsys.readouterr().out)
+    assert train.calls == 1 and len(list(folder.glob("*.joblib"))) == 1
+    # One more evaluation: no training at all, the classifiers come from the cache.
+    monkeypatch.setattr(mo, "train", _Counted())
+    assert _monitor(small_grid, _live(small_grid, 6)) == 0
+    second = json.loads(capsys.readouterr().out)
+    assert [s["t"] for s in second["steps"]] == [4, 5, 6]
+    assert second["steps"][:2] == first["steps"]
+    # The same probabilities as a monitor trained afresh on the same campaigns.
+    study, ds = load(small_grid / "s.toml"), open_grid(small_grid / "g")
+    table = mo.training_table(ds, mo.grid_beliefs(study, ds), monitor_steps(study))
+    fresh = original(mo.restrict(table, table.strategies == "prior-weighted"), seed=0)
+    live = read_history(_live(small_grid, 6), study.space, "y", min_rows=2)
+    advice = mo.advise(fresh, ds, live.X, live.y, study.belief, SETTING)
+    cached = [[s["probabilities"][d] for d in second["distortions"]] for s in second["steps"]]
+    np.testing.assert_allclose(cached, advice.probabilities, rtol=0, atol=1e-12)
+
+
+def test_a_changed_grid_or_a_damaged_file_is_not_read(small_grid, tmp_path):
+    study = load(small_grid / "s.toml")
+    key = cache.MonitorKey.of(small_grid / "g", "prior-weighted", monitor_steps(study), 0.25, 0)
+    assert len(key.grid_sha256) == 64
+    other = cache.MonitorKey("0" * 64, key.strategy, key.steps, key.quantile, key.seed)
+    assert other.name != key.name and cache.load(small_grid / "g", other) is None
+    (tmp_path / "grid.nc").write_bytes(b"not a grid")
+    damaged = cache.MonitorKey.of(tmp_path, "prior-weighted", (4,), 0.25, 0)
+    path = tmp_path / cache.CACHE_FOLDER / damaged.name
+    path.parent.mkdir()
+    path.write_bytes(b"\x80 damaged")
+    assert cache.load(tmp_path, damaged) is None
+
+
+def test_an_unknown_setting_is_refused_before_any_training(small_grid, monkeypatch, capsys):
+    monkeypatch.setattr(mo, "train", _Counted())
+    monkeypatch.setattr(mo, "grid_beliefs", _Counted())
+    live = _live(small_grid, 5)
+    argv = ["monitor", str(small_grid / "s.toml"), "--observations", str(live), "--grid"]
+    argv += [str(small_grid / "g"), "--response", "y", "--goal", "minimise"]
+    out = small_grid / "refused"
+    code = main([*argv, "--setting", "prior-weighted, decay hyperbolic:5", "--out", str(out)])
+    err = capsys.readouterr().err.strip()
+    assert code == 2 and len(err.splitlines()) == 1 and "'--setting'" in err
+    assert '"prior-weighted, decay hyperbolic:2"' in err and "hyperbolic:8" in err
+    assert err.startswith("workbench: command line:") and not out.exists()
+
+
+def test_an_interrupted_monitor_does_not_promise_to_resume(monkeypatch, capsys):
+    import workbench.cli as cli
+
+    def interrupted(args):
+        raise KeyboardInterrupt
+
+    monkeypatch.setattr(cli, "cmd_monitor", interrupted)
+    code = cli.main(["monitor", "s.toml", "--observations", "live.csv", "--grid", "g"])
+    err = capsys.readouterr().err.strip()
+    assert code == 130 and len(err.splitlines()) == 1
+    assert "not kept" in err and "resumes" not in err
+
+
+def test_a_cache_file_not_signed_by_this_user_is_never_unpickled(tmp_path, monkeypatch):
+    # A crafted pickle in someone's results folder must not run code: its signature (HMAC
+    # under the user's private key) does not verify, so it is not loaded at all.
+    import pickle
+
+    monkeypatch.setenv("XDG_CACHE_HOME", str(tmp_path / "home-cache"))
+    marker = tmp_path / "ran"
+
+    class Payload:
+        def __reduce__(self):
+            return (marker.write_text, ("code ran",))
+
+    (tmp_path / "grid.nc").write_bytes(b"a grid")
+    key = cache.MonitorKey.of(tmp_path, "prior-weighted", (4,), 0.25, 0)
+    path = tmp_path / cache.CACHE_FOLDER / key.name
+    path.parent.mkdir()
+    path.write_bytes(b"\0" * 32 + pickle.dumps(Payload()))
+    assert cache.load(tmp_path, key) is None
+    assert not marker.exists()
+    # The user's own file round-trips.
+    assert cache.save(tmp_path, key, None) is not None
+    assert cache.load(tmp_path, key) is None  # not a Monitor: refused after verifying
