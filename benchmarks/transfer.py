@@ -67,7 +67,7 @@ def _measure(m, digits: int = 2) -> str:
 
 def table(name: str, out: Path, draws: int) -> list[str]:
     from workbench.analysis import Resampling, open_grid
-    from workbench.analysis.transfer_check import TRUTH_FOLDER, transfer_from_grids
+    from workbench.analysis.transfer_check import TRUTH_FOLDER, difficulty, transfer_from_grids
 
     ds, truth = open_grid(out), open_grid(out / TRUTH_FOLDER)
     rs = Resampling(draws=draws)
@@ -88,9 +88,8 @@ def table(name: str, out: Path, draws: int) -> list[str]:
             f"| {r.landscape} alone | {r.pick} | {r.real_rank.estimate:.0f} of "
             f"{len(full.settings)} | {_measure(r.gap)} | {_measure(r.spearman)} |"
         )
-    difficulty = ", ".join(
-        f"{label} {value:.1f}" for label, value in [*_difficulty(ds), *_difficulty(truth)]
-    )
+    hard = difficulty(ds) | difficulty(truth)
+    hardness = ", ".join(f"{label} {value:.1f}" for label, value in hard.items())
     head = [
         f"**{name}** (split-half Spearman of the real order "
         f"{full.split_half.estimate:.2f}; best setting on the table: {full.best_real})",
@@ -101,22 +100,9 @@ def table(name: str, out: Path, draws: int) -> list[str]:
     tail = [
         "",
         f"Difficulty (no-belief's mean evaluations to target, of a budget of "
-        f"{int(ds.attrs['budget'])}): {difficulty}.",
+        f"{int(ds.attrs['budget'])}): {hardness}.",
     ]
     return [*head, *rows, *tail, ""]
-
-
-def _difficulty(ds) -> list[tuple[str, float]]:
-    """No-belief's mean evaluations to target per landscape (exact distortion): how hard each
-    landscape is, beside the truth's."""
-    from workbench.analysis import campaign_metric
-    from workbench.engine.strategies import reference
-
-    ett = campaign_metric(ds, "evaluations_to_target").sel(setting=reference())
-    means = ett.sel(distortion="exact").mean("replicate")
-    return [
-        (str(k), float(v)) for k, v in zip(means["landscape"].values, means.values, strict=True)
-    ]
 
 
 def main(argv: list[str] | None = None) -> int:

@@ -33,14 +33,17 @@ import numpy as np
 import xarray as xr
 from scipy.stats import rankdata
 
+from ..engine.strategies import reference
 from ..seeding import generator
 from ..validation import InputError, raw
+from .grid_metrics import campaign_metric
 from .recommendation import Rule, decision_rule, decision_values, setting_scores
 from .statistics import Resampling
 
 __all__ = [
     "TransferCheck",
     "check_transfer",
+    "difficulty",
     "kendall_tau",
     "spearman",
     "transfer_from_grids",
@@ -340,3 +343,14 @@ def transfer_from_grids(
         lambda v: setting_scores(v, real_rule),
         resampling,
     )
+
+
+def difficulty(ds: xr.Dataset) -> dict[str, float]:
+    """How hard each landscape of a grid is: no-belief's mean evaluations to target with the
+    exact belief (NaN-free landscapes only), to set beside the truth's."""
+    ett = campaign_metric(ds, "evaluations_to_target")
+    base = reference()
+    if base not in [str(s) for s in ett["setting"].values]:
+        return {}
+    means = ett.sel(setting=base, distortion="exact").mean("replicate")
+    return {str(k): float(v) for k, v in zip(means["landscape"].values, means.values, strict=True)}

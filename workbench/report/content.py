@@ -110,6 +110,7 @@ class Content:
     effects: xr.Dataset
     transfer: xr.Dataset | None = None
     truth: TransferCheck | None = None
+    truth_grid: xr.Dataset | None = None
     resemblance: xr.Dataset | None = None
 
 
@@ -183,5 +184,6 @@ def compute_content(
         effects=an.effects(ds, rule.metric, rs),
         transfer=an.transfer(ds, rule, rs) if len(set(an.landscape_kinds(ds))) > 1 else None,
         truth=transfer_from_grids(ds, truth, rule, rs) if truth is not None else None,
+        truth_grid=truth,
         resemblance=resemblance_of(ds),
     )

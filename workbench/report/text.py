@@ -8,6 +8,7 @@ import numpy as np
 import xarray as xr
 
 from .. import analysis as an
+from ..analysis.transfer_check import difficulty
 from ..engine.strategies import STRATEGIES, description
 from ..world.resemblance import MEASURES
 from .content import (
@@ -473,4 +474,12 @@ def truth_rows(c: Content) -> tuple[list, list, str]:
         "the simulated order does not reliably match the real one; weigh the landscapes that "
         "rank like the truth (below) more, or add ones that resemble the real response."
     )
+    hard = difficulty(c.ds) | difficulty(c.truth_grid)
+    if hard:
+        words += (
+            " How hard each landscape is beside the truth (no-belief's mean evaluations to "
+            "target, exact belief): "
+            + ", ".join(f"{k} {num(v)}" for k, v in hard.items())
+            + f", of a budget of {int(c.ds.attrs['budget'])}."
+        )
     return rows, by, words
