@@ -224,9 +224,9 @@ def hostile_outputs(tmp_path_factory):
         ["report", str(grid), "--draws", "50"],
         ["plan", str(study), "--out", str(folder / "plan"), "--pilot-replicates", "2"],
         ["audit", str(study), "--data", str(folder / "data.csv"), "--response", "y",
-         "--out", str(folder / "audit")],
+         "--goal", "minimise", "--out", str(folder / "audit")],
         ["monitor", str(study), "--observations", str(folder / "live.csv"), "--response", "y",
-         "--grid", str(grid), "--out", str(folder / "monitor")],
+         "--goal", "minimise", "--grid", str(grid), "--out", str(folder / "monitor")],
     ]  # fmt: skip
     for argv in commands:
         assert cli.main(argv) == 0, argv
@@ -293,7 +293,16 @@ def test_monitor_refuses_more_observations_than_the_budget(hostile_outputs, tmp_
     live.write_text("temperature,[p](javascript:alert(1)),y\n" + rows, encoding="utf-8")
     out = tmp_path / "monitor"
     study, grid = hostile_outputs / "study.toml", hostile_outputs / "grid"
-    argv = ["monitor", str(study), "--observations", str(live), "--response", "y"]
+    argv = [
+        "monitor",
+        str(study),
+        "--observations",
+        str(live),
+        "--response",
+        "y",
+        "--goal",
+        "minimise",
+    ]
     argv += ["--grid", str(grid), "--out", str(out)]
     assert cli.main(argv) == 2
     err = capsys.readouterr().err
