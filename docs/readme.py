@@ -91,7 +91,7 @@ def fenced(lines: str) -> str:
 
 def summary_section(summary: str, heading: str = "Recommendation") -> str:
     """A '## heading' section of summary.md, without its heading."""
-    found = re.search(rf"## {heading}\n\n(.*?)\n## ", summary, re.S)
+    found = re.search(rf"## {re.escape(heading)}\n\n(.*?)\n## ", summary, re.S)
     if found is None:
         raise SystemExit(f"summary.md: no '## {heading}' section")
     return found.group(1).strip("\n") + "\n"

@@ -78,12 +78,7 @@ class Rule:
                 "of the distortion weight (CVaR)"
             ),
         }[self.rule]
-        tail = (
-            ""
-            if self.score == "raw" and not self.landscape_weights
-            else "; " + (self.landscapes_text())
-        )
-        return f"{head} (weights {w}){tail}; lower is better"
+        return f"{head} (weights {w}); lower is better"
 
 
 def parse_weights(text: str, names: Sequence[str] | None, key: str = "--weights") -> dict:
