@@ -5,7 +5,7 @@ from __future__ import annotations
 
 import numpy as np
 import pytest
-from test_analysis import DECAYS, DISTORTIONS, LANDSCAPES, QUANTILES, REPLICATES, hand_grid
+from test_analysis import REPLICATES, hand_grid
 
 from workbench import analysis as an
 from workbench.analysis.recommendation import decision_values, setting_scores
@@ -76,16 +76,25 @@ def test_resemblance_without_earlier_evaluations_is_one_clear_error():
         an.decision_rule(_grid(), landscapes="resemblance")
 
 
-def test_ranks_score_and_the_value_shown_stays_in_evaluations():
-    ds = _grid()
-    rule = an.decision_rule(ds, score_method="ranks")
-    rec = an.recommend(ds, rule, an.Resampling(draws=20))
-    # Ranks per landscape and distortion over the 8 settings, normalised to [0, 1]: PP is
-    # best on branin (0) and shares the six-hump-camel tail; PW is 2nd on branin and best on
-    # six-hump-camel. The value shown is the raw mean evaluations of the pick.
-    raw = setting_scores(decision_values(ds, rule), an.decision_rule(ds))
-    assert rec.value == pytest.approx(float(raw.sel(setting=rec.setting)))
-    assert rec.setting in (PP, PW)
+def test_ranks_undo_the_scale_of_an_easy_landscape_and_the_value_shown_stays_raw():
+    # branin: PP 2, PW 9, the rest 10; six-hump-camel: PW 3, X (pseudo-posterior,
+    # hyperbolic:8, q 0.1) 4, PP 9, the rest 10. Raw means: PP 5.5, PW 6, X 7 -> PP.
+    # Ranks over the 6 settings, (r - 1)/5: branin PP 0, PW 0.2; six-hump-camel PW 0, X 0.2,
+    # PP 0.4 -> PP (0 + 0.4)/2 = 0.2, PW (0.2 + 0)/2 = 0.1 -> PW.
+    ett = np.full((2, 2, 3, 2, 2, REPLICATES), 10.0)
+    ett[0, 0, :, 0, 0], ett[1, 0, :, 0, :] = 2.0, 9.0
+    ett[1, 1, :, 0, :], ett[0, 1, :, 1, 0], ett[0, 1, :, 0, 0] = 3.0, 4.0, 9.0
+    ds = hand_grid(ett, np.full((2, 2, 3, REPLICATES), 12.0))
+    raw_rule = an.decision_rule(ds)
+    ranks_rule = an.decision_rule(ds, score_method="ranks")
+    scores = setting_scores(decision_values(ds, ranks_rule), ranks_rule)
+    assert float(scores.sel(setting=PP)) == pytest.approx(0.2)
+    assert float(scores.sel(setting=PW)) == pytest.approx(0.1)
+    assert an.recommend(ds, raw_rule, an.Resampling(draws=20)).setting == PP
+    rec = an.recommend(ds, ranks_rule, an.Resampling(draws=20))
+    assert rec.setting == PW
+    # The value shown is the pick's raw mean evaluations to target, (9 + 3)/2.
+    assert rec.value == pytest.approx(6.0)
 
 
 def test_kinds_share_their_weight_equally():
@@ -93,10 +102,3 @@ def test_kinds_share_their_weight_equally():
     ds["landscape_kind"] = ("landscape", ["textbook", "textbook"])
     rule = an.decision_rule(ds, landscapes={"textbook": 1.0})
     assert rule.landscape_weights == {"branin": 0.5, "six-hump-camel": 0.5}
-
-
-def test_hand_grid_dimensions_are_as_the_weights_assume():
-    ds = _grid()
-    assert list(ds["landscape"].values) == list(LANDSCAPES)
-    assert ds.sizes["distortion"] == len(DISTORTIONS)
-    assert ds.sizes["decay"] == len(DECAYS) and ds.sizes["quantile"] == len(QUANTILES)
