@@ -13,6 +13,7 @@ import xarray as xr
 
 from .. import analysis as an
 from ..analysis.transfer_check import TransferCheck, transfer_from_grids
+from ..engine.strategies import uses_quantile
 
 REPORT = "report.html"
 SUMMARY = "summary.md"
@@ -148,16 +149,14 @@ def compute_content(
     beat = an.evaluations_to_beat_mode(ds)
     nr_at = an.normalized_regret_at(ds).sel(setting=shown)
     sens = pp = None
-    if "pseudo-posterior" in [str(s) for s in ds["strategy"].values]:
-        # The planner of a pseudo-posterior campaign needs its decay and quantile even when
-        # another strategy wins overall.
-        pp = (
-            rec
-            if rec.choice["strategy"] == "pseudo-posterior"
-            else an.recommend(ds, rule, rs, strategy="pseudo-posterior")
-        )
+    # The strategy whose decay and quantile the sensitivity grid shows (the registry says
+    # which strategies use the quantile): its planner needs them even when another wins.
+    with_quantile = [str(s) for s in ds["strategy"].values if uses_quantile(str(s))]
+    if with_quantile:
+        name = with_quantile[0]
+        pp = rec if rec.choice["strategy"] == name else an.recommend(ds, rule, rs, strategy=name)
         fixed = {k: rec.choice[k] for k in ("exploration", "initial")}
-        sens = an.sensitivity(ds, rule, rs, "pseudo-posterior", fixed)
+        sens = an.sensitivity(ds, rule, rs, name, fixed)
     return Content(
         ds=ds,
         rule=rule,

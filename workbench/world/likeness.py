@@ -264,12 +264,13 @@ def slice_sample(
     Each update draws a level log u = logp(x) − Exp(1), places a bracket of ``width`` at
     random around x_j, steps it out at most ``steps`` times each way until both ends lie
     below the level (Fig. 3), then draws uniformly in the bracket, shrinking it towards x_j
-    on each rejection (Fig. 5). Returns the state after each sweep, (iterations, D).
+    on each rejection (Fig. 5). Returns the state after each pass over the coordinates,
+    (iterations, D).
     """
     x = np.array(x0, dtype=float)
     current = logp(x)
     if not math.isfinite(current):
-        raise ValueError("the slice sampler must start where the density is positive")
+        raise ValueError("slice sampling must start where the density is positive")
     out = np.empty((iterations, len(x)))
     for it in range(iterations):
         for j in range(len(x)):
