@@ -93,3 +93,18 @@ def test_impossible_simulation_settings_are_rejected(argv, words, capsys):
 def test_an_unknown_landscape_lists_the_valid_ones(capsys):
     code, _, err = _run(["simulate", "--landscape", "bran", "--strategy", "random"], capsys)
     assert code == 2 and "branin" in err and "six-hump-camel" in err
+
+
+def test_a_decoy_misplacement_without_a_decoy_stops_the_run_with_one_line(tmp_path, capsys):
+    # Branin on its native domain has only its three global minima (Dixon & Szegő 1978): no
+    # decoy. Found during the run, in a worker process (--jobs 2), still one line and exit 2.
+    study = textwrap.dedent(GOOD).replace("shift = 0.2", "misplace = 'decoy'")
+    path = tmp_path / "decoy.toml"
+    path.write_text(study.replace("replicates = 2", 'replicates = 2\nplacement = "native"'))
+    argv = ["run", str(path), "--out", str(tmp_path / "out"), "--quiet", "--jobs", "2"]
+    code, _, err = _run(argv, capsys)
+    assert code == 2
+    assert err.strip().splitlines() == [
+        f"workbench: {path}: 'distortion.shifted.misplace' must be a landscape with a local "
+        "optimum apart from its global ones (use 'worst' instead); got 'branin'"
+    ]

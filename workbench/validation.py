@@ -50,6 +50,10 @@ class InputError(ValueError):
         self.where = where
         super().__init__(str(self))
 
+    def __reduce__(self):
+        # Rebuilt from its fields, so that an error raised in a worker process reaches the run.
+        return type(self), (self.key, self.expected, self.got, self.where)
+
     def located(self, where: str) -> InputError:
         """The same error, naming the file or source it came from (kept if already set)."""
         return InputError(self.key, self.expected, self.got, self.where or where)

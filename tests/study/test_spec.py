@@ -205,3 +205,56 @@ def test_impossible_distortions_are_refused_by_the_parser_under_their_key(table,
     with pytest.raises(InputError) as info:
         make_study(USER + f"[distortion]\n{table}\n")
     assert info.value.key == key
+
+
+@pytest.mark.parametrize(
+    "old, new, message",
+    [
+        (
+            "lower = 120\nupper = 200",
+            "lower = 200\nupper = 120",
+            "'space.cure.upper' must be greater than lower (200); got 120.0",
+        ),
+        (
+            "lower = 0.5\nupper = 8",
+            "lower = 0\nupper = 8",
+            "'space.speed.lower' must be positive on a log scale; got 0.0",
+        ),
+        (
+            "lower = 1\nupper = 4",
+            "lower = 4\nupper = 1",
+            "'space.passes.upper' must be an integer greater than lower (4); got 1",
+        ),
+        (
+            '["epoxy", "acrylic", "none"]',
+            '["epoxy", "epoxy", "none"]',
+            "'space.primer.choices' must be a list of distinct choices; got 'epoxy' twice",
+        ),
+        (
+            'name = "shekel5"',
+            'name = "shekel5"\ndim = 3',
+            "'landscape[0].dim' must be 4 for shekel5; got 3",
+        ),
+    ],
+)
+def test_impossible_spaces_and_dimensions_are_refused_by_the_parser_under_their_key(
+    old, new, message
+):
+    # The world's constructors raise plain ValueErrors; the parser checks first, under the key.
+    with pytest.raises(InputError) as info:
+        make_study(USER.replace(old, new))
+    assert str(info.value).endswith(message)
+
+
+def test_a_decoy_misplacement_without_a_decoy_names_the_distortion_key():
+    # Branin on its native domain has three global minima and no other (Dixon & Szegő 1978),
+    # so there is no decoy to misplace the belief on: the study's error, raised by the cell.
+    s = make_study(
+        'title = "t"\nbudget = 10\nplacement = "native"\n[[landscape]]\nname = "branin"\n'
+        "[distortion]\nmoved = { misplace = 'decoy' }\n[strategy.pseudo-posterior]\n"
+        'decay = ["hyperbolic:5"]\nquantile = [0.25]\n'
+    )
+    with pytest.raises(InputError) as info:
+        _ = Cell(s, 0, 1, 0).belief
+    assert info.value.key == "distortion.moved.misplace"
+    assert "(use 'worst' instead); got 'branin'" in str(info.value)

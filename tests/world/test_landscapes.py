@@ -14,7 +14,7 @@ from hypothesis import strategies as st
 from scipy.optimize import minimize
 
 from workbench.validation import InputError
-from workbench.world.landscapes import Landscape, Placement, catalogue, get
+from workbench.world.landscapes import Landscape, Placement, catalogue, dimensions, get
 
 GENERIC = ("ackley", "levy", "rosenbrock", "styblinski-tang", "griewank", "rastrigin")
 
@@ -171,13 +171,12 @@ def test_local_search_from_each_minimiser_finds_nothing_lower(ref):
 # -- lookup and validation --------------------------------------------------------------------
 
 
-def test_unknown_name_names_landscape_and_offers_the_closest():
-    with pytest.raises(InputError) as info:
+def test_unknown_name_is_a_plain_value_error_listing_the_catalogue():
+    # The study parser names the key and the closest name (tests/test_cli_errors.py).
+    with pytest.raises(ValueError, match="no landscape called 'branon'") as info:
         get("branon")
-    assert info.value.key == "landscape"
-    message = str(info.value)
-    assert "'landscape'" in message
-    assert "did you mean 'branin'?" in message
+    assert not isinstance(info.value, InputError)
+    assert "branin" in str(info.value)
 
 
 @pytest.mark.parametrize(
@@ -194,10 +193,20 @@ def test_unknown_name_names_landscape_and_offers_the_closest():
         ("rosenbrock", 1),
     ],
 )
-def test_bad_dimension_is_an_input_error_on_dim(name, dim):
-    with pytest.raises(InputError) as info:
+def test_bad_dimension_is_a_plain_value_error_on_dim(name, dim):
+    with pytest.raises(ValueError, match=r"^dim must be") as info:
         get(name, dim)
-    assert info.value.key == "dim"
+    assert not isinstance(info.value, InputError)
+
+
+def test_dimensions_are_the_ones_get_accepts():
+    # What the study parser checks a landscape's dim against, before calling get.
+    assert dimensions("hartmann6") == (6, 6)
+    assert dimensions("rosenbrock") == (2, 20)
+    assert dimensions("ackley") == (1, 20)
+    for name in catalogue():
+        low, high = dimensions(name)
+        assert get(name, low).dim == low and get(name, high).dim == high
 
 
 def test_fixed_landscape_accepts_its_own_dimension_and_generic_ones_default_to_two():
@@ -229,13 +238,13 @@ def test_vectorised_evaluation_matches_row_by_row(seed, n):
         np.testing.assert_allclose(together, rows, rtol=1e-12, atol=1e-12)
 
 
-def test_a_single_point_gives_one_value_and_a_wrong_shape_is_an_input_error():
+def test_a_single_point_gives_one_value_and_a_wrong_shape_is_a_value_error():
     placement = get("hartmann3").placed()
     assert placement.value(np.full(3, 0.5)).shape == (1,)
     assert get("hartmann3")(np.full(3, 0.5)).shape == (1,)
-    with pytest.raises(InputError):
+    with pytest.raises(ValueError, match="shape"):
         placement.value(np.zeros((4, 2)))
-    with pytest.raises(InputError):
+    with pytest.raises(ValueError, match="shape"):
         get("branin")(np.zeros(3))
 
 
@@ -305,10 +314,10 @@ def test_nearest_minimiser_distance_is_euclidean_in_cube_units():
 
 
 @pytest.mark.parametrize("at", [[0.5], [0.5, 0.5, 0.5], [0.5, 1.5], [-0.1, 0.5], "ab"])
-def test_placement_point_outside_the_cube_or_of_the_wrong_length_is_an_input_error(at):
-    with pytest.raises(InputError) as info:
+def test_placement_point_outside_the_cube_or_of_the_wrong_length_is_a_value_error(at):
+    with pytest.raises(ValueError, match=r"^at must be 2 number") as info:
         get("branin").placed(at=at)
-    assert info.value.key == "at"
+    assert not isinstance(info.value, InputError)
 
 
 def test_placement_pickles_and_caches_its_derived_values():
@@ -366,13 +375,15 @@ def test_decoy_is_a_local_minimum_and_not_a_global_one(name, at):
 
 def test_branin_on_its_native_domain_has_no_decoy():
     # Its three minima are all global; the decoy search finds nothing else.
-    with pytest.raises(InputError):
-        get("branin").placed().decoy()
+    placement = get("branin").placed()
+    assert not placement.has_decoy
+    with pytest.raises(ValueError):
+        placement.decoy()
 
 
 def test_rosenbrock_in_two_dimensions_has_no_decoy_and_the_message_points_to_worst():
-    with pytest.raises(InputError) as info:
+    with pytest.raises(ValueError) as info:
         get("rosenbrock", 2).placed().decoy()
-    assert info.value.key == "misplace"
-    assert "'worst'" in str(info.value)
+    assert not isinstance(info.value, InputError)
+    assert "worst point" in str(info.value)
     assert "rosenbrock" in str(info.value)

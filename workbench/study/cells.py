@@ -18,12 +18,13 @@ from functools import cached_property, lru_cache
 import numpy as np
 
 from ..seeding import campaign_streams, derive, generator
+from ..validation import InputError
 from ..world import landscapes as ls
 from ..world.beliefs import gaussian_at
 from ..world.distortions import severity
 from ..world.reference import Belief, BeliefReference
 from ..world.space import Continuous, Space
-from .spec import LandscapeEntry, Study
+from .spec import SIMULATION_OPTIONS, LandscapeEntry, Study
 
 __all__ = ["PLACEMENT_MARGIN", "SEVERITY_RADIUS", "Cell"]
 
@@ -122,8 +123,21 @@ class Cell:
 
     @cached_property
     def belief(self) -> Belief:
-        """The distorted belief (its direction drawn from this cell's distortion stream)."""
+        """The distorted belief (its direction drawn from this cell's distortion stream).
+
+        A decoy misplacement on a landscape without a decoy is the study's error: an
+        :class:`InputError` naming the distortion's key (the option for ``simulate``)."""
         d = self.study.distortions[self.distortion]
+        if d.misplace == "decoy" and not self.placement.has_decoy:
+            key = f"distortion.{d.name}.misplace"
+            if self.study.path == "command line":
+                key = SIMULATION_OPTIONS.get(key, key)
+            raise InputError(
+                key,
+                "a landscape with a local optimum apart from its global ones (use 'worst' instead)",
+                self.placement.landscape.name,
+                self.study.path,
+            )
         return d.apply(self.exact_belief, self.placement, self.streams()["distortion"])
 
     @cached_property

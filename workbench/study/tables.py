@@ -87,6 +87,8 @@ class LandscapeEntry:
 
 def space_table(table) -> Space:
     table = check_table(table, "space")
+    if not table:
+        raise InputError("space", "at least one parameter", [])
     if len(table) > ls.MAX_DIM:
         raise InputError(
             "space",
@@ -99,14 +101,8 @@ def space_table(table) -> Space:
         spec = check_table(spec, key)
         if "choices" in spec:
             check_keys(spec, key, ("choices", "unit"))
-            choices = check_sequence(spec["choices"], f"{key}.choices", min_length=2)
-            if len(choices) > MAX_CHOICES:
-                raise InputError(
-                    f"{key}.choices",
-                    f"at most {MAX_CHOICES} choices (the limit on a categorical parameter)",
-                    raw(f"{len(choices)} choices"),
-                )
-            params.append(Categorical(name, tuple(choices), spec.get("unit", "")))
+            choices = _choices(spec["choices"], key, name)
+            params.append(Categorical(name, choices, spec.get("unit", "")))
             continue
         check_keys(
             spec, key, ("lower", "upper", "scale", "type", "unit"), required=("lower", "upper")
@@ -121,18 +117,48 @@ def space_table(table) -> Space:
         if kind == "integer":
             if scale == "log":
                 raise InputError(f"{key}.scale", "'linear' for an integer parameter", scale)
-            integer = Integer(name, spec["lower"], spec["upper"], unit)
-            if integer.levels > MAX_LEVELS:
+            check_string(name, "name")
+            lower = check_number(spec["lower"], f"{key}.lower", integer=True)
+            upper = check_number(spec["upper"], f"{key}.upper", integer=True)
+            if lower >= upper:
+                raise InputError(f"{key}.upper", f"an integer greater than lower ({lower})", upper)
+            if upper - lower + 1 > MAX_LEVELS:
                 raise InputError(
                     f"{key}.upper",
                     f"at most {MAX_LEVELS - 1} above lower (the limit on an integer parameter's "
                     f"values; use a continuous one)",
                     spec["upper"],
                 )
-            params.append(integer)
+            params.append(Integer(name, lower, upper, unit))
         else:
-            params.append(Continuous(name, spec["lower"], spec["upper"], scale == "log", unit))
+            check_string(name, "name")
+            lower = check_number(spec["lower"], f"{key}.lower")
+            upper = check_number(spec["upper"], f"{key}.upper")
+            if lower >= upper:
+                raise InputError(f"{key}.upper", f"greater than lower ({lower:g})", upper)
+            if scale == "log" and lower <= 0:
+                raise InputError(f"{key}.lower", "positive on a log scale", lower)
+            params.append(Continuous(name, lower, upper, scale == "log", unit))
     return Space(tuple(params))
+
+
+def _choices(value, key: str, name: str) -> tuple[str, ...]:
+    """A categorical parameter's choices: at least 2 distinct non-empty strings, at most
+    :data:`MAX_CHOICES`."""
+    choices = check_sequence(value, f"{key}.choices", min_length=2)
+    if len(choices) > MAX_CHOICES:
+        raise InputError(
+            f"{key}.choices",
+            f"at most {MAX_CHOICES} choices (the limit on a categorical parameter)",
+            raw(f"{len(choices)} choices"),
+        )
+    check_string(name, "name")
+    for choice in choices:
+        check_string(choice, f"{key}.choices")
+    if len(set(choices)) != len(choices):
+        dup = next(c for c in choices if choices.count(c) > 1)
+        raise InputError(f"{key}.choices", "a list of distinct choices", raw(f"{dup!r} twice"))
+    return tuple(choices)
 
 
 _KIND_KEYS = {
@@ -187,17 +213,16 @@ def _textbook(entry, key, space, noise, base) -> LandscapeEntry:
 
     name = check_choice(entry["name"], f"{key}.name", ls.catalogue())
     dim = entry.get("dim")
-    try:
-        if dim is None and space is not None:
-            # A generic landscape takes the space's dimension; a fixed one keeps its own.
-            try:
-                landscape = ls.get(name, space.dim)
-            except InputError:
-                landscape = ls.get(name)
-        else:
-            landscape = ls.get(name, dim)
-    except InputError as err:
-        raise InputError(f"{key}.dim", err.expected, err.got) from None
+    lowest, highest = ls.dimensions(name)
+    if dim is None and space is not None:
+        # A generic landscape takes the space's dimension; a fixed one keeps its own.
+        dim = space.dim if lowest <= space.dim <= highest else None
+    elif lowest == highest:
+        if dim is not None and (isinstance(dim, bool) or dim != lowest):
+            raise InputError(f"{key}.dim", f"{lowest} for {name}", dim)
+    elif dim is not None:
+        dim = check_number(dim, f"{key}.dim", low=lowest, high=highest, integer=True)
+    landscape = ls.get(name, dim)
     if space is not None and landscape.dim != space.dim:
         raise InputError(
             f"{key}.name",

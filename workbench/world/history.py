@@ -27,6 +27,9 @@ import numpy as np
 
 from ..seeding import derive, generator
 from ..storage import read_input
+
+# InputError here on purpose: read_history reads the user's own CSV file, so it is a reader at
+# the edge (it names the file, row and column), not a constructor of cube-level values.
 from ..validation import InputError, closest, raw
 from .space import Categorical, Integer, Space
 

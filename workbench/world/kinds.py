@@ -34,6 +34,9 @@ from pathlib import Path
 import numpy as np
 
 from .. import gp
+
+# InputError only in find_function: it checks the user's 'FILE.py:FUNCTION' text under the
+# key and file the parser passes in (importing the file is this module's job, so it lives here).
 from ..validation import InputError, raw
 from . import likeness, surfaces
 from .history import fitting_source

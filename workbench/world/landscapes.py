@@ -21,6 +21,7 @@ import math
 from collections.abc import Callable, Sequence
 from dataclasses import dataclass, field
 from functools import cached_property, partial
+from numbers import Integral, Real
 from types import MappingProxyType
 from typing import Any
 
@@ -29,9 +30,7 @@ from scipy.optimize import minimize
 from scipy.stats import qmc
 from threadpoolctl import threadpool_limits
 
-from ..validation import InputError, check_choice, check_number, raw
-
-__all__ = ["MAX_DIM", "Landscape", "Placement", "catalogue", "get"]
+__all__ = ["MAX_DIM", "Landscape", "Placement", "catalogue", "dimensions", "get"]
 
 # Generic landscapes take any dimension up to this; beyond it the fixed Sobol sets used by a
 # placement (``_REFERENCE_POINTS``) no longer say much about the landscape.
@@ -209,7 +208,7 @@ def _points(X: Any, dim: int, key: str) -> np.ndarray:
     if X.ndim == 1 and X.shape[0] == dim:
         return X[None, :]
     if X.ndim != 2 or X.shape[1] != dim:
-        raise InputError(key, f"an array of shape (n, {dim}) or ({dim},)", raw(f"shape {X.shape}"))
+        raise ValueError(f"{key} must be an array of shape (n, {dim}) or ({dim},); got {X.shape}")
     return X
 
 
@@ -281,7 +280,7 @@ class _Fixed:
     def make(self, name: str, dim: int | None) -> Landscape:
         own = len(self.lower)
         if dim is not None and (isinstance(dim, bool) or dim != own):
-            raise InputError("dim", f"{own} for {name}", dim)
+            raise ValueError(f"dim must be {own} for {name}; got {dim!r}")
         return Landscape(
             name,
             own,
@@ -308,7 +307,11 @@ class _Generic:
     def make(self, name: str, dim: int | None) -> Landscape:
         if dim is None:
             dim = 2
-        dim = check_number(dim, "dim", low=self.min_dim, high=MAX_DIM, integer=True)
+        if isinstance(dim, bool) or not isinstance(dim, Integral):
+            raise ValueError(f"dim must be an integer; got {dim!r}")
+        if not self.min_dim <= dim <= MAX_DIM:
+            raise ValueError(f"dim must be in [{self.min_dim}, {MAX_DIM}] for {name}; got {dim}")
+        dim = int(dim)
         lo, hi = self.interval
         return Landscape(
             name,
@@ -426,10 +429,24 @@ def catalogue() -> list[str]:
 def get(name: str, dim: int | None = None) -> Landscape:
     """The landscape called ``name``; generic ones take ``dim`` in [1, 20] (default 2).
 
-    A fixed-dimension landscape accepts ``dim=None`` or its own dimension.
+    A fixed-dimension landscape accepts ``dim=None`` or its own dimension. An unknown name or
+    an impossible dimension raises ``ValueError`` (the study parser checks both first, under
+    their keys).
     """
-    check_choice(name, "landscape", catalogue())
+    if name not in _CATALOGUE:
+        raise ValueError(f"no landscape called {name!r}; known: {', '.join(_CATALOGUE)}")
     return _CATALOGUE[name].make(name, dim)
+
+
+def dimensions(name: str) -> tuple[int, int]:
+    """The dimensions landscape ``name`` takes, ``(lowest, highest)``: a fixed one's own twice,
+    a generic one's ``(min_dim, MAX_DIM)``."""
+    if name not in _CATALOGUE:
+        raise ValueError(f"no landscape called {name!r}; known: {', '.join(_CATALOGUE)}")
+    entry = _CATALOGUE[name]
+    if isinstance(entry, _Fixed):
+        return len(entry.lower), len(entry.lower)
+    return entry.min_dim, MAX_DIM
 
 
 # ---------------------------------------------------------------------------------------------
@@ -660,6 +677,11 @@ class Placement:
                 return _frozen(u), value
         return None
 
+    @property
+    def has_decoy(self) -> bool:
+        """Whether :meth:`decoy` finds a local optimum apart from the global ones."""
+        return self._decoy is not None
+
     def decoy(self) -> tuple[np.ndarray, float]:
         """A decoy: the lowest local minimum apart from the global ones, and its value.
 
@@ -670,14 +692,14 @@ class Placement:
 
         Raises
         ------
-        InputError
-            If the landscape has no such local optimum (then misplace on the worst point).
+        ValueError
+            If the landscape has no such local optimum (then misplace on the worst point);
+            :attr:`has_decoy` says so beforehand.
         """
         if self._decoy is None:
-            raise InputError(
-                "misplace",
-                "a landscape with a local optimum apart from its global ones (use 'worst' instead)",
-                self.landscape.name,
+            raise ValueError(
+                f"{self.landscape.name} has no local optimum apart from its global ones "
+                "(misplace on the worst point instead)"
             )
         u, value = self._decoy
         return u.copy(), value
@@ -686,5 +708,8 @@ class Placement:
 def _check_at(at: Any, dim: int) -> tuple[float, ...]:
     values = np.asarray(at, dtype=object).ravel().tolist() if not isinstance(at, str) else None
     if values is None or len(values) != dim:
-        raise InputError("at", f"{dim} number(s) in [0, 1]", at)
-    return tuple(float(check_number(v, "at", low=0.0, high=1.0)) for v in values)
+        raise ValueError(f"at must be {dim} number(s) in [0, 1]; got {at!r}")
+    for v in values:
+        if isinstance(v, bool) or not isinstance(v, Real) or not 0.0 <= v <= 1.0:
+            raise ValueError(f"at must be {dim} number(s) in [0, 1]; got {v!r} in {at!r}")
+    return tuple(float(v) for v in values)

@@ -11,19 +11,38 @@ Every parameter owns one coordinate ``u`` in ``[0, 1]``:
 Beliefs are densities on this cube, so a discrete parameter's belief is piecewise constant
 over its bins. The surrogate sees continuous and integer coordinates as they are and
 categorical ones one-hot (:meth:`Space.features`).
+
+The constructors raise plain ``ValueError`` for impossible values; the study parser
+(:func:`workbench.study.tables.space_table`) checks every value first, under its key.
 """
 
 from __future__ import annotations
 
+import math
 from collections.abc import Sequence
 from dataclasses import dataclass
 from functools import cached_property
+from numbers import Integral, Real
+from typing import Any
 
 import numpy as np
 
-from ..validation import InputError, check_number, check_string, raw
-
 __all__ = ["Categorical", "Continuous", "Integer", "Parameter", "Space"]
+
+
+def _name(name: Any) -> str:
+    if not isinstance(name, str) or not name.strip():
+        raise ValueError(f"a parameter's name must be a non-empty string; got {name!r}")
+    return name
+
+
+def _bound(value: Any, name: str, which: str, integer: bool = False) -> float | int:
+    """A finite number (an integer if ``integer``); bools are not numbers here."""
+    kind = Integral if integer else Real
+    if isinstance(value, bool) or not isinstance(value, kind) or not math.isfinite(value):
+        noun = "an integer" if integer else "a finite number"
+        raise ValueError(f"{name}: {which} must be {noun}; got {value!r}")
+    return int(value) if integer else float(value)
 
 
 @dataclass(frozen=True)
@@ -37,14 +56,13 @@ class Continuous:
     unit: str = ""
 
     def __post_init__(self):
-        check_string(self.name, "name")
-        key = f"space.{self.name}"
-        lower = check_number(self.lower, f"{key}.lower")
-        upper = check_number(self.upper, f"{key}.upper")
+        name = _name(self.name)
+        lower = _bound(self.lower, name, "lower")
+        upper = _bound(self.upper, name, "upper")
         if lower >= upper:
-            raise InputError(f"{key}.upper", f"greater than lower ({lower:g})", upper)
+            raise ValueError(f"{name}: upper must be greater than lower ({lower:g}); got {upper:g}")
         if self.log and lower <= 0:
-            raise InputError(f"{key}.lower", "positive on a log scale", lower)
+            raise ValueError(f"{name}: lower must be positive on a log scale; got {lower:g}")
         object.__setattr__(self, "lower", float(lower))
         object.__setattr__(self, "upper", float(upper))
 
@@ -83,12 +101,11 @@ class Integer:
     unit: str = ""
 
     def __post_init__(self):
-        check_string(self.name, "name")
-        key = f"space.{self.name}"
-        lower = check_number(self.lower, f"{key}.lower", integer=True)
-        upper = check_number(self.upper, f"{key}.upper", integer=True)
+        name = _name(self.name)
+        lower = _bound(self.lower, name, "lower", integer=True)
+        upper = _bound(self.upper, name, "upper", integer=True)
         if lower >= upper:
-            raise InputError(f"{key}.upper", f"an integer greater than lower ({lower})", upper)
+            raise ValueError(f"{name}: upper must be greater than lower ({lower}); got {upper}")
         object.__setattr__(self, "lower", lower)
         object.__setattr__(self, "upper", upper)
 
@@ -119,16 +136,16 @@ class Categorical:
     unit: str = ""
 
     def __post_init__(self):
-        check_string(self.name, "name")
-        key = f"space.{self.name}.choices"
+        name = _name(self.name)
         choices = tuple(self.choices) if isinstance(self.choices, (list, tuple)) else ()
         if len(choices) < 2:
-            raise InputError(key, "a list of at least 2 choices", self.choices)
+            raise ValueError(f"{name}: at least 2 choices; got {self.choices!r}")
         for choice in choices:
-            check_string(choice, key)
+            if not isinstance(choice, str) or not choice.strip():
+                raise ValueError(f"{name}: choices must be non-empty strings; got {choice!r}")
         if len(set(choices)) != len(choices):
             dup = next(c for c in choices if choices.count(c) > 1)
-            raise InputError(key, "a list of distinct choices", raw(f"{dup!r} twice"))
+            raise ValueError(f"{name}: choices must be distinct; got {dup!r} twice")
         object.__setattr__(self, "choices", choices)
 
     @property
@@ -136,11 +153,10 @@ class Categorical:
         return len(self.choices)
 
     def index(self, choice: str) -> int:
-        """Position of ``choice``; an unknown choice is an input error."""
+        """Position of ``choice``; an unknown choice is a ``ValueError``."""
         if choice not in self.choices:
-            raise InputError(
-                f"space.{self.name}", "one of " + ", ".join(map(repr, self.choices)), choice
-            )
+            known = ", ".join(map(repr, self.choices))
+            raise ValueError(f"{self.name}: a choice must be one of {known}; got {choice!r}")
         return self.choices.index(choice)
 
     def to_unit(self, x: np.ndarray) -> np.ndarray:
@@ -174,11 +190,11 @@ class Space:
     def __post_init__(self):
         params = tuple(self.parameters)
         if not params:
-            raise InputError("space", "at least one parameter", [])
+            raise ValueError("a space needs at least one parameter")
         names = [p.name for p in params]
         for name in names:
             if names.count(name) > 1:
-                raise InputError(f"space.{name}", "a name used once", raw("a repeated name"))
+                raise ValueError(f"parameter names must be used once; got {name!r} twice")
         object.__setattr__(self, "parameters", params)
 
     @classmethod
