@@ -17,7 +17,6 @@ from pathlib import Path
 
 from .engine.strategies import DEFAULT_QUANTILE
 from .evidence.commands import cmd_audit, cmd_monitor
-from .study.grid import CampaignError
 from .validation import InputError, check_number
 
 __all__ = ["main"]
@@ -630,6 +629,18 @@ _KEPT = {
 _NOTHING_KEPT = "nothing is kept for a rerun, which starts again from the beginning"
 
 
+class _NoCampaignRan(Exception):
+    """Raised by nothing: what a command that ran no campaign matches for CampaignError."""
+
+
+def _campaign_error() -> type[Exception]:
+    """The grid's ``CampaignError`` if the grid module was imported, else a class nothing
+    raises: only that module raises one, and importing it (and the engine) just to name the
+    class would slow every command's start."""
+    grid = sys.modules.get("workbench.study.grid")
+    return grid.CampaignError if grid is not None else _NoCampaignRan
+
+
 def main(argv: list[str] | None = None) -> int:
     parser = build_parser()
     args = parser.parse_args(argv)
@@ -651,7 +662,7 @@ def main(argv: list[str] | None = None) -> int:
             raise
         print(f"workbench: {err}", file=sys.stderr)
         return 2
-    except CampaignError as err:
+    except _campaign_error() as err:
         if args.debug:
             raise
         print(f"workbench: {err}; finished chunks are kept, a rerun resumes", file=sys.stderr)
