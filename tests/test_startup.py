@@ -55,6 +55,9 @@ def test_importing_the_command_line_loads_no_heavy_library_and_no_engine():
         (["simulate", "--landscape", "branin"], 2),  # argparse: --strategy is missing
         (["check", "missing.toml"], 2),  # the study file does not exist
         (["run", "missing.toml"], 2),
+        (["belief", "missing.toml"], 2),
+        (["simulate", "--landscape", "nowhere", "--strategy", "random"], 2),  # unknown landscape
+        (["simulate", "--landscape", "branin", "--strategy", "random", "--budget", "0"], 2),
     ],
 )
 def test_listing_landscapes_and_argument_errors_load_no_heavy_library(argv, code):

@@ -48,7 +48,6 @@ def cmd_landscapes(args) -> int:
 
 
 def cmd_belief(args) -> int:
-    from .analysis.recommendation import short_number
     from .study import spec as study
     from .world import beliefs
 
@@ -60,6 +59,8 @@ def cmd_belief(args) -> int:
             None,
             args.study,
         )
+    from .analysis.recommendation import short_number  # after the checks: it loads xarray
+
     summary = beliefs.summarise(s.belief, s.space)
     print(f"Belief of study '{s.name}': {s.title}")
     print(f"{'parameter':<16} {'mode':>12}  {'central 50 %':>26}  {'central 90 %':>26}  truncated")
@@ -137,11 +138,12 @@ def _simulation_study(args):
 def cmd_simulate(args) -> int:
     import numpy as np
 
+    study, settings = _simulation_study(args)
+    # After the options are checked: these load the engine, joblib and xarray.
     from .analysis.metrics import evaluations_to_target
     from .study.grid import chunks, split
     from .study.runner import execute
 
-    study, settings = _simulation_study(args)
     rows = []
     for chunk, arrays, _ in execute(study, chunks(study), jobs=args.jobs):
         for replicate, result in split(chunk, arrays):
