@@ -17,7 +17,6 @@ from pathlib import Path
 
 from .engine.strategies import DEFAULT_QUANTILE
 from .evidence.commands import cmd_audit, cmd_monitor
-from .study.grid import CampaignError
 from .validation import InputError, check_number
 
 __all__ = ["main"]
@@ -49,7 +48,6 @@ def cmd_landscapes(args) -> int:
 
 
 def cmd_belief(args) -> int:
-    from .analysis.recommendation import short_number
     from .study import spec as study
     from .world import beliefs
 
@@ -61,6 +59,8 @@ def cmd_belief(args) -> int:
             None,
             args.study,
         )
+    from .analysis.recommendation import short_number  # after the checks: it loads xarray
+
     summary = beliefs.summarise(s.belief, s.space)
     print(f"Belief of study '{s.name}': {s.title}")
     print(f"{'parameter':<16} {'mode':>12}  {'central 50 %':>26}  {'central 90 %':>26}  truncated")
@@ -138,11 +138,12 @@ def _simulation_study(args):
 def cmd_simulate(args) -> int:
     import numpy as np
 
+    study, settings = _simulation_study(args)
+    # After the options are checked: these load the engine, joblib and xarray.
     from .analysis.metrics import evaluations_to_target
     from .study.grid import chunks, split
     from .study.runner import execute
 
-    study, settings = _simulation_study(args)
     rows = []
     for chunk, arrays, _ in execute(study, chunks(study), jobs=args.jobs):
         for replicate, result in split(chunk, arrays):
@@ -630,6 +631,18 @@ _KEPT = {
 _NOTHING_KEPT = "nothing is kept for a rerun, which starts again from the beginning"
 
 
+class _NoCampaignRan(Exception):
+    """Raised by nothing: what a command that ran no campaign matches for CampaignError."""
+
+
+def _campaign_error() -> type[Exception]:
+    """The grid's ``CampaignError`` if the grid module was imported, else a class nothing
+    raises: only that module raises one, and importing it (and the engine) just to name the
+    class would slow every command's start."""
+    grid = sys.modules.get("workbench.study.grid")
+    return grid.CampaignError if grid is not None else _NoCampaignRan
+
+
 def main(argv: list[str] | None = None) -> int:
     parser = build_parser()
     args = parser.parse_args(argv)
@@ -651,7 +664,7 @@ def main(argv: list[str] | None = None) -> int:
             raise
         print(f"workbench: {err}", file=sys.stderr)
         return 2
-    except CampaignError as err:
+    except _campaign_error() as err:
         if args.debug:
             raise
         print(f"workbench: {err}; finished chunks are kept, a rerun resumes", file=sys.stderr)

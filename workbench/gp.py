@@ -25,11 +25,13 @@ from dataclasses import dataclass, field
 from functools import cached_property
 
 import numpy as np
-from scipy.linalg import LinAlgError
-from scipy.linalg.lapack import dpotrf, dpotrs, dtrtrs
-from scipy.optimize import fmin_l_bfgs_b
+from numpy.linalg import LinAlgError  # the class scipy.linalg raises too
 
+from .lazy import LazyModule
 from .seeding import generator
+
+lapack = LazyModule("scipy.linalg.lapack")
+optimize = LazyModule("scipy.optimize")
 
 __all__ = [
     "DEFAULT_BOUNDS",
@@ -239,7 +241,7 @@ def _jittered_cholesky(K: np.ndarray) -> tuple[np.ndarray, float]:
     Tries ``K`` itself, then ``K + j·mean(diag K)·I`` for ``j`` in ``JITTER_STEPS``; returns
     the factor and the jitter added (an absolute variance).
     """
-    L, info = dpotrf(K, lower=1, clean=1)
+    L, info = lapack.dpotrf(K, lower=1, clean=1)
     if info == 0:
         return L, 0.0
     n = K.shape[0]
@@ -250,7 +252,7 @@ def _jittered_cholesky(K: np.ndarray) -> tuple[np.ndarray, float]:
         jitter = step * mean_diag
         Kj = K.copy()
         Kj.ravel()[:: n + 1] += jitter
-        L, info = dpotrf(Kj, lower=1, clean=1, overwrite_a=1)
+        L, info = lapack.dpotrf(Kj, lower=1, clean=1, overwrite_a=1)
         if info == 0:
             return L, jitter
     raise LinAlgError(
@@ -287,13 +289,13 @@ def _lml_and_grad(theta: np.ndarray, D: np.ndarray, y: np.ndarray) -> tuple[floa
     K = k * signal
     K.ravel()[:: n + 1] += noise
     L, _ = _jittered_cholesky(K)
-    alpha, _ = dpotrs(L, y, lower=1)
+    alpha, _ = lapack.dpotrs(L, y, lower=1)
     value = _lml_value(L, y, alpha)
 
     # ∂L/∂θ = ½ tr((ααᵀ - K⁻¹) ∂K/∂θ) (Rasmussen & Williams 2006, eq. 5.9); with W symmetric
     # the trace is the elementwise sum of W ∘ ∂K/∂θ.
     # potrs against I gives the full (symmetric) inverse as fast as potri gives half of it.
-    Kinv, _ = dpotrs(L, np.eye(n), lower=1, overwrite_b=1)
+    Kinv, _ = lapack.dpotrs(L, np.eye(n), lower=1, overwrite_b=1)
     W = np.outer(alpha, alpha)
     W -= Kinv
 
@@ -397,7 +399,7 @@ class GP:
             Ks = unit_matern(_sq_dist(a[block], b, bb))[0]
             np.dot(Ks, self.alpha, out=mean[block])
             # Ks.T is Fortran-ordered, as LAPACK wants it: no copy.
-            V, info = dtrtrs(self.cholesky, Ks.T, lower=1)
+            V, info = lapack.dtrtrs(self.cholesky, Ks.T, lower=1)
             if info != 0:
                 raise LinAlgError(f"triangular solve failed (LAPACK trtrs info={info})")
             np.einsum("ij,ij->j", V, V, out=var[block])
@@ -452,7 +454,7 @@ def _build(
     K *= hp.signal_variance
     K.ravel()[:: n + 1] += hp.noise_variance
     L, jitter = _jittered_cholesky(K)
-    alpha, _ = dpotrs(L, ys, lower=1)
+    alpha, _ = lapack.dpotrs(L, ys, lower=1)
     lml = _lml_value(L, ys, alpha)
     if not (math.isfinite(lml) and np.all(np.isfinite(alpha))):
         raise FloatingPointError("GP factorisation produced non-finite values")
@@ -544,7 +546,7 @@ def fit(
         for start in starts:
             try:
                 # The same L-BFGS-B as minimize(method="L-BFGS-B"), with less set-up per call.
-                theta, value, _ = fmin_l_bfgs_b(
+                theta, value, _ = optimize.fmin_l_bfgs_b(
                     _negative,
                     start,
                     args=(D, ys),

@@ -11,7 +11,10 @@
 from __future__ import annotations
 
 import numpy as np
-from scipy import special
+
+from ..lazy import LazyModule
+
+special = LazyModule("scipy.special")
 
 __all__ = [
     "expected_improvement",

@@ -8,7 +8,6 @@ import time
 from dataclasses import dataclass
 
 from .cells import Cell
-from .grid import chunks, run_chunk, settings
 from .spec import Study
 
 __all__ = ["Estimate", "duration", "probe", "size"]
@@ -33,6 +32,8 @@ def probe(study: Study, jobs: int | None = None) -> Estimate:
     """Time the study's first chunk for real (one lock-step batch: every setting of the first
     landscape and distortion over the first block of replicates) and take its seconds per
     campaign; the grid runs every chunk the same way."""
+    from .grid import chunks, run_chunk, settings
+
     every = chunks(study)
     guided, baseline = settings(study)
     campaigns = sum(c.campaigns for c in every)

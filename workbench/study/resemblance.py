@@ -31,7 +31,6 @@ import math
 from dataclasses import dataclass
 
 import numpy as np
-from threadpoolctl import threadpool_limits
 
 from .. import gp
 from ..seeding import derive, generator
@@ -212,6 +211,8 @@ def resemblance_table(
     On the demo study (4 landscapes, 25 evaluations, 2-D) this takes about 2 s of one core,
     most of it the minimum searches of the drawn surfaces.
     """
+    from threadpoolctl import threadpool_limits
+
     data = earlier_evaluations(study) if data is None else data
     if data is None:
         return None

@@ -25,10 +25,14 @@ from dataclasses import dataclass, replace
 from functools import cached_property
 
 import numpy as np
-from scipy import optimize, special, stats
 
+from ..lazy import LazyModule
 from .reference import volume_fraction
 from .space import Categorical, Continuous, Integer, Parameter, Space
+
+optimize = LazyModule("scipy.optimize")
+special = LazyModule("scipy.special")
+stats = LazyModule("scipy.stats")
 
 __all__ = [
     "Beta",
@@ -44,8 +48,10 @@ __all__ = [
     "probabilities_for",
 ]
 
-# z such that the central 90 % of a normal lies within ±z standard deviations.
-_Z90 = float(stats.norm.ppf(0.95))
+# z such that the central 90 % of a normal lies within ±z standard deviations: the value of
+# float(scipy.stats.norm.ppf(0.95)), written out so that importing this module does not load
+# scipy.stats (tests/test_startup.py checks the two agree to the last bit).
+_Z90 = 1.6448536269514722
 
 
 def _as_unit(u) -> np.ndarray:

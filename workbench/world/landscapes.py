@@ -26,9 +26,6 @@ from types import MappingProxyType
 from typing import Any
 
 import numpy as np
-from scipy.optimize import minimize
-from scipy.stats import qmc
-from threadpoolctl import threadpool_limits
 
 __all__ = ["MAX_DIM", "Landscape", "Placement", "catalogue", "dimensions", "get"]
 
@@ -470,6 +467,8 @@ _STEP = 1e-7  # central-difference step in cube units
 
 
 def _sobol(dim: int, log2_n: int, seed: int) -> np.ndarray:
+    from scipy.stats import qmc
+
     return qmc.Sobol(dim, scramble=True, seed=seed).random_base2(log2_n)
 
 
@@ -558,10 +557,14 @@ class Placement:
         """L-BFGS-B on sign * f within [0, 1]^d from each start; the end points and their f."""
         # Multi-threaded BLAS costs far more than it saves on these tiny problems (about ten
         # times slower on a busy machine), so the searches run single-threaded.
+        from threadpoolctl import threadpool_limits
+
         with threadpool_limits(limits=1, user_api="blas"):
             return [self._descend_one(start, sign) for start in starts]
 
     def _descend_one(self, start: np.ndarray, sign: float) -> tuple[np.ndarray, float]:
+        from scipy.optimize import minimize
+
         result = minimize(
             self._value_and_gradient,
             np.clip(start, 0.0, 1.0),

@@ -47,13 +47,16 @@ from functools import cache
 
 import numpy as np
 from numpy.typing import ArrayLike, NDArray
-from scipy import optimize, stats
-from scipy.linalg import lapack
 
 from .. import gp
+from ..lazy import LazyModule
 from . import surfaces
 from .history import fitting_source
 from .landscapes import Landscape
+
+lapack = LazyModule("scipy.linalg.lapack")
+optimize = LazyModule("scipy.optimize")
+stats = LazyModule("scipy.stats")
 
 __all__ = [
     "MAX_ROWS",

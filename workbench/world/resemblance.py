@@ -22,11 +22,14 @@ import math
 from dataclasses import dataclass
 
 import numpy as np
-from scipy.linalg.lapack import dpotrs
-from scipy.stats import qmc, rankdata
 
 from .. import gp
+from ..lazy import LazyModule
 from ..seeding import generator
+
+lapack = LazyModule("scipy.linalg.lapack")
+stats = LazyModule("scipy.stats")
+qmc = LazyModule("scipy.stats.qmc")
 
 __all__ = [
     "DESIGN_SIZE",
@@ -115,8 +118,8 @@ def spearman(a: np.ndarray, b: np.ndarray) -> np.ndarray:
     NaN where either side is constant (no ranking to agree with).
     """
     a, b = np.broadcast_arrays(np.asarray(a, dtype=float), np.asarray(b, dtype=float))
-    ra = rankdata(a, axis=-1)
-    rb = rankdata(b, axis=-1)
+    ra = stats.rankdata(a, axis=-1)
+    rb = stats.rankdata(b, axis=-1)
     ra -= ra.mean(axis=-1, keepdims=True)
     rb -= rb.mean(axis=-1, keepdims=True)
     num = (ra * rb).sum(axis=-1)
@@ -276,7 +279,7 @@ def loo_predictive(model: gp.GP) -> tuple[np.ndarray, np.ndarray]:
     The hyper-parameters are those fitted to all points (as in eq. 5.10).
     """
     n = model.n
-    Kinv, info = dpotrs(model.cholesky, np.eye(n), lower=1)
+    Kinv, info = lapack.dpotrs(model.cholesky, np.eye(n), lower=1)
     if info != 0:
         raise np.linalg.LinAlgError(f"LAPACK potrs failed (info={info})")
     d = np.diag(Kinv).copy()

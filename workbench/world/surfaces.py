@@ -33,9 +33,13 @@ from dataclasses import dataclass, field
 
 import numpy as np
 from numpy.typing import ArrayLike, NDArray
-from scipy import linalg, optimize
-from scipy.spatial.distance import cdist
-from scipy.stats import qmc
+
+from ..lazy import LazyModule
+
+distance = LazyModule("scipy.spatial.distance")
+linalg = LazyModule("scipy.linalg")
+optimize = LazyModule("scipy.optimize")
+qmc = LazyModule("scipy.stats.qmc")
 
 __all__ = [
     "DEFAULT_FEATURES",
@@ -176,7 +180,7 @@ def matern_kernel(
     A = np.atleast_2d(np.asarray(A, dtype=float))
     B = np.atleast_2d(np.asarray(B, dtype=float))
     scales = _length_scales(length_scale, A.shape[1])
-    r = cdist(A / scales, B / scales)
+    r = distance.cdist(A / scales, B / scales)
     return float(amplitude) ** 2 * matern(r, smoothness)
 
 
@@ -382,7 +386,7 @@ class FeatureSurface:
                 grads -= np.sin(Z, out=K) @ self._feature_grad
             values += _cos_dot(Z, self._feature_coef, K)
         if self.n_data:
-            r = cdist(U / self.length_scale, self._scaled_data)
+            r = distance.cdist(U / self.length_scale, self._scaled_data)
             weighted = self.amplitude**2 * self.coefficients
             values += matern(r, self.smoothness) @ weighted
             if with_gradient:

@@ -2,8 +2,9 @@
 
 Every other module asks this registry what a strategy uses instead of testing its name.
 Adding a strategy is one new module with a subclass (see the contract in
-:class:`~.base.Strategy`) and one ``register`` line below. Importing this package loads numpy,
-scipy.special and these modules only, so the stages above the engine may ask it cheaply.
+:class:`~.base.Strategy`) and one ``register`` line below. Importing this package loads numpy
+and these modules only (scipy.special at the first score), so the stages above the engine and
+the command line's start may ask it cheaply.
 """
 
 from __future__ import annotations
