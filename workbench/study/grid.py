@@ -21,6 +21,7 @@ import numpy as np
 from ..engine import strategies as st
 from ..engine.batch import run, run_batch
 from ..engine.campaign import Campaign, Trace
+from ..validation import InputError
 from .cells import Cell
 from .decay import Schedule
 from .spec import Study
@@ -178,6 +179,8 @@ def run_chunk(study: Study, chunk: Chunk) -> dict[str, np.ndarray]:
         traces = run_batch(
             [campaign_of(c, s) for c, s in pairs], [streams_of(c, s) for c, s in pairs]
         )
+    except InputError:
+        raise  # the user's input (an objective failing everywhere): one line, not a campaign's
     except Exception as err:
         # Find the campaign that raised: alone, each does exactly what it does in the batch.
         for cell, setting in pairs:

@@ -257,14 +257,16 @@ class Evaluator:
         self._process = self._answers = None
         if process is None or self._owner != os.getpid():
             return None
-        if process.poll() is None:
-            with contextlib.suppress(OSError):
-                process.stdin.close()
-            try:
-                return process.wait(0.2)
-            except subprocess.TimeoutExpired:
-                process.kill()
-        return process.wait()
+        with contextlib.suppress(OSError):
+            process.stdin.close()  # the child's loop ends at the end of its input
+        try:
+            code = process.wait(0.2)
+        except subprocess.TimeoutExpired:
+            process.kill()
+            code = process.wait()
+        with contextlib.suppress(OSError):
+            process.stdout.close()
+        return code
 
     def close(self) -> None:
         """End the child (if any)."""
