@@ -25,6 +25,7 @@ the import of the user's file.
 
 from __future__ import annotations
 
+import atexit
 import contextlib
 import inspect
 import math
@@ -305,7 +306,9 @@ class Evaluator:
 
 @cache
 def _cached(path: str, name: str, names: tuple[str, ...], time_limit: float, _mtime: int):
-    return Evaluator(path, name, names, time_limit)
+    made = Evaluator(path, name, names, time_limit)
+    atexit.register(made.close)  # end the child (and close its pipes) with this process
+    return made
 
 
 def evaluator(path: str, name: str, names: tuple[str, ...], time_limit: float) -> Evaluator:
