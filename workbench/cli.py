@@ -207,8 +207,14 @@ def cmd_check(args) -> int:
     from .study.spec import load
 
     s = load(args.study)
+    # The user's objectives first: one call each at the belief's mode, in a child process.
+    timed = [
+        (e.label, e.spec.probe(s.belief.mode())) for e in s.landscapes if e.kind == "objective"
+    ]
     est = probe(s, jobs=args.jobs)
     print(f"study '{s.name}': {s.title}")
+    for label, seconds in timed:
+        print(f"objective {label}: {seconds * 1e3:.1f} ms per call at the belief's mode")
     print(f"grid cells: {est.cells} (landscapes x distortions x strategy settings)")
     print(f"campaigns: {est.campaigns} ({s.replicates} replicates per cell, baselines included)")
     print(f"evaluations in total: {est.evaluations}")

@@ -167,7 +167,7 @@ _KIND_KEYS = {
     "fitted": ("data", "response", "goal", "data_noise", "features", "warp", "noise", "label"),
     "likedata": ("drawn_like", "response", "goal", "features", "noise", "label"),
     "table": ("table", "response", "goal", "lookup", "noise", "label"),
-    "objective": ("objective", "goal", "minimum", "maximum", "noise", "label"),
+    "objective": ("objective", "goal", "minimum", "maximum", "time_limit", "noise", "label"),
 }
 # The key that names each kind of landscape.
 _KIND_OF = {
@@ -352,7 +352,16 @@ def _objective(entry, key, space, noise, base) -> LandscapeEntry:
     if best is not None:
         best = float(check_number(best, f"{key}.{known}"))
         best = best if goal == "minimise" else -best
-    spec = kinds.Objective(path, name, space, goal, best, digest=kinds.file_digest(path))
+    # Seconds one evaluation may take before it is a failed one (default 10 s).
+    limit = check_number(
+        entry.get("time_limit", kinds.isolation.DEFAULT_TIME_LIMIT),
+        f"{key}.time_limit",
+        low=0.0,
+        closed="neither",
+    )
+    spec = kinds.Objective(
+        path, name, space, goal, best, digest=kinds.file_digest(path), time_limit=float(limit)
+    )
     return LandscapeEntry("objective", space.dim, noise, f"objective-{name}", "objective", spec)
 
 

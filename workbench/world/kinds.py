@@ -25,8 +25,8 @@ from __future__ import annotations
 
 import hashlib
 import importlib.util
-import inspect
 import math
+import time
 from dataclasses import dataclass, field
 from functools import cache
 from pathlib import Path
@@ -38,12 +38,20 @@ from .. import gp
 # InputError only in find_function: it checks the user's 'FILE.py:FUNCTION' text under the
 # key and file the parser passes in (importing the file is this module's job, so it lives here).
 from ..validation import InputError, raw
-from . import likeness, surfaces
+from . import isolation, likeness, surfaces
 from .history import fitting_source
 from .landscapes import Landscape
 from .space import Space
 
-__all__ = ["KINDS", "Drawn", "Fitted", "Objective", "file_digest", "find_function"]
+__all__ = [
+    "KINDS",
+    "Drawn",
+    "Fitted",
+    "Objective",
+    "ObjectiveError",
+    "file_digest",
+    "find_function",
+]
 
 KINDS = ("textbook", "drawn", "fitted", "objective", "likedata", "table")
 # What the minimum search of an objective sees where the function fails: large, finite.
@@ -259,36 +267,35 @@ def find_function(reference: str, study_dir: Path, where: str, key: str):
     return str(path), name
 
 
+def _evaluations(
+    U: np.ndarray, path: str, name: str, space: Space, sign: float, time_limit: float
+) -> tuple[np.ndarray, list[str | None]]:
+    """The user's function at cube points U (user units in), each evaluated in this process's
+    child (:mod:`.isolation`): values (NaN where it failed) and why each failed (or None)."""
+    points = [space.format_point(np.clip(u, 0.0, 1.0)) for u in np.atleast_2d(U)]
+    results = isolation.evaluator(path, name, tuple(space.names), time_limit).evaluate(points)
+    values = np.array([np.nan if v is None else sign * v for v, _ in results], dtype=float)
+    return values, [why for _, why in results]
+
+
 def _objective_values(
-    U: np.ndarray, path: str, name: str, space: Space, sign: float, one_dict: bool
+    U: np.ndarray, path: str, name: str, space: Space, sign: float, time_limit: float
 ) -> np.ndarray:
-    """The user's function at cube points U (user units in), NaN where it fails."""
-    function = getattr(_module(path), name)
-    out = np.full(len(U), np.nan)
-    for i, u in enumerate(np.atleast_2d(U)):
-        point = space.format_point(np.clip(u, 0.0, 1.0))
-        try:
-            value = float(function(point) if one_dict else function(**point))
-        except Exception:
-            continue
-        if math.isfinite(value):
-            out[i] = sign * value
-    return out
+    """The user's function at cube points U, NaN where an evaluation failed."""
+    return _evaluations(U, path, name, space, sign, time_limit)[0]
 
 
-def _takes_one_dict(function, names: list[str]) -> bool:
-    """Whether the function takes one dict rather than keyword arguments."""
-    try:
-        params = inspect.signature(function).parameters
-    except (TypeError, ValueError):
-        return False
-    return len(params) == 1 and next(iter(params)) not in names
+class ObjectiveError(InputError):
+    """The user's objective cannot serve as a landscape (one line: file, function, why); it
+    crosses process boundaries, pickled by its fields as every :class:`InputError`."""
 
 
 @dataclass(frozen=True)
 class Objective:
     """The user's function ``name`` in the file ``path`` over ``space``; ``goal`` its
-    direction; ``minimum`` (in the minimising orientation) when known."""
+    direction; ``minimum`` (in the minimising orientation) when known; ``time_limit`` the
+    seconds one evaluation may take (default :data:`.isolation.DEFAULT_TIME_LIMIT`, 10 s)
+    before it counts as failed."""
 
     path: str
     name: str
@@ -296,6 +303,7 @@ class Objective:
     goal: str = "minimise"
     minimum: float | None = None
     digest: str = ""
+    time_limit: float = isolation.DEFAULT_TIME_LIMIT
     kind: str = field(default="objective", init=False)
     placed_at_belief: bool = field(default=False, init=False)
 
@@ -303,25 +311,71 @@ class Objective:
     def minimum_estimated(self) -> bool:
         return self.minimum is None
 
+    @property
+    def _sign(self) -> float:
+        return -1.0 if self.goal == "maximise" else 1.0
+
     def function(self):
         from functools import partial
 
-        one_dict = _takes_one_dict(getattr(_module(self.path), self.name), self.space.names)
-        sign = -1.0 if self.goal == "maximise" else 1.0
         return partial(
             _objective_values,
             path=self.path,
             name=self.name,
             space=self.space,
-            sign=sign,
-            one_dict=one_dict,
+            sign=self._sign,
+            time_limit=self.time_limit,
         )
 
+    def _error(self, expected: str, got: str) -> ObjectiveError:
+        return ObjectiveError(self.name, expected, raw(got), Path(self.path).name)
+
+    def probe(self, u: np.ndarray) -> float:
+        """Call the function once at cube point ``u`` in a child of its own; its seconds per
+        call, or :class:`ObjectiveError` naming what went wrong (a signature that does not
+        take the space's parameter names, an exception, a crash, a time-out, a non-number)."""
+        names = tuple(self.space.names)
+        child = isolation.Evaluator(self.path, self.name, names, self.time_limit)
+        try:
+            point = self.space.format_point(np.clip(np.asarray(u, dtype=float), 0.0, 1.0))
+            failed = child._start()
+            if failed is not None:
+                raise self._error("a function that imports in a process of its own", failed)
+            if not child.signature.binds:
+                raise self._error(
+                    f"a function taking the space's parameters ({', '.join(names)}) as "
+                    "keywords, or one dict",
+                    f"{self.name}{child.signature.text}",
+                )
+            start = time.perf_counter()
+            [(_, why)] = child.evaluate([point])
+            seconds = time.perf_counter() - start
+        finally:
+            child.close()
+        if why is not None:
+            shown = ", ".join(f"{k} = {v!r}" for k, v in point.items())
+            raise self._error(f"a finite number at the belief's mode ({shown})", why)
+        return seconds
+
     def landscape(self, name: str, dim: int, rng: np.random.Generator) -> Landscape:
-        f = self.function()
-        u, value = surfaces.global_minimum(
-            lambda U: np.nan_to_num(f(U), nan=_FAILED), dim, rng, n_dense=2**10, starts=4
-        )
+        seen = {"ok": 0, "first": None}
+
+        def searched(U):
+            values, why = _evaluations(
+                U, self.path, self.name, self.space, self._sign, self.time_limit
+            )
+            seen["ok"] += int(np.isfinite(values).sum())
+            seen["first"] = seen["first"] or next((w for w in why if w), None)
+            return np.nan_to_num(values, nan=_FAILED)
+
+        u, value = surfaces.global_minimum(searched, dim, rng, n_dense=2**10, starts=4)
+        if not seen["ok"]:
+            raise self._error(
+                f"a function that returns a number somewhere in the space (landscape {name!r})",
+                f"every evaluation of the minimum search failed; the first {seen['first']}",
+            )
         if self.minimum is not None:
             value = min(value, self.minimum)
-        return _cube_landscape(name, dim, f, value, u, f"{Path(self.path).name}:{self.name}")
+        return _cube_landscape(
+            name, dim, self.function(), value, u, f"{Path(self.path).name}:{self.name}"
+        )

@@ -1,0 +1,157 @@
+"""The user's objective in a child process: misbehaving functions are failed evaluations."""
+
+import math
+import textwrap
+
+import numpy as np
+import pytest
+import xarray as xr
+
+from workbench.cli import main
+from workbench.study.spec import load
+from workbench.world.isolation import Evaluator
+
+# Each objective misbehaves only at x1 > 9.9 (a 150th of the range [-5, 10]: few restarts), else it
+# is the paraboloid (x1 - 2)^2 + (x2 - 4)^2.
+MISBEHAVIOURS = {
+    "os-exit": "import os; os._exit(1)",
+    "segfault": "import ctypes; ctypes.string_at(0)",
+    "sys-exit": "import sys; sys.exit(3)",
+    "keyboard-interrupt": "raise KeyboardInterrupt",
+    "string": "return '1.5'",
+    "none": "return None",
+    "complex": "return 1j",
+}
+
+
+def _objective(tmp_path, bad: str, where: str = "x1 > 9.9") -> None:
+    (tmp_path / "process.py").write_text(
+        "import time\n"
+        "def score(x1, x2):\n"
+        f"    if {where}:\n"
+        f"        {bad}\n"
+        "    return (x1 - 2) ** 2 + (x2 - 4) ** 2\n"
+    )
+
+
+def _study(tmp_path, extra: str = "") -> str:
+    text = textwrap.dedent(
+        f"""
+        title = "isolation"
+        budget = 6
+        replicates = 1
+        seed = 3
+        baselines = ["random"]
+        [space.x1]
+        lower = -5
+        upper = 10
+        [space.x2]
+        lower = 0
+        upper = 15
+        [belief.x1]
+        centre = 3
+        spread = 0.2
+        [belief.x2]
+        centre = 3
+        spread = 0.2
+        [[landscape]]
+        objective = "process.py:score"
+        {extra}
+        [distortion]
+        shifted = {{ shift = 0.2 }}
+        [strategy.prior-weighted]
+        decay = ["hyperbolic:4"]
+        """
+    )
+    path = tmp_path / "study.toml"
+    path.write_text(text, encoding="utf-8")
+    return str(path)
+
+
+@pytest.mark.parametrize("kind", sorted(MISBEHAVIOURS))
+def test_a_misbehaving_point_is_a_failed_evaluation_and_the_run_finishes(tmp_path, kind):
+    _objective(tmp_path, MISBEHAVIOURS[kind])
+    child = Evaluator(str(tmp_path / "process.py"), "score", ("x1", "x2"), 5.0)
+    try:
+        results = child.evaluate([{"x1": 9.95, "x2": 1.0}, {"x1": 1.0, "x2": 1.0}])
+    finally:
+        child.close()
+    (bad, why), (good, none) = results
+    assert bad is None and why and none is None
+    assert good == 10.0  # (1 - 2)^2 + (1 - 4)^2, by hand
+    out = tmp_path / "out"
+    assert main(["run", _study(tmp_path), "--out", str(out), "--jobs", "1", "--quiet"]) == 0
+    assert np.isfinite(xr.open_dataset(out / "grid.nc")["normalized_regret"].values).all()
+
+
+def test_a_point_past_the_time_limit_fails_and_the_next_is_evaluated(tmp_path):
+    _objective(tmp_path, "time.sleep(30)")
+    child = Evaluator(str(tmp_path / "process.py"), "score", ("x1", "x2"), 1.0)
+    try:
+        (slow, why), (good, _) = child.evaluate([{"x1": 9.95, "x2": 1.0}, {"x1": 2, "x2": 4}])
+    finally:
+        child.close()
+    assert slow is None and "time limit of 1 s" in why
+    assert good == 0.0
+
+
+def test_a_sleeping_objective_is_cut_off_in_a_run_with_a_one_second_limit(tmp_path):
+    # Sleeps at one point only (the first call anywhere makes a marker), so the run stays fast.
+    marker = tmp_path / "slept"
+    _objective(
+        tmp_path,
+        f"open({str(marker)!r}, 'w').close(); time.sleep(30)",
+        where=f"not __import__('os').path.exists({str(marker)!r})",
+    )
+    out = tmp_path / "out"
+    study = _study(tmp_path, "time_limit = 1")
+    assert main(["run", study, "--out", str(out), "--jobs", "1", "--quiet"]) == 0
+    assert marker.exists() and (out / "grid.nc").exists()
+
+
+def test_an_objective_failing_everywhere_stops_the_run_with_one_line(tmp_path, capsys):
+    _objective(tmp_path, "raise ValueError('the oven is cold')", where="True")
+    out = tmp_path / "out"
+    assert main(["run", _study(tmp_path), "--out", str(out), "--jobs", "1", "--quiet"]) == 2
+    err = capsys.readouterr().err.strip()
+    assert len(err.splitlines()) == 1
+    assert "process.py" in err and "objective-score" in err and "the oven is cold" in err
+    assert not (out / "grid.nc").exists()
+
+
+def test_check_names_the_parameters_a_misnamed_objective_does_not_take(tmp_path, capsys):
+    (tmp_path / "process.py").write_text("def score(x1, temperature):\n    return x1\n")
+    assert main(["check", _study(tmp_path)]) == 2
+    captured = capsys.readouterr()
+    assert captured.out == ""
+    line = captured.err.strip()
+    assert len(line.splitlines()) == 1
+    assert "process.py" in line and "score(x1, temperature)" in line and "x1, x2" in line
+
+
+@pytest.mark.parametrize("bad", ["import os; os._exit(1)", "return 'x'", "time.sleep(30)"])
+def test_check_reports_an_objective_failing_at_the_belief_mode(tmp_path, capsys, bad):
+    _objective(tmp_path, bad, where="True")
+    assert main(["check", _study(tmp_path, "time_limit = 1")]) == 2
+    line = capsys.readouterr().err.strip()
+    assert len(line.splitlines()) == 1 and "process.py" in line and "belief's mode" in line
+
+
+def test_check_times_a_well_behaved_objective(tmp_path, capsys):
+    _objective(tmp_path, "pass", where="False")
+    assert main(["check", _study(tmp_path)]) == 0
+    assert "ms per call at the belief's mode" in capsys.readouterr().out
+
+
+def test_isolated_values_equal_direct_evaluation(tmp_path):
+    _objective(tmp_path, "pass", where="False")
+    study = load(_study(tmp_path))
+    spec = study.landscapes[0].spec
+    U = np.random.default_rng(0).random((64, 2))
+    x = study.space.to_user_array(U)
+    # Direct evaluation of the same paraboloid, here in the test process.
+    direct = [(a - 2) ** 2 + (b - 4) ** 2 for a, b in x]
+    np.testing.assert_array_equal(spec.function()(U), direct)
+    # Its minimum 0 at (2, 4) (by hand), found through the child as well.
+    land = spec.landscape("objective-score", 2, np.random.default_rng(1))
+    assert math.isclose(land.minimum, 0.0, abs_tol=1e-6)
