@@ -79,8 +79,17 @@ def test_a_misbehaving_point_is_a_failed_evaluation_and_the_run_finishes(tmp_pat
     (bad, why), (good, none) = results
     assert bad is None and why and none is None
     assert good == 10.0  # (1 - 2)^2 + (1 - 4)^2, by hand
+    # In a run the point misbehaves once (a marker file), so that a crash's restart of the
+    # child is paid once: the run must still finish with a grid.
+    marker = tmp_path / "misbehaved"
+    _objective(
+        tmp_path,
+        f"open({str(marker)!r}, 'w').close(); {MISBEHAVIOURS[kind]}",
+        where=f"x1 > 9.9 and not __import__('os').path.exists({str(marker)!r})",
+    )
     out = tmp_path / "out"
     assert main(["run", _study(tmp_path), "--out", str(out), "--jobs", "1", "--quiet"]) == 0
+    assert marker.exists()
     assert np.isfinite(xr.open_dataset(out / "grid.nc")["normalized_regret"].values).all()
 
 
