@@ -7,6 +7,7 @@ import textwrap
 
 import numpy as np
 import pytest
+from test_monitor_cli import STUDY as CLI_STUDY
 
 from workbench.analysis import open_grid
 from workbench.cli import main
@@ -16,33 +17,8 @@ from workbench.evidence.commands import monitor_steps
 from workbench.study.spec import load
 from workbench.world.history import read_history
 
-STUDY = """
-title = "monitor cache"
-budget = 9
-replicates = 4
-seed = 5
-baselines = ["no-belief"]
-[initial]
-size = 3
-[space.x1]
-lower = 0
-upper = 10
-[space.x2]
-lower = 0
-upper = 10
-[belief.x1]
-centre = 5
-spread = 0.15
-[belief.x2]
-centre = 5
-spread = 0.15
-[[landscape]]
-name = "branin"
-[distortion]
-misplaced = { misplace = "worst" }
-[strategy.prior-weighted]
-decay = ["hyperbolic:2", "hyperbolic:8"]
-"""
+# The monitor command tests' small study (branin, one misplaced distortion, 4 replicates).
+STUDY = CLI_STUDY.format(seed=5)
 ROWS = ["5,5,3.1", "4,6,2.0", "6,4,2.5", "5.5,5.2,1.1", "4.8,5.1,0.9", "5.1,4.7,0.7"]
 SETTING = "prior-weighted, decay hyperbolic:2"
 

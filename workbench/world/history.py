@@ -40,6 +40,7 @@ __all__ = [
     "MAX_ROWS",
     "History",
     "Table",
+    "fitting_fields",
     "fitting_source",
     "read_history",
     "read_table",
@@ -287,3 +288,18 @@ def fitting_source(history: History, fit: History) -> str:
         f"{fit.rows} of the {history.rows} evaluations in {name} (a subsample drawn with a "
         f"fixed seed: a GP is fitted to at most {MAX_FIT_ROWS} rows)"
     )
+
+
+def fitting_fields(history: History) -> dict:
+    """What a landscape built on earlier evaluations keeps of them: the rows a GP is fitted to
+    (cube points ``X``, values to minimise ``y``), where they came from, and the file's digest,
+    response and goal."""
+    fit = history.fitting_rows()
+    return {
+        "X": tuple(map(tuple, fit.X.tolist())),
+        "y": tuple(fit.y.tolist()),
+        "source": fitting_source(history, fit),
+        "digest": history.digest,
+        "response": history.response,
+        "goal": history.goal,
+    }

@@ -39,7 +39,7 @@ from .. import gp
 # key and file the parser passes in (importing the file is this module's job, so it lives here).
 from ..validation import InputError, raw
 from . import isolation, likeness, surfaces
-from .history import fitting_source
+from .history import fitting_fields
 from .landscapes import Landscape
 from .space import Space
 
@@ -144,16 +144,7 @@ class Fitted:
     @classmethod
     def from_history(cls, history, **options) -> Fitted:
         """From earlier evaluations (a :class:`workbench.world.history.History`)."""
-        fit = history.fitting_rows()
-        return cls(
-            X=tuple(map(tuple, fit.X.tolist())),
-            y=tuple(fit.y.tolist()),
-            source=fitting_source(history, fit),
-            digest=history.digest,
-            response=history.response,
-            goal=history.goal,
-            **options,
-        )
+        return cls(**fitting_fields(history), **options)
 
     def _modelled(self) -> tuple[tuple[float, ...], float | None]:
         """The values the GP sees and their noise sd: the data, or their normal scores."""

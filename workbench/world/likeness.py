@@ -51,7 +51,7 @@ from numpy.typing import ArrayLike, NDArray
 from .. import gp
 from ..lazy import LazyModule
 from . import surfaces
-from .history import fitting_source
+from .history import fitting_fields
 from .landscapes import Landscape
 
 lapack = LazyModule("scipy.linalg.lapack")
@@ -525,16 +525,7 @@ class LikeData:
             options.setdefault(
                 "categorical", tuple(isinstance(p, Categorical) for p in space.parameters)
             )
-        fit = history.fitting_rows()
-        return cls(
-            X=tuple(map(tuple, fit.X.tolist())),
-            y=tuple(fit.y.tolist()),
-            source=fitting_source(history, fit),
-            digest=history.digest,
-            response=history.response,
-            goal=history.goal,
-            **options,
-        )
+        return cls(**fitting_fields(history), **options)
 
     def posterior(self) -> HyperPosterior:
         """The hyper-parameter posterior (deterministic: a fixed seed; cached per process)."""
