@@ -425,7 +425,15 @@ def test_a_second_run_on_a_busy_folder_is_refused_naming_the_holder(studies, tmp
     proc = _start(studies["slow"], out, jobs=1)
     try:
         lock = out / runner.LOCK
-        _wait_for(lambda: lock.exists() and lock.read_text().strip() == str(proc.pid), proc)
+        manifest = out / runner.MANIFEST
+        # The lock is taken before the manifest is written: wait for both, so that the
+        # refused runs below could only have changed a manifest that is already there.
+        _wait_for(
+            lambda: lock.exists()
+            and lock.read_text().strip() == str(proc.pid)
+            and manifest.exists(),
+            proc,
+        )
         for fresh in ([], ["--fresh"]):
             argv = ["run", str(studies["changed"]), "--out", str(out), "--quiet", *fresh]
             code, err = _cli(argv, capsys)
