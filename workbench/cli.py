@@ -15,6 +15,7 @@ import warnings
 from pathlib import Path
 
 from .cli_args import build_parser
+from .cli_progress import STATUS, CampaignBar, status
 from .evidence.commands import cmd_audit, cmd_monitor  # noqa: F401 (run by name in main)
 from .validation import InputError, check_number
 
@@ -134,30 +135,44 @@ def _simulation_study(args):
     return study, settings
 
 
+def _simulated(chunk, arrays, target: float) -> list[dict]:
+    """The rows of ``simulate`` for one finished chunk: one per replicate."""
+    from .analysis.metrics import evaluations_to_target
+    from .study.grid import split
+
+    rows = []
+    for replicate, result in split(chunk, arrays):
+        regret = result["regret"][0]
+        nr = result["normalized_regret"][0]
+        ett, reached = evaluations_to_target(nr, target)
+        rows.append(
+            {
+                "replicate": replicate,
+                "final_regret": float(regret[-1]),
+                "final_normalized_regret": float(nr[-1]),
+                "evaluations_to_target": int(ett) if reached else None,
+                "mode_value_regret": float(result["mode_value"][0] - result["minimum"][0]),
+            }
+        )
+    return rows
+
+
 def cmd_simulate(args) -> int:
     import numpy as np
 
     study, settings = _simulation_study(args)
     # After the options are checked: these load the engine, joblib and xarray.
-    from .analysis.metrics import evaluations_to_target
-    from .study.grid import chunks, split
+    from .study.grid import chunks
     from .study.runner import execute
 
-    rows = []
-    for chunk, arrays, _ in execute(study, chunks(study), jobs=args.jobs):
-        for replicate, result in split(chunk, arrays):
-            regret = result["regret"][0]
-            nr = result["normalized_regret"][0]
-            ett, reached = evaluations_to_target(nr, study.target)
-            rows.append(
-                {
-                    "replicate": replicate,
-                    "final_regret": float(regret[-1]),
-                    "final_normalized_regret": float(nr[-1]),
-                    "evaluations_to_target": int(ett) if reached else None,
-                    "mode_value_regret": float(result["mode_value"][0] - result["minimum"][0]),
-                }
-            )
+    rows, todo = [], chunks(study)
+    total, done = sum(c.campaigns for c in todo), 0
+    with CampaignBar() as bar:
+        bar.update(done, total)
+        for chunk, arrays, _ in execute(study, todo, jobs=args.jobs):
+            done += chunk.campaigns
+            bar.update(done, total)
+            rows.extend(_simulated(chunk, arrays, study.target))
     rows.sort(key=lambda r: r["replicate"])
     if args.json:
         print(json.dumps({"settings": settings, "replicates": rows}, indent=2))
@@ -185,35 +200,18 @@ def cmd_simulate(args) -> int:
 # --------------------------------------------------------------------------- studies
 
 
-def _progress(quiet: bool):
-    from tqdm import tqdm
-
-    if quiet or not sys.stderr.isatty():
-        return None, None
-    bar = tqdm(total=0, unit="campaign", desc="campaigns", dynamic_ncols=True)
-
-    def update(done: int, total: int) -> None:
-        bar.total = total
-        bar.n = done
-        bar.refresh()
-
-    return bar, update
-
-
 def cmd_check(args) -> int:
     from .study.cost import duration, probe
     from .study.resemblance import resemblance_table, table_lines
     from .study.spec import load
 
     s = load(args.study)
-    # The user's objectives first: one call each at the belief's mode, in a child process.
-    timed = [
-        (e.label, e.spec.probe(s.belief.mode())) for e in s.landscapes if e.kind == "objective"
-    ]
+    # The user's functions first: one call each at the belief's mode, in a child process.
+    timed = [(e.label, e.spec.probe(s.belief.mode())) for e in s.landscapes if e.kind == "function"]
     est = probe(s, jobs=args.jobs)
     print(f"study '{s.name}': {s.title}")
     for label, seconds in timed:
-        print(f"objective {label}: {seconds * 1e3:.1f} ms per call at the belief's mode")
+        print(f"{label}: {seconds * 1e3:.1f} ms per call at the belief's mode")
     print(f"grid cells: {est.cells} (landscapes x distortions x strategy settings)")
     print(f"campaigns: {est.campaigns} ({s.replicates} replicates per cell, baselines included)")
     print(f"evaluations in total: {est.evaluations}")
@@ -230,14 +228,15 @@ def cmd_check(args) -> int:
 def _run(study, out: Path, args) -> object:
     from .study.runner import run_study
 
-    bar, update = _progress(args.quiet)
-    try:
+    with CampaignBar(args.quiet) as bar:
         return run_study(
-            study, out, jobs=args.jobs, scheduler=args.scheduler, fresh=args.fresh, progress=update
+            study,
+            out,
+            jobs=args.jobs,
+            scheduler=args.scheduler,
+            fresh=args.fresh,
+            progress=bar.update,
         )
-    finally:
-        if bar is not None:
-            bar.close()
 
 
 def _warn(summary) -> None:
@@ -377,7 +376,7 @@ def _print_recommendation(rec) -> None:
     print("\n".join(rec.lines()))
 
 
-def cmd_recommend(args) -> int:
+def cmd_decide(args) -> int:
     from .analysis import landscape_kinds, recommend, transfer
     from .analysis.recommendation import short_number
 
@@ -500,7 +499,8 @@ def main(argv: list[str] | None = None) -> int:
         if isinstance(getattr(args, "jobs", None), int):  # plan reads its own options
             check_number(args.jobs, "--jobs", low=1, integer=True, where="command line")
         # Each command is the function cmd_<name> of this module (looked up when it runs).
-        return int(globals()[f"cmd_{args.command}"](args) or 0)
+        with status(STATUS.get(args.command)):
+            return int(globals()[f"cmd_{args.command}"](args) or 0)
     except InputError as err:
         if args.debug:
             raise

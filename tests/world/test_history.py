@@ -104,14 +104,14 @@ def test_a_bad_data_file_is_one_line_naming_file_row_and_column(text, names, tmp
         ("broken.py:score", "a file that imports"),
     ],
 )
-def test_a_missing_objective_file_or_function_is_one_line(reference, words, tmp_path, capsys):
+def test_a_missing_function_file_or_function_name_is_one_line(reference, words, tmp_path, capsys):
     (tmp_path / "process.py").write_text("def score(temperature, proving, flour):\n    return 1\n")
     (tmp_path / "broken.py").write_text("import a_module_that_is_not_there\n")
     study = tmp_path / "s.toml"
-    study.write_text(textwrap.dedent(SPACE) + f'[[landscape]]\nobjective = "{reference}"\n')
+    study.write_text(textwrap.dedent(SPACE) + f'[[landscape]]\nfunction = "{reference}"\n')
     out = tmp_path / "out"
     code = main(["run", str(study), "--out", str(out), "--quiet"])
     err = capsys.readouterr().err.strip()
     assert code == 2 and len(err.splitlines()) == 1
-    assert "s.toml" in err and "landscape[0].objective" in err and words in err
+    assert "s.toml" in err and "landscape[0].function" in err and words in err
     assert not out.exists()

@@ -151,7 +151,7 @@ class Study:
     @property
     def digest(self) -> str:
         """SHA-256 of the study text and of the files its landscapes read: a changed study,
-        data file or objective is a different grid."""
+        data file or function is a different grid."""
         h = hashlib.sha256(self.text.encode("utf-8"))
         for entry in self.landscapes:
             h.update(entry.label.encode())
@@ -443,7 +443,7 @@ def _parse(
 
 def _truth(table, space, base) -> tuple[LandscapeEntry | None, int]:
     """The ``[truth]`` table: a landscape entry that is the real response (a ``table`` of
-    measured configurations or the user's ``objective``), and the replicates of its grid."""
+    measured configurations or the user's ``function``), and the replicates of its grid."""
     if table is None:
         return None, TRUTH_REPLICATES
     table = dict(check_table(table, "truth"))
@@ -464,7 +464,7 @@ def _truth(table, space, base) -> tuple[LandscapeEntry | None, int]:
         ) from None
     if entry.placed_at_belief:
         raise InputError(
-            "truth", "a 'table' or an 'objective' (the real response)", raw(f"a {entry.kind}")
+            "truth", "a 'table' or a 'function' (the real response)", raw(f"a {entry.kind}")
         )
     return replace(entry, label="truth"), replicates
 

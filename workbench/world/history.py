@@ -138,7 +138,7 @@ def _cell(param, text: str, where: str, key: str) -> float:
             raise InputError(key, f"one of {', '.join(param.choices)}", raw(_excerpt(text)), where)
         return float(param.to_unit(np.array([text]))[0])
     value = _number(text, where, key)
-    if isinstance(param, Integer):
+    if isinstance(param, Integer) or param.integer:
         if value != int(value):
             raise InputError(key, "a whole number", raw(_excerpt(text)), where)
     if not param.lower <= value <= param.upper:
