@@ -34,16 +34,27 @@ def _out_dir(args, study_name: str) -> Path:
 def cmd_landscapes(args) -> int:
     from .world import landscapes as ls
 
-    rows = [ls.get(name).describe() for name in ls.catalogue()]
+    rows = []
+    for name in ls.catalogue():
+        lowest, highest = ls.dimensions(name)
+        rows.append(ls.get(name).describe() | {"dimensions": [lowest, highest]})
+        rows[-1]["accepts_dim"] = lowest != highest
     if args.json:
         print(json.dumps(rows, indent=2))
         return 0
-    print(f"{'name':<18} {'dim':>3}  {'minimum':>12}  domain / minimisers")
+    print(f"{'name':<18} {'dim':>9}  {'minimum':>12}  domain / minimisers")
     for r in rows:
         domain = " x ".join(f"[{lo:g}, {hi:g}]" for lo, hi in r["domain"])
-        print(f"{r['name']:<18} {r['dimension']:>3}  {r['minimum']:>12.6g}  {domain}")
+        dim = "{}-{} *".format(*r["dimensions"]) if r["accepts_dim"] else str(r["dimension"])
+        print(f"{r['name']:<18} {dim:>9}  {r['minimum']:>12.6g}  {domain}")
         for m in r["minimisers"]:
-            print(f"{'':<37}at ({', '.join(f'{v:.6g}' for v in m)})")
+            print(f"{'':<43}at ({', '.join(f'{v:.6g}' for v in m)})")
+    generic = [r for r in rows if r["accepts_dim"]]
+    if generic:
+        print(
+            f"* accepts dim (`dim = N` in a [[landscape]] table, `simulate --dim N`); shown "
+            f"at dim = {generic[0]['dimension']}"
+        )
     return 0
 
 
@@ -219,6 +230,8 @@ def cmd_check(args) -> int:
         f"estimated wall time on {est.jobs} worker(s): {duration(est.seconds)} "
         f"(timing probe: {est.probe_campaigns} campaigns, {est.per_campaign:.3f} s each)"
     )
+    if s.without_belief:
+        print(f"without a belief (uniform over the range): {', '.join(s.without_belief)}")
     table = resemblance_table(s)
     if table is not None:
         print("\n".join(table_lines(table)))

@@ -109,7 +109,9 @@ def build_parser() -> argparse.ArgumentParser:
 
     p = command("simulate", "run one grid cell from the command line")
     p.add_argument("--landscape", required=True, help="a name that `workbench landscapes` lists")
-    p.add_argument("--dim", type=int, default=None, help="dimension, for landscapes that take one")
+    p.add_argument(
+        "--dim", type=int, default=None, help="dimension, for landscapes that take one (default: 2)"
+    )
     p.add_argument("--strategy", required=True, help=f"one of {', '.join(STRATEGIES)}")
     p.add_argument("--budget", type=int, default=30, help="evaluations per campaign")
     p.add_argument("--replicates", type=int, default=4, help="campaigns")

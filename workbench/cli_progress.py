@@ -131,7 +131,7 @@ class _Watched:
 
 
 @contextlib.contextmanager
-def status(text: str | None, stream: TextIO | None = None) -> Iterator[None]:
+def status(text: str | None, stream: TextIO | None = None, every: float = 1.0) -> Iterator[None]:
     """Show ``text`` and the seconds elapsed on one line of ``stream`` (stderr) while the block
     runs, in a terminal only; the line goes away when the block ends or first writes to
     stdout or stderr (a bar or a result takes over)."""
@@ -139,7 +139,7 @@ def status(text: str | None, stream: TextIO | None = None) -> Iterator[None]:
     if text is None or not _terminal(stream):
         yield
         return
-    ticker = _Ticker(text, stream)
+    ticker = _Ticker(text, stream, every)
     out, err = sys.stdout, sys.stderr
     sys.stdout = _Watched(out, ticker)
     if stream is err:

@@ -159,6 +159,15 @@ class Study:
                 h.update(entry.spec.digest.encode())
         return h.hexdigest()
 
+    @property
+    def without_belief(self) -> tuple[str, ...]:
+        """The space's parameters that have no ``[belief.<name>]`` table: the belief is
+        uniform over their range."""
+        if self.space is None:
+            return ()
+        given = tomllib.loads(self.text).get("belief", {})
+        return () if "points" in given else tuple(n for n in self.space.names if n not in given)
+
     def truth_study(self) -> Study:
         """The same campaigns on the truth: its one landscape, its replicates, no truth."""
         if self.truth is None:

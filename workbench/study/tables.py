@@ -339,6 +339,7 @@ def _table(entry, key, space, noise, base) -> LandscapeEntry:
             digest=history.digest,
             response=history.response,
             goal=history.goal,
+            lines=history.lines,
         )
     except ValueError as err:
         raise InputError(
