@@ -17,7 +17,7 @@ from pathlib import Path
 from .cli_args import build_parser
 from .cli_progress import STATUS, CampaignBar, status
 from .evidence.commands import cmd_audit, cmd_monitor  # noqa: F401 (run by name in main)
-from .validation import InputError, check_number
+from .validation import InputError, check_number, raw
 
 __all__ = ["main"]
 
@@ -67,7 +67,7 @@ def cmd_belief(args) -> int:
         raise InputError(
             "space",
             "a [space] section (the belief command describes a belief on a space)",
-            None,
+            raw("a study without one"),
             args.study,
         )
     from .analysis.recommendation import short_number  # after the checks: it loads xarray
