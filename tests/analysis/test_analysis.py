@@ -520,8 +520,8 @@ def grid_dir(tmp_path):
     return tmp_path
 
 
-def test_recommend_prints_one_json_object_with_the_choice(grid_dir, capsys):
-    assert main(["recommend", str(grid_dir), "--json", "--draws", "200", "--rule", "minimax"]) == 0
+def test_decide_prints_one_json_object_with_the_choice(grid_dir, capsys):
+    assert main(["decide", str(grid_dir), "--json", "--draws", "200", "--rule", "minimax"]) == 0
     out = json.loads(capsys.readouterr().out)
     for key in ("decay", "quantile", "rule", "metric", "value", "interval", "stability"):
         assert key in out
@@ -536,8 +536,8 @@ def test_recommend_prints_one_json_object_with_the_choice(grid_dir, capsys):
     assert out["runner_up"]["setting"] != out["setting"]
 
 
-def test_recommend_prints_the_choice_in_words(grid_dir, capsys):
-    assert main(["recommend", str(grid_dir), "--draws", "100"]) == 0
+def test_decide_prints_the_choice_in_words(grid_dir, capsys):
+    assert main(["decide", str(grid_dir), "--draws", "100"]) == 0
     out = capsys.readouterr().out
     assert "pseudo-posterior, decay hyperbolic:8, quantile 0.1" in out
     assert "runner-up" in out and "stability" in out
@@ -554,13 +554,13 @@ def test_recommend_prints_the_choice_in_words(grid_dir, capsys):
         ["--draws", "0"],
     ],
 )
-def test_bad_recommend_options_end_with_one_line_and_exit_2(grid_dir, capsys, options):
-    assert main(["recommend", str(grid_dir), *options]) == 2
+def test_bad_decide_options_end_with_one_line_and_exit_2(grid_dir, capsys, options):
+    assert main(["decide", str(grid_dir), *options]) == 2
     err = capsys.readouterr().err
     assert err.count("\n") == 1 and err.startswith("workbench: command line: '")
 
 
 def test_a_missing_grid_is_named_in_one_line(tmp_path, capsys):
-    assert main(["recommend", str(tmp_path / "nowhere")]) == 2
+    assert main(["decide", str(tmp_path / "nowhere")]) == 2
     err = capsys.readouterr().err
     assert err.count("\n") == 1 and str(tmp_path / "nowhere" / "grid.nc") in err

@@ -341,7 +341,7 @@ def test_a_damaged_or_foreign_grid_is_one_line_and_exit_2(damage, words, folder,
     damage(folder / "grid.nc")
     with pytest.raises(InputError, match=words):
         open_grid(folder)
-    code, err = _cli(["recommend", str(folder)], capsys)
+    code, err = _cli(["decide", str(folder)], capsys)
     assert code == 2 and len(err.strip().splitlines()) == 1
     assert words in err and str(folder / "grid.nc") in err
 
@@ -429,9 +429,9 @@ def test_a_second_run_on_a_busy_folder_is_refused_naming_the_holder(studies, tmp
         # The lock is taken before the manifest is written: wait for both, so that the
         # refused runs below could only have changed a manifest that is already there.
         _wait_for(
-            lambda: lock.exists()
-            and lock.read_text().strip() == str(proc.pid)
-            and manifest.exists(),
+            lambda: (
+                lock.exists() and lock.read_text().strip() == str(proc.pid) and manifest.exists()
+            ),
             proc,
         )
         for fresh in ([], ["--fresh"]):

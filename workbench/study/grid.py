@@ -189,7 +189,7 @@ def _run_chunk(study: Study, chunk: Chunk) -> dict[str, np.ndarray]:
             [campaign_of(c, s) for c, s in pairs], [streams_of(c, s) for c, s in pairs]
         )
     except InputError:
-        raise  # the user's input (a decoy that does not exist, an objective failing everywhere)
+        raise  # the user's input (a decoy that does not exist, a function failing everywhere)
     except Exception as err:
         # Find the campaign that raised: alone, each does exactly what it does in the batch.
         for cell, setting in pairs:
