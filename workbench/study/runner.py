@@ -40,6 +40,7 @@ import os
 import re
 import threading
 import time
+import warnings
 from collections.abc import Callable, Iterator
 from dataclasses import dataclass, field
 from pathlib import Path
@@ -70,6 +71,8 @@ CHUNK_NAME = re.compile(r"L\d{3}-D\d{3}-R\d{4}-\d{4}\.npz")
 BELOW_MINIMUM = 1e-9
 # How often a worker looks whether the run's process is still its parent (seconds).
 WATCH_INTERVAL = 0.25
+# joblib's warning when a stopped run cancels the tasks still running.
+_CANCELLED = r".*tasks (which were still being processed|have been successfully executed)"
 
 
 @dataclass(frozen=True)
@@ -484,10 +487,18 @@ def _parallel(
     )
     parent = None if distributed else os.getpid()
     tasks = (joblib.delayed(_work)(study, g, parent) for g in groups)
-    for finished, err in parallel(tasks):
-        yield from finished
-        if err is not None:
-            raise err
+    results = parallel(tasks)
+    try:
+        for finished, err in results:
+            yield from finished
+            if err is not None:
+                raise err
+    finally:
+        # A run stopped early (an error, an interrupt) cancels the tasks still running: that
+        # is the intent, so joblib's warning about them is not the user's news.
+        with warnings.catch_warnings():
+            warnings.filterwarnings("ignore", _CANCELLED, UserWarning)
+            results.close()
 
 
 def _write_chunk(study: Study, out: Path, chunk: Chunk, result: dict) -> str:
