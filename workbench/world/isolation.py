@@ -57,11 +57,13 @@ _START = 60.0
 class Signature:
     """How the user's function takes a point: ``text`` its signature as written,
     ``one_dict`` whether it takes one dict, ``binds`` whether it accepts the space's
-    parameter names as keywords (or one dict)."""
+    parameter names as keywords (or one dict); ``found`` whether the file defines a callable
+    of that name at all."""
 
     text: str
     one_dict: bool
     binds: bool
+    found: bool = True
 
 
 def _describe(err: BaseException) -> str:
@@ -86,6 +88,8 @@ def _number(value) -> tuple[bool, float | str]:
 
 
 def _signature(function, names: tuple[str, ...]) -> Signature:
+    if not callable(function):
+        return Signature("", False, False, False)
     try:
         sig = inspect.signature(function)
     except (TypeError, ValueError):
@@ -157,12 +161,12 @@ def _serve(path: str, name: str, names: tuple[str, ...], caller: int) -> None:
         spec = importlib.util.spec_from_file_location("workbench_objective", path)
         module = importlib.util.module_from_spec(spec)
         spec.loader.exec_module(module)
-        function = getattr(module, name)
+        function = getattr(module, name, None)
         sig = _signature(function, names)
     except BaseException as err:  # the user's import may raise anything
         _write(sink, (False, f"importing {Path(path).name} failed: {_describe(err)}"))
         return
-    _write(sink, (True, (sig.text, sig.one_dict, sig.binds)))  # plain: __main__ here
+    _write(sink, (True, (sig.text, sig.one_dict, sig.binds, sig.found)))  # plain: __main__ here
     while True:
         try:
             batch = _read(source)
