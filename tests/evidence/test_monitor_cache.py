@@ -68,12 +68,19 @@ def test_the_next_evaluation_is_read_from_the_cache_with_a_fresh_trainings_proba
     train = _Counted(original)
     monkeypatch.setattr(mo, "train", train)
     assert _monitor(small_grid, _live(small_grid, 5)) == 0
-    first = json.loads(capsys.readouterr().out)
+    captured = capsys.readouterr()
+    first = json.loads(captured.out)
     assert train.calls == 1 and len(list(folder.glob("*.joblib"))) == 1
+    # Not a terminal: one status line says what the first call is doing; its time is measured.
+    assert captured.err.startswith("monitor: training 3 classifiers on ")
+    assert len(captured.err.splitlines()) == 1
+    assert 0 < first["training_seconds"] <= first["seconds"] and not first["from_cache"]
     # One more evaluation: no training at all, the classifiers come from the cache.
     monkeypatch.setattr(mo, "train", _Counted())
     assert _monitor(small_grid, _live(small_grid, 6)) == 0
-    second = json.loads(capsys.readouterr().out)
+    captured = capsys.readouterr()
+    second = json.loads(captured.out)
+    assert captured.err == "" and second["from_cache"] and second["training_seconds"] is None
     assert [s["t"] for s in second["steps"]] == [4, 5, 6]
     assert second["steps"][:2] == first["steps"]
     # The same probabilities as a monitor trained afresh on the same campaigns.
@@ -149,3 +156,21 @@ def test_a_cache_file_not_signed_by_this_user_is_never_unpickled(tmp_path, monke
     # The user's own file round-trips.
     assert cache.save(tmp_path, key, None) is not None
     assert cache.load(tmp_path, key) is None  # not a Monitor: refused after verifying
+
+
+def test_the_first_training_shows_a_progress_bar_in_a_terminal(monkeypatch):
+    import io
+
+    from workbench.evidence import commands
+
+    class Terminal(io.StringIO):
+        def isatty(self):
+            return True
+
+    screen = Terminal()
+    monkeypatch.setattr("sys.stderr", screen)
+    with commands._training_progress(4, 96) as progress:
+        progress(1, 4)
+        assert "training the monitor" in screen.getvalue() and "1/4" in screen.getvalue()
+        progress(3, 4)
+        assert "3/4" in screen.getvalue()
