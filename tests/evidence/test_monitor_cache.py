@@ -174,3 +174,49 @@ def test_the_first_training_shows_a_progress_bar_in_a_terminal(monkeypatch):
         assert "training the monitor" in screen.getvalue() and "1/4" in screen.getvalue()
         progress(3, 4)
         assert "3/4" in screen.getvalue()
+
+
+def test_audit_and_monitor_name_a_distortion_in_the_same_words_and_say_why_they_differ(
+    small_grid, tmp_path, capsys
+):
+    from scipy.stats import qmc
+
+    from workbench.evidence import audit as au
+    from workbench.evidence import wording
+    from workbench.evidence.pages import audit_lines
+    from workbench.study.cells import SEVERITY_RADIUS
+    from workbench.world.history import History
+
+    study, ds = load(small_grid / "s.toml"), open_grid(small_grid / "g")
+    X = qmc.Sobol(2, scramble=True, seed=1).random(16)
+    history = History(X, np.sum((X - 0.45) ** 2, axis=1), "y", "minimise", "t.csv", "")
+    severities = au.study_severities(study, ds)
+    rng = np.random.default_rng(0)
+    a = au.audit(
+        history,
+        study.belief,
+        top=0.25,
+        radius=SEVERITY_RADIUS,
+        rng=rng,
+        draws=8,
+        severities=severities,
+    )
+    audit_out = audit_lines(a, study.space, "t.csv")
+    assert _monitor(small_grid, _live(small_grid, 6)) == 0
+    advice = json.loads(capsys.readouterr().out)
+    argv = ["monitor", str(small_grid / "s.toml"), "--observations", str(_live(small_grid, 6))]
+    argv += ["--grid", str(small_grid / "g"), "--response", "y", "--goal", "minimise"]
+    assert main([*argv, "--setting", SETTING, "--out", str(tmp_path / "m")]) == 0
+    monitor_out = capsys.readouterr().out.splitlines()
+    # One phrase for the same measure: the distortion the evidence is most like.
+    (said_a,) = [line for line in audit_out if line.startswith(wording.MOST_LIKE)]
+    (said_m,) = [line for line in monitor_out if line.startswith(wording.MOST_LIKE)]
+    assert said_a.startswith(f"{wording.MOST_LIKE} '{a.distortion}' by ")
+    assert wording.READINGS["audit"] in said_a and wording.READINGS["monitor"] in said_m
+    # The monitor names its most probable distortion at the last evaluation.
+    last = advice["steps"][-1]
+    top = max(last["probabilities"], key=last["probabilities"].get)
+    assert said_m.startswith(f"{wording.MOST_LIKE} '{top}' by ") and last["most_like"] == said_m
+    # And each says, in one line and the same words, why the other may name another one.
+    assert audit_out.count(wording.WHY_THEY_DIFFER) == 1
+    assert monitor_out.count(wording.WHY_THEY_DIFFER) == 1

@@ -40,6 +40,7 @@ import numpy as np
 from ..world import kinds
 from ..world.history import History
 from ..world.reference import Belief, BeliefReference
+from .wording import most_like
 
 __all__ = [
     "BOUND_TOLERANCE",
@@ -167,6 +168,14 @@ class Audit:
     @property
     def good_outside_90(self) -> float:
         return float(np.mean(self.good_levels > 0.9))
+
+    @property
+    def most_like(self) -> str | None:
+        """The matched distortion in the monitor's words (:mod:`.wording`), or None."""
+        if self.distortion is None:
+            return None
+        d, m = self.distortion_distances[self.distortion]
+        return most_like(self.distortion, "audit", f"distance {d:.2f}, mass {100 * m:.0f} %")
 
 
 def _verdict(inside_90: float) -> str:
@@ -308,6 +317,7 @@ def to_dict(a: Audit, space) -> dict:
         "mass_within": a.mass_within,
         "radius": a.radius,
         "distortion": a.distortion,
+        "most_like": a.most_like,
         "distortions": {
             k: {"distance": d, "mass": m} for k, (d, m) in a.distortion_distances.items()
         },
