@@ -38,7 +38,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from ..world import kinds
-from ..world.history import History
+from ..world.history import FAR_FROM_DATA, History, distance_to_data
 from ..world.reference import Belief, BeliefReference
 from .wording import most_like
 
@@ -75,8 +75,6 @@ BOUND_TOLERANCE = 0.01
 BOX_MARGIN = 0.02
 # Largest share of optimum draws on the bounds or outside the data's box for a verdict.
 MAX_UNSUPPORTED_SHARE = 0.25
-# A draw farther than this (Euclidean) from every evaluation is marked as far outside the data.
-FAR_FROM_DATA = 0.2
 TOO_LITTLE = "too little data to judge"
 
 
@@ -109,7 +107,7 @@ def support(X: np.ndarray, argmins: np.ndarray) -> Support:
     bounds = np.any((argmins <= BOUND_TOLERANCE) | (argmins >= 1 - BOUND_TOLERANCE), axis=1)
     low, high = X.min(axis=0) - BOX_MARGIN, X.max(axis=0) + BOX_MARGIN
     box = np.any((argmins < low) | (argmins > high), axis=1)
-    nearest = np.min(np.linalg.norm(argmins[:, None, :] - X[None, :, :], axis=-1), axis=1)
+    nearest = distance_to_data(argmins, X)
     unsupported = float(np.mean(bounds | box))
     needs = []
     if n < MIN_ROWS_PER_PARAMETER * d:

@@ -175,6 +175,10 @@ def cmd_audit(args) -> int:
             setting=rec.setting,
         )
     lines = audit_lines(result, study.space, args.data)
+    if ds is not None:
+        from ..report.text import far_optimum_lines
+
+        lines += far_optimum_lines(ds)
     # The study's earlier evaluations, or, when it reads none, the ones audited.
     data = earlier_evaluations(study)
     if data is None:
@@ -183,6 +187,8 @@ def cmd_audit(args) -> int:
     table = resemblance_table(study, data=data)
     if args.json:
         out = au.to_dict(result, study.space)
+        if ds is not None:
+            out["far_fitted_optima"] = [asdict(f) for f in an.far_optima(ds)]
         if table is not None:
             out["resemblance"] = {
                 "data": table.source,
