@@ -191,3 +191,29 @@ def test_a_file_without_the_named_function_is_one_line(tmp_path, capsys):
     assert main(["check", _study(tmp_path)]) == 2
     line = capsys.readouterr().err.strip()
     assert len(line.splitlines()) == 1 and "no function 'score'" in line
+
+
+def test_the_run_summary_counts_failed_evaluations_and_names_the_first(tmp_path, capsys):
+    # Half the space (x2 > 7.5 of [0, 15]) raises: the campaigns' designs land there too.
+    _objective(tmp_path, "raise ValueError('the oven is too hot')", where="x2 > 7.5")
+    out = tmp_path / "out"
+    study = _study(tmp_path)
+    assert main(["run", study, "--out", str(out), "--jobs", "1", "--quiet"]) == 0
+    first = capsys.readouterr().err.strip().splitlines()
+    ds = xr.open_dataset(out / "grid.nc")
+    label = str(ds["landscape"].values[0])
+    # Each campaign once: the baseline repeats across distortions (counted in the first).
+    guided = ds["failed"].values
+    baseline = ds["baseline_failed"].isel(distortion=0).values
+    failed = int((guided == 1).sum() + (baseline == 1).sum())
+    total = int((guided >= 0).sum() + (baseline >= 0).sum())
+    ds.close()
+    assert failed > 0
+    line = (
+        f"warning: {label}: {failed:,} of {total:,} evaluations failed "
+        "(first: raised ValueError: the oven is too hot)"
+    )
+    assert first == [line]
+    # A rerun with nothing left to do says the same, from the folder's record.
+    assert main(["run", study, "--out", str(out), "--jobs", "1", "--quiet"]) == 0
+    assert capsys.readouterr().err.strip().splitlines() == [line]

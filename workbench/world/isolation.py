@@ -220,6 +220,8 @@ class Evaluator:
         self._answers: queue.Queue | None = None
         self._owner = os.getpid()
         self.signature: Signature | None = None
+        # Why the first evaluation failed since the last take_first_failure (None: none did).
+        self.first_failure: str | None = None
 
     def _wait(self, seconds: float):
         """The next answer; "timeout" after ``seconds``; None when the child has ended."""
@@ -283,9 +285,19 @@ class Evaluator:
         while len(out) < len(points):
             failed = self._start()
             if failed is not None:
-                return out + [(None, failed)] * (len(points) - len(out))
+                return self._noted(out + [(None, failed)] * (len(points) - len(out)))
             out.extend(self._batch(points[len(out) :]))
+        return self._noted(out)
+
+    def _noted(self, out: list[tuple[float | None, str | None]]):
+        if self.first_failure is None:
+            self.first_failure = next((why for _, why in out if why), None)
         return out
+
+    def take_first_failure(self) -> str | None:
+        """Why the first evaluation failed since the last call (None: none did); resets it."""
+        first, self.first_failure = self.first_failure, None
+        return first
 
     def _batch(self, points: list[dict]) -> list[tuple[float | None, str | None]]:
         """Send the points; collect results until all are in, or the child dies or runs over

@@ -306,6 +306,14 @@ class Objective:
             time_limit=self.time_limit,
         )
 
+    def take_first_failure(self) -> str | None:
+        """Why this process's first failed evaluation of the function failed since the last
+        call (None: none did); the run's summary names it."""
+        names = tuple(self.space.names)
+        return isolation.evaluator(
+            self.path, self.name, names, self.time_limit
+        ).take_first_failure()
+
     def _error(self, expected: str, got: str) -> ObjectiveError:
         return ObjectiveError(self.name, expected, raw(got), Path(self.path).name)
 
