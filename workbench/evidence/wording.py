@@ -17,7 +17,7 @@ MOST_LIKE = "most like the simulated distortion"
 # What each command reads, in the words both print.
 READINGS = {
     "audit": "where the earlier data put the optimum",
-    "monitor": "how this campaign has moved",
+    "monitor": "how the live campaign has moved",
 }
 WHY_THEY_DIFFER = (
     "the audit and the monitor may name different distortions: the audit reads "
