@@ -95,7 +95,9 @@ def test_an_unknown_landscape_lists_the_valid_ones(capsys):
     assert code == 2 and "branin" in err and "six-hump-camel" in err
 
 
-def test_a_decoy_misplacement_without_a_decoy_stops_the_run_with_one_line(tmp_path, capsys):
+def test_a_decoy_misplacement_without_a_decoy_stops_the_run_with_one_line(
+    tmp_path, capsys, recwarn
+):
     # Branin on its native domain has only its three global minima (Dixon & Szegő 1978): no
     # decoy. Found during the run, in a worker process (--jobs 2), still one line and exit 2.
     study = textwrap.dedent(GOOD).replace("shift = 0.2", "misplace = 'decoy'")
@@ -108,6 +110,8 @@ def test_a_decoy_misplacement_without_a_decoy_stops_the_run_with_one_line(tmp_pa
         f"workbench: {path}: 'distortion.shifted.misplace' must be a landscape with a local "
         "optimum apart from its global ones (use 'worst' instead); got 'branin'"
     ]
+    # The stopped run cancels its other task quietly: no warning reaches the user.
+    assert [str(w.message) for w in recwarn] == []
 
 
 @pytest.mark.parametrize(

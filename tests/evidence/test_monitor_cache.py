@@ -68,12 +68,19 @@ def test_the_next_evaluation_is_read_from_the_cache_with_a_fresh_trainings_proba
     train = _Counted(original)
     monkeypatch.setattr(mo, "train", train)
     assert _monitor(small_grid, _live(small_grid, 5)) == 0
-    first = json.loads(capsys.readouterr().out)
+    captured = capsys.readouterr()
+    first = json.loads(captured.out)
     assert train.calls == 1 and len(list(folder.glob("*.joblib"))) == 1
+    # Not a terminal: one status line says what the first call is doing; its time is measured.
+    assert captured.err.startswith("monitor: training 3 classifiers on ")
+    assert len(captured.err.splitlines()) == 1
+    assert 0 < first["training_seconds"] <= first["seconds"] and not first["from_cache"]
     # One more evaluation: no training at all, the classifiers come from the cache.
     monkeypatch.setattr(mo, "train", _Counted())
     assert _monitor(small_grid, _live(small_grid, 6)) == 0
-    second = json.loads(capsys.readouterr().out)
+    captured = capsys.readouterr()
+    second = json.loads(captured.out)
+    assert captured.err == "" and second["from_cache"] and second["training_seconds"] is None
     assert [s["t"] for s in second["steps"]] == [4, 5, 6]
     assert second["steps"][:2] == first["steps"]
     # The same probabilities as a monitor trained afresh on the same campaigns.
@@ -149,3 +156,67 @@ def test_a_cache_file_not_signed_by_this_user_is_never_unpickled(tmp_path, monke
     # The user's own file round-trips.
     assert cache.save(tmp_path, key, None) is not None
     assert cache.load(tmp_path, key) is None  # not a Monitor: refused after verifying
+
+
+def test_the_first_training_shows_a_progress_bar_in_a_terminal(monkeypatch):
+    import io
+
+    from workbench.evidence import commands
+
+    class Terminal(io.StringIO):
+        def isatty(self):
+            return True
+
+    screen = Terminal()
+    monkeypatch.setattr("sys.stderr", screen)
+    with commands._training_progress(4, 96) as progress:
+        progress(1, 4)
+        assert "training the monitor" in screen.getvalue() and "1/4" in screen.getvalue()
+        progress(3, 4)
+        assert "3/4" in screen.getvalue()
+
+
+def test_audit_and_monitor_name_a_distortion_in_the_same_words_and_say_why_they_differ(
+    small_grid, tmp_path, capsys
+):
+    from scipy.stats import qmc
+
+    from workbench.evidence import audit as au
+    from workbench.evidence import wording
+    from workbench.evidence.pages import audit_lines
+    from workbench.study.cells import SEVERITY_RADIUS
+    from workbench.world.history import History
+
+    study, ds = load(small_grid / "s.toml"), open_grid(small_grid / "g")
+    X = qmc.Sobol(2, scramble=True, seed=1).random(16)
+    history = History(X, np.sum((X - 0.45) ** 2, axis=1), "y", "minimise", "t.csv", "")
+    severities = au.study_severities(study, ds)
+    rng = np.random.default_rng(0)
+    a = au.audit(
+        history,
+        study.belief,
+        top=0.25,
+        radius=SEVERITY_RADIUS,
+        rng=rng,
+        draws=8,
+        severities=severities,
+    )
+    audit_out = audit_lines(a, study.space, "t.csv")
+    assert _monitor(small_grid, _live(small_grid, 6)) == 0
+    advice = json.loads(capsys.readouterr().out)
+    argv = ["monitor", str(small_grid / "s.toml"), "--observations", str(_live(small_grid, 6))]
+    argv += ["--grid", str(small_grid / "g"), "--response", "y", "--goal", "minimise"]
+    assert main([*argv, "--setting", SETTING, "--out", str(tmp_path / "m")]) == 0
+    monitor_out = capsys.readouterr().out.splitlines()
+    # One phrase for the same measure: the distortion the evidence is most like.
+    (said_a,) = [line for line in audit_out if line.startswith(wording.MOST_LIKE)]
+    (said_m,) = [line for line in monitor_out if line.startswith(wording.MOST_LIKE)]
+    assert said_a.startswith(f"{wording.MOST_LIKE} '{a.distortion}' by ")
+    assert wording.READINGS["audit"] in said_a and wording.READINGS["monitor"] in said_m
+    # The monitor names its most probable distortion at the last evaluation.
+    last = advice["steps"][-1]
+    top = max(last["probabilities"], key=last["probabilities"].get)
+    assert said_m.startswith(f"{wording.MOST_LIKE} '{top}' by ") and last["most_like"] == said_m
+    # And each says, in one line and the same words, why the other may name another one.
+    assert audit_out.count(wording.WHY_THEY_DIFFER) == 1
+    assert monitor_out.count(wording.WHY_THEY_DIFFER) == 1

@@ -164,3 +164,56 @@ def test_isolated_values_equal_direct_evaluation(tmp_path):
     # Its minimum 0 at (2, 4) (by hand), found through the child as well.
     land = spec.landscape("function-score", 2, np.random.default_rng(1))
     assert math.isclose(land.minimum, 0.0, abs_tol=1e-6)
+
+
+@pytest.mark.parametrize(
+    ("crash", "shown"),
+    [
+        ("raise ValueError('the oven is cold')", "ValueError: the oven is cold"),
+        ("import sys; sys.exit(3)", "SystemExit: 3"),
+        ("import os; os._exit(1)", "exited with code 1"),
+    ],
+)
+def test_a_file_that_crashes_at_import_ends_the_load_with_one_line(tmp_path, capsys, crash, shown):
+    # The file is imported in a child process: a crash there cannot end the command itself.
+    (tmp_path / "process.py").write_text(f"{crash}\ndef score(x1, x2):\n    return x1\n")
+    out = tmp_path / "out"
+    assert main(["run", _study(tmp_path), "--out", str(out), "--jobs", "1", "--quiet"]) == 2
+    captured = capsys.readouterr()
+    line = captured.err.strip()
+    assert captured.out == "" and len(line.splitlines()) == 1
+    assert "process.py" in line and shown in line and "a file that imports" in line
+    assert not out.exists()
+
+
+def test_a_file_without_the_named_function_is_one_line(tmp_path, capsys):
+    (tmp_path / "process.py").write_text("def other(x1, x2):\n    return x1\n")
+    assert main(["check", _study(tmp_path)]) == 2
+    line = capsys.readouterr().err.strip()
+    assert len(line.splitlines()) == 1 and "no function 'score'" in line
+
+
+def test_the_run_summary_counts_failed_evaluations_and_names_the_first(tmp_path, capsys):
+    # Half the space (x2 > 7.5 of [0, 15]) raises: the campaigns' designs land there too.
+    _user_function(tmp_path, "raise ValueError('the oven is too hot')", where="x2 > 7.5")
+    out = tmp_path / "out"
+    study = _study(tmp_path)
+    assert main(["run", study, "--out", str(out), "--jobs", "1", "--quiet"]) == 0
+    first = capsys.readouterr().err.strip().splitlines()
+    ds = xr.open_dataset(out / "grid.nc")
+    label = str(ds["landscape"].values[0])
+    # Each campaign once: the baseline repeats across distortions (counted in the first).
+    guided = ds["failed"].values
+    baseline = ds["baseline_failed"].isel(distortion=0).values
+    failed = int((guided == 1).sum() + (baseline == 1).sum())
+    total = int((guided >= 0).sum() + (baseline >= 0).sum())
+    ds.close()
+    assert failed > 0
+    line = (
+        f"warning: {label}: {failed:,} of {total:,} evaluations failed "
+        "(first: raised ValueError: the oven is too hot)"
+    )
+    assert first == [line]
+    # A rerun with nothing left to do says the same, from the folder's record.
+    assert main(["run", study, "--out", str(out), "--jobs", "1", "--quiet"]) == 0
+    assert capsys.readouterr().err.strip().splitlines() == [line]

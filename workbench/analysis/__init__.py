@@ -15,7 +15,17 @@ pipeline:
 - :mod:`.transfer`: whether the choice holds across kinds of landscapes.
 """
 
-from .dataset import METRIC_NAMES, METRICS, NO_BELIEF, RULES, SETTING_FACTORS, open_grid, series
+from .dataset import (
+    METRIC_NAMES,
+    METRICS,
+    NO_BELIEF,
+    RULES,
+    SETTING_FACTORS,
+    FarOptima,
+    far_optima,
+    open_grid,
+    series,
+)
 from .effects import effects
 from .figure_data import frontier, regret_bands, sensitivity
 from .grid_metrics import (
@@ -47,6 +57,7 @@ __all__ = [
     "NO_BELIEF",
     "RULES",
     "SETTING_FACTORS",
+    "FarOptima",
     "Recommendation",
     "Resampling",
     "Rule",
@@ -57,6 +68,7 @@ __all__ = [
     "effects",
     "evaluations_to_beat_mode",
     "evaluations_to_target",
+    "far_optima",
     "final_normalized_regret",
     "frontier",
     "kaplan_meier",

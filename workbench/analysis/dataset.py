@@ -9,6 +9,7 @@ landscape, distortion, replicate).
 from __future__ import annotations
 
 import math
+from dataclasses import dataclass
 from pathlib import Path
 
 import numpy as np
@@ -176,3 +177,48 @@ def landscape_kinds(ds: xr.Dataset) -> list[str]:
     if "landscape_kind" in ds:
         return [str(k) for k in ds["landscape_kind"].values]
     return [TEXTBOOK] * ds.sizes["landscape"]
+
+
+@dataclass(frozen=True)
+class FarOptima:
+    """Fitted replicates of one landscape whose optimum lies far outside the data they were
+    fitted to: ``far`` of ``replicates``, their indices, distances (cube units) and optima
+    (the user's units, as text); ``limit`` the distance beyond which an optimum is far."""
+
+    landscape: str
+    far: int
+    replicates: int
+    indices: tuple[int, ...]
+    distances: tuple[float, ...]
+    points: tuple[str, ...]
+    limit: float
+
+
+def far_optima(ds: xr.Dataset) -> list[FarOptima]:
+    """Per fitted landscape of the grid, its replicates whose optimum is farther than the
+    grid's ``far_from_data`` from every earlier evaluation (from ``optimum_data_distance``,
+    computed when the grid was run); only landscapes with at least one; [] for a grid
+    without that measure."""
+    if "optimum_data_distance" not in ds:
+        return []
+    limit = float(ds.attrs.get("far_from_data", np.nan))
+    out = []
+    for li, label in enumerate(ds["landscape"].values):
+        distance = ds["optimum_data_distance"].values[li]
+        known = np.isfinite(distance)
+        far = np.flatnonzero(known & (distance > limit))
+        if not far.size:
+            continue
+        text = ds["optimum_text"].values[li] if "optimum_text" in ds else [""] * len(distance)
+        out.append(
+            FarOptima(
+                landscape=str(label),
+                far=int(far.size),
+                replicates=int(known.sum()),
+                indices=tuple(int(r) for r in far),
+                distances=tuple(float(distance[r]) for r in far),
+                points=tuple(str(text[r] or "") for r in far),
+                limit=limit,
+            )
+        )
+    return out

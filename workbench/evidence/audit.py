@@ -38,8 +38,9 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from ..world import kinds
-from ..world.history import History
+from ..world.history import FAR_FROM_DATA, History, distance_to_data
 from ..world.reference import Belief, BeliefReference
+from .wording import most_like
 
 __all__ = [
     "BOUND_TOLERANCE",
@@ -74,8 +75,6 @@ BOUND_TOLERANCE = 0.01
 BOX_MARGIN = 0.02
 # Largest share of optimum draws on the bounds or outside the data's box for a verdict.
 MAX_UNSUPPORTED_SHARE = 0.25
-# A draw farther than this (Euclidean) from every evaluation is marked as far outside the data.
-FAR_FROM_DATA = 0.2
 TOO_LITTLE = "too little data to judge"
 
 
@@ -108,7 +107,7 @@ def support(X: np.ndarray, argmins: np.ndarray) -> Support:
     bounds = np.any((argmins <= BOUND_TOLERANCE) | (argmins >= 1 - BOUND_TOLERANCE), axis=1)
     low, high = X.min(axis=0) - BOX_MARGIN, X.max(axis=0) + BOX_MARGIN
     box = np.any((argmins < low) | (argmins > high), axis=1)
-    nearest = np.min(np.linalg.norm(argmins[:, None, :] - X[None, :, :], axis=-1), axis=1)
+    nearest = distance_to_data(argmins, X)
     unsupported = float(np.mean(bounds | box))
     needs = []
     if n < MIN_ROWS_PER_PARAMETER * d:
@@ -167,6 +166,14 @@ class Audit:
     @property
     def good_outside_90(self) -> float:
         return float(np.mean(self.good_levels > 0.9))
+
+    @property
+    def most_like(self) -> str | None:
+        """The matched distortion in the monitor's words (:mod:`.wording`), or None."""
+        if self.distortion is None:
+            return None
+        d, m = self.distortion_distances[self.distortion]
+        return most_like(self.distortion, "audit", f"distance {d:.2f}, mass {100 * m:.0f} %")
 
 
 def _verdict(inside_90: float) -> str:
@@ -308,6 +315,7 @@ def to_dict(a: Audit, space) -> dict:
         "mass_within": a.mass_within,
         "radius": a.radius,
         "distortion": a.distortion,
+        "most_like": a.most_like,
         "distortions": {
             k: {"distance": d, "mass": m} for k, (d, m) in a.distortion_distances.items()
         },

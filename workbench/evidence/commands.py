@@ -4,8 +4,10 @@ study, the grid and the CSV files, call the pure functions of this stage and pri
 
 from __future__ import annotations
 
+import contextlib
 import json
 import math
+import sys
 import time
 from dataclasses import asdict, replace
 from pathlib import Path
@@ -173,6 +175,10 @@ def cmd_audit(args) -> int:
             setting=rec.setting,
         )
     lines = audit_lines(result, study.space, args.data)
+    if ds is not None:
+        from ..report.text import far_optimum_lines
+
+        lines += far_optimum_lines(ds)
     # The study's earlier evaluations, or, when it reads none, the ones audited.
     data = earlier_evaluations(study)
     if data is None:
@@ -181,6 +187,8 @@ def cmd_audit(args) -> int:
     table = resemblance_table(study, data=data)
     if args.json:
         out = au.to_dict(result, study.space)
+        if ds is not None:
+            out["far_fitted_optima"] = [asdict(f) for f in an.far_optima(ds)]
         if table is not None:
             out["resemblance"] = {
                 "data": table.source,
@@ -220,6 +228,32 @@ def monitor_steps(study) -> list[int]:
 MONITOR_EVERY = 4
 
 
+@contextlib.contextmanager
+def _training_progress(steps: int, campaigns: int):
+    """The first training's progress on standard error: a bar in a terminal, else one status
+    line; yields the ``progress(done, total)`` callback for the training (or None)."""
+    if not sys.stderr.isatty():
+        print(
+            f"monitor: training {steps} classifiers on {campaigns} simulated campaigns (once "
+            "per grid and strategy; later calls read them from the cache beside the grid)",
+            file=sys.stderr,
+        )
+        yield None
+        return
+    from tqdm import tqdm
+
+    bar = tqdm(total=steps, unit="classifier", desc="training the monitor", leave=False)
+
+    def update(done: int, total: int) -> None:
+        bar.n = done
+        bar.refresh()
+
+    try:
+        yield update
+    finally:
+        bar.close()
+
+
 def cmd_monitor(args) -> int:
     from .. import analysis as an
     from ..engine.strategies import DEFAULT_QUANTILE
@@ -248,10 +282,13 @@ def cmd_monitor(args) -> int:
     key = cache.MonitorKey.of(args.grid, strategy, steps, DEFAULT_QUANTILE, seed=0)
     monitor = cache.load(args.grid, key)
     cached = monitor is not None
+    training = None
     if monitor is None:
         table = mo.training_table(ds, mo.grid_beliefs(study, ds, jobs=None), steps)
         table = mo.restrict(table, [str(x) == strategy for x in table.strategies])
-        monitor = mo.train(table, seed=0)
+        with _training_progress(len(steps), len(table.labels)) as progress:
+            monitor = mo.train(table, seed=0, progress=progress)
+        training = time.perf_counter() - start
         cache.save(args.grid, key, monitor)
     try:
         advice = mo.advise(monitor, ds, live.X, live.y, study.belief, setting)
@@ -260,6 +297,7 @@ def cmd_monitor(args) -> int:
     seconds = time.perf_counter() - start
     if args.json:
         out = advice.to_dict() | {"from_cache": cached, "seconds": round(seconds, 2)}
+        out["training_seconds"] = None if training is None else round(training, 2)
         out["validation"] = json.loads(monitor.validation.to_dataframe().to_json(orient="index"))
         print(json.dumps(out, indent=2, ensure_ascii=False))
         return 0

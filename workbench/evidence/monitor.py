@@ -26,6 +26,7 @@ from ..validation import InputError, check_choice, raw
 from ..world.reference import Belief, BeliefReference
 from .features import FEATURES, campaign_features
 from .training import MODELS, Monitor, TrainingTable, grid_beliefs, restrict, train, training_table
+from .wording import most_like
 
 __all__ = [
     "FEATURES",
@@ -76,6 +77,19 @@ class Advice:
     def best_action(self) -> tuple[str, ...]:
         return tuple(self.actions[i] for i in self.best)
 
+    def most_like(self, i: int = -1) -> str:
+        """The distortion most probable after the ``i``-th step, in the audit's words
+        (:mod:`workbench.evidence.wording`)."""
+        p = self.probabilities[i]
+        k = int(np.argmax(p))
+        others = ", ".join(
+            f"{d} {q:.2f}"
+            for j, (d, q) in enumerate(zip(self.distortions, p, strict=True))
+            if j != k
+        )
+        detail = f"probability {p[k]:.2f}" + (f"; {others}" if others else "")
+        return most_like(self.distortions[k], "monitor", detail)
+
     def to_dict(self) -> dict:
         """Plain lists and numbers (NaN as None), ready for JSON."""
 
@@ -104,6 +118,7 @@ class Advice:
                         zip(self.actions, clean(self.expected_cost[i]), strict=True)
                     ),
                     "best_action": self.actions[int(self.best[i])],
+                    "most_like": self.most_like(i),
                     "confidence": float(self.confidence[i]),
                 }
                 for i in range(len(self.t))

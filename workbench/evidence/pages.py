@@ -14,6 +14,7 @@ from ..storage import write_text
 from ..world.history import MAX_FIT_ROWS
 from ..world.space import Space
 from .audit import CONSISTENT_AT, CONTRADICTED_BELOW, FAR_FROM_DATA, Audit
+from .wording import WHY_THEY_DIFFER
 
 __all__ = ["CAUTIONS", "audit_lines", "monitor_lines", "write_page"]
 
@@ -76,11 +77,7 @@ def audit_lines(a: Audit, space: Space, data: str) -> list[str]:
             f"(the limit on a GP fit); the good evaluations are taken from all rows"
         )
     if a.distortion is not None:
-        d, m = a.distortion_distances[a.distortion]
-        lines.append(
-            f"most like the simulated distortion '{a.distortion}' (distance {d:.2f}, mass "
-            f"{_pct(m)})"
-        )
+        lines += [a.most_like, WHY_THEY_DIFFER]
     if a.cost is not None:
         est, lo, hi = a.cost
         word, lo, hi = ("costs", lo, hi) if est > 0 else ("saves", -hi, -lo)
@@ -106,6 +103,8 @@ def monitor_lines(monitor, advice, data: str, seconds: float, cached: bool = Fal
         f"after evaluation {last}: {probs}; advice: {advice.best_action[i]} (sure to "
         f"{advice.confidence[i]:.0%}: the probability of the distortions under which it is "
         f"the cheapest)",
+        advice.most_like(i),
+        WHY_THEY_DIFFER,
         f"validation on held-out replicates of the grid ({v.attrs['campaigns']} campaigns, "
         f"{v.attrs['replicates']} replicates, {how} in {seconds:.0f} s): per t, accuracy "
         f"against the base rate and Brier score against the base rate's (lower is better):",

@@ -23,6 +23,7 @@ folds' held-out probabilities only, so it stays held out.
 from __future__ import annotations
 
 import os
+from collections.abc import Callable
 from dataclasses import dataclass, replace
 
 import numpy as np
@@ -381,7 +382,11 @@ class Monitor:
 
 
 def train(
-    table: TrainingTable, seed: int = 0, folds: int = _FOLDS, nested: bool = False
+    table: TrainingTable,
+    seed: int = 0,
+    folds: int = _FOLDS,
+    nested: bool = False,
+    progress: Callable[[int, int], None] | None = None,
 ) -> Monitor:
     """One calibrated classifier per step of ``table``, chosen by cross-validation over
     replicate groups (see the module docstring). Deterministic given ``seed``.
@@ -389,7 +394,7 @@ def train(
     The ``validation`` table holds held-out predictions (fit on the other replicates) of the
     chosen candidate from that same cross-validation, slightly optimistic since the better of
     two is kept; ``nested=True`` repeats the choice inside every fold instead (about four
-    times the fits).
+    times the fits). ``progress(done, total)`` is called with the steps trained so far.
     """
     check_number(seed, "seed", low=0, integer=True)
     y = np.asarray(table.labels, dtype=int)
@@ -423,6 +428,8 @@ def train(
                     scores["boosted-trees"],
                 )
             )
+            if progress is not None:
+                progress(s + 1, len(table.steps))
     rows = np.array(rows)
     names = (
         "accuracy",

@@ -343,7 +343,33 @@ def resemblance_rows(c: Content) -> tuple[list, str]:
         f"that GP was fitted to the data): higher is better; it cannot tell a landscape from "
         f"its mirror image, the rank agreement can."
     )
+    far = far_optimum_lines(c.ds)
+    if far:
+        words += " " + " ".join(f"{line[0].upper()}{line[1:]}." for line in far)
     return rows, words
+
+
+# The far optima a line names (distinct places, in replicate order).
+_PLACES_SHOWN = 3
+
+
+def far_optimum_lines(ds: xr.Dataset) -> list[str]:
+    """One line per fitted landscape with replicates whose optimum lies far from every earlier
+    evaluation (:func:`workbench.analysis.far_optima`); the report and the audit print them."""
+    lines = []
+    for f in an.far_optima(ds):
+        places = list(dict.fromkeys(p for p in f.points if p))
+        shown = "; ".join(places[:_PLACES_SHOWN])
+        if len(places) > _PLACES_SHOWN:
+            shown += f"; and {len(places) - _PLACES_SHOWN} other places"
+        where = f" (at {shown})" if shown else ""
+        verb = "puts its optimum" if f.far == 1 else "put their optimum"
+        lines.append(
+            f"{f.far} of {f.replicates} fitted replicates of '{f.landscape}' {verb} far from "
+            f"every earlier evaluation{where}: farther than {f.limit:g} of the range from the "
+            f"nearest, where the fitted GP extrapolates"
+        )
+    return lines
 
 
 def strategy_paragraphs(c: Content) -> list[str]:

@@ -173,7 +173,8 @@ class CampaignError(RuntimeError):
 def run_chunk(study: Study, chunk: Chunk) -> dict[str, np.ndarray]:
     """Run every campaign of ``chunk`` in one batch. Arrays are stacked over (replicate,
     setting), and each replicate's cell context (minimum, gap, severity, value at the belief's
-    mode) over replicate: :func:`split` takes them apart again."""
+    mode) over replicate: :func:`split` takes them apart again. ``first_failure`` (replicate,)
+    says why the chunk's first failed evaluation failed, where the landscape knows ("" else)."""
     # One BLAS thread for the whole chunk, placement searches included: their many tiny
     # L-BFGS-B steps ran 2-50x slower with OpenBLAS's threads waking on every call (measured
     # on the demo's drawn and fitted chunks, 2 cores), and the values do not change.
@@ -182,6 +183,11 @@ def run_chunk(study: Study, chunk: Chunk) -> dict[str, np.ndarray]:
 
 
 def _run_chunk(study: Study, chunk: Chunk) -> dict[str, np.ndarray]:
+    # A landscape that can say why its evaluations failed (the user's function) is asked
+    # after the chunk; what it says before is another chunk's.
+    spec = study.landscapes[chunk.landscape].spec
+    take = getattr(spec, "take_first_failure", lambda: None)
+    take()
     cells = [Cell(study, chunk.landscape, chunk.distortion, r) for r in chunk.replicates]
     pairs = [(cell, s) for cell in cells for s in chunk.settings]
     try:
@@ -203,7 +209,9 @@ def _run_chunk(study: Study, chunk: Chunk) -> dict[str, np.ndarray]:
         raise CampaignError(f"campaigns failed together at {where}: {err}") from err
     m = len(chunk.settings)
     parts = [_replicate_arrays(cell, traces[i * m : (i + 1) * m]) for i, cell in enumerate(cells)]
-    return {name: np.stack([p[name] for p in parts]) for name in parts[0]}
+    out = {name: np.stack([p[name] for p in parts]) for name in parts[0]}
+    out["first_failure"] = np.full(len(cells), take() or "")
+    return out
 
 
 def _replicate_arrays(cell: Cell, traces: list[Trace]) -> dict[str, np.ndarray]:

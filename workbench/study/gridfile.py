@@ -16,7 +16,11 @@ Per cell: ``mode_value`` (the landscape's value at the belief's mode, the expert
 ``severity_distance`` and ``severity_mass`` over (landscape, distortion, replicate); per
 placement ``minimum`` and ``gap`` over (landscape, replicate), and where the (first) global
 minimiser lies, ``optimum`` (user units) and ``optimum_cube``, over (landscape, replicate,
-coordinate). Per landscape: ``landscape_kind`` (textbook, drawn, fitted, function),
+coordinate). For a fitted landscape, ``optimum_data_distance`` over (landscape, replicate):
+the distance (cube units) from the replicate's optimum to the nearest earlier evaluation it
+was fitted to, with ``optimum_text`` (that optimum in the user's units) and the attribute
+``far_from_data`` (the distance beyond which it lies far outside the data). Per landscape:
+``landscape_kind`` (textbook, drawn, fitted, function),
 ``landscape_noise`` and ``minimum_estimated`` (1 where the minimum comes from a search rather
 than a publication or the user).
 
@@ -63,6 +67,7 @@ import numpy as np
 from .. import __version__
 from ..engine import strategies as st
 from ..storage import atomic_path
+from ..world.history import FAR_FROM_DATA, distance_to_data
 from ..world.marginals import GRID_POINTS, marginal_curves
 from .cells import SEVERITY_RADIUS, Cell
 from .grid import Chunk, settings, split
@@ -172,6 +177,11 @@ def _define(ds, study: Study) -> None:
         ds.createVariable(name, "f8", ("landscape", "replicate"), fill_value=np.nan)
     for name in ("optimum", "optimum_cube"):
         ds.createVariable(name, "f8", ("landscape", "replicate", "coordinate"), fill_value=np.nan)
+    # Fitted landscapes: how far each replicate's optimum lies from the data it was fitted to.
+    ds.createVariable("optimum_data_distance", "f8", ("landscape", "replicate"), fill_value=np.nan)
+    text = ds.createVariable("optimum_text", str, ("landscape", "replicate"))
+    text[:] = np.full((sizes["landscape"], sizes["replicate"]), "", dtype=object)
+    ds.far_from_data = FAR_FROM_DATA
 
     ds.title = study.title
     ds.study_name = study.name
@@ -265,6 +275,16 @@ def _write_resemblance(ds, study: Study) -> None:
     ds.resemblance_level = table.level
 
 
+def _point_text(space, u: np.ndarray) -> str:
+    """A cube point in the user's units, ``name = value unit, ...``."""
+    units = {p.name: p.unit for p in space.parameters}
+    parts = []
+    for k, v in space.format_point(u).items():
+        value = f"{v:.4g}" if isinstance(v, float) else str(v)
+        parts.append(f"{k} = {value}" + (f" {units[k]}" if units.get(k) else ""))
+    return ", ".join(parts)
+
+
 def _write_replicate(ds, study: Study, chunk: Chunk, r: int, data) -> float:
     """Write replicate ``r`` of one chunk (its arrays as :func:`~workbench.study.grid.split`
     gives them); returns the lowest normalized regret among its campaigns."""
@@ -329,6 +349,12 @@ def _write_replicate(ds, study: Study, chunk: Chunk, r: int, data) -> float:
     for name in ("optimum", "optimum_cube"):
         if name in data:
             ds[name][li, r, 0 : len(data[name])] = data[name]
+    entry = study.landscapes[li]
+    if entry.kind == "fitted" and "optimum_cube" in data:
+        u = np.asarray(data["optimum_cube"], dtype=float)
+        ds["optimum_data_distance"][li, r] = distance_to_data(u, np.array(entry.spec.X))[0]
+        if study.space is not None:
+            ds["optimum_text"][li, r] = _point_text(study.space, u)
     return float(np.nanmin(data["normalized_regret"]))
 
 

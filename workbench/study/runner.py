@@ -40,6 +40,7 @@ import os
 import re
 import threading
 import time
+import warnings
 from collections.abc import Callable, Iterator
 from dataclasses import dataclass, field
 from pathlib import Path
@@ -70,6 +71,8 @@ CHUNK_NAME = re.compile(r"L\d{3}-D\d{3}-R\d{4}-\d{4}\.npz")
 BELOW_MINIMUM = 1e-9
 # How often a worker looks whether the run's process is still its parent (seconds).
 WATCH_INTERVAL = 0.25
+# joblib's warning when a stopped run cancels the tasks still running.
+_CANCELLED = r".*tasks (which were still being processed|have been successfully executed)"
 
 
 @dataclass(frozen=True)
@@ -85,14 +88,38 @@ class RunSummary:
     seconds: float
     below_minimum: dict[str, float] = field(default_factory=dict)
     recomputed: int = 0
+    # Per landscape label with failed evaluations: (failed, evaluations, first message or "").
+    failed: dict[str, tuple[int, int, str]] = field(default_factory=dict)
 
     def warnings(self) -> list[str]:
-        """One line per landscape on which a campaign beat the computed minimum."""
-        return [
+        """One line per landscape on which a campaign beat the computed minimum, and one per
+        landscape with failed evaluations (how many, and the first one's message)."""
+        lines = [
             f"landscape {label}: a campaign found a value below the computed minimum "
             f"(normalized regret {low:.3g}); the minimum search missed the optimum"
             for label, low in self.below_minimum.items()
         ]
+        for label, (n, total, first) in self.failed.items():
+            why = f" (first: {first})" if first else ""
+            lines.append(f"{label}: {n:,} of {total:,} evaluations failed{why}")
+        return lines
+
+
+def _failures(study: Study, manifest: dict, every: list[Chunk]) -> dict[str, tuple[int, int, str]]:
+    """Failed evaluations per landscape label with any: (failed, all its evaluations, the
+    first message), from the manifest's chunk entries (a chunk computed by a version that did
+    not count them counts as none failed)."""
+    failed: dict[str, int] = {}
+    total: dict[str, int] = {}
+    first: dict[str, str] = {}
+    for chunk in every:
+        label = study.landscapes[chunk.landscape].label
+        total[label] = total.get(label, 0) + chunk.campaigns * study.budget
+        entry = manifest["chunks"].get(chunk.key, {})
+        if entry.get("failed"):
+            failed[label] = failed.get(label, 0) + int(entry["failed"])
+            first[label] = first.get(label) or entry.get("first_failure", "")
+    return {label: (n, total[label], first[label]) for label, n in failed.items()}
 
 
 # --------------------------------------------------------------------------- the folder
@@ -484,10 +511,28 @@ def _parallel(
     )
     parent = None if distributed else os.getpid()
     tasks = (joblib.delayed(_work)(study, g, parent) for g in groups)
-    for finished, err in parallel(tasks):
-        yield from finished
-        if err is not None:
-            raise err
+    results = parallel(tasks)
+    try:
+        for finished, err in results:
+            yield from finished
+            if err is not None:
+                raise err
+    finally:
+        # A run stopped early (an error, an interrupt) cancels the tasks still running: that
+        # is the intent, so joblib's warning about them is not the user's news.
+        with warnings.catch_warnings():
+            warnings.filterwarnings("ignore", _CANCELLED, UserWarning)
+            results.close()
+
+
+def _chunk_failures(result: dict) -> dict:
+    """A chunk's failed evaluations for its manifest entry: how many of how many, and the
+    first one's message (nothing when none failed)."""
+    failed = int(np.count_nonzero(result["failed"]))
+    if not failed:
+        return {}
+    first = next((str(w) for w in result.get("first_failure", ()) if w), "")
+    return {"failed": failed, "evaluations": int(result["failed"].size), "first_failure": first}
 
 
 def _write_chunk(study: Study, out: Path, chunk: Chunk, result: dict) -> str:
@@ -592,6 +637,7 @@ def run_study(
                     with _disk(out):
                         sha = _write_chunk(study, out, chunk, result)
                     manifest["chunks"][chunk.key] = {"sha256": sha, "seconds": round(seconds, 4)}
+                    manifest["chunks"][chunk.key] |= _chunk_failures(result)
                     _save(out, manifest)
                     done += chunk.campaigns
                     if progress:
@@ -603,6 +649,6 @@ def run_study(
                     manifest["grid"] = {"sha256": sha256_of(out / GRID), "lowest": lowest}
                 _save(out, manifest)
     below = {k: v for k, v in lowest.items() if v < -BELOW_MINIMUM}
-    return RunSummary(
-        len(every), total, resumed, out / GRID, time.perf_counter() - start, below, recomputed
-    )
+    failed = _failures(study, manifest, every)
+    seconds = time.perf_counter() - start
+    return RunSummary(len(every), total, resumed, out / GRID, seconds, below, recomputed, failed)

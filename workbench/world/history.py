@@ -34,12 +34,14 @@ from ..validation import InputError, closest, raw
 from .space import Categorical, Integer, Space
 
 __all__ = [
+    "FAR_FROM_DATA",
     "GOALS",
     "MAX_FILE_BYTES",
     "MAX_FIT_ROWS",
     "MAX_ROWS",
     "History",
     "Table",
+    "distance_to_data",
     "fitting_fields",
     "fitting_source",
     "read_history",
@@ -47,6 +49,10 @@ __all__ = [
 ]
 
 GOALS = ("minimise", "maximise")
+# An optimum farther than this (Euclidean, in cube units: fractions of each parameter's range)
+# from every earlier evaluation lies far outside the data: a GP fitted to them extrapolates
+# there, so its optimum is the model's guess, not the data's.
+FAR_FROM_DATA = 0.2
 # Size limits of a CSV table, checked as it is read: its bytes and its data rows.
 MAX_FILE_BYTES = 50 * 2**20
 MAX_ROWS = 100_000
@@ -315,3 +321,10 @@ def fitting_fields(history: History) -> dict:
         "response": history.response,
         "goal": history.goal,
     }
+
+
+def distance_to_data(points: np.ndarray, X: np.ndarray) -> np.ndarray:
+    """Distance from each cube point of ``points`` (m, d) to the nearest row of ``X`` (n, d):
+    d_j = min_i ‖p_j − x_i‖ (Euclidean, cube units); compare with :data:`FAR_FROM_DATA`."""
+    points, X = np.atleast_2d(points), np.atleast_2d(X)
+    return np.min(np.linalg.norm(points[:, None, :] - X[None, :, :], axis=-1), axis=1)

@@ -57,11 +57,13 @@ _START = 60.0
 class Signature:
     """How the user's function takes a point: ``text`` its signature as written,
     ``one_dict`` whether it takes one dict, ``binds`` whether it accepts the space's
-    parameter names as keywords (or one dict)."""
+    parameter names as keywords (or one dict); ``found`` whether the file defines a callable
+    of that name at all."""
 
     text: str
     one_dict: bool
     binds: bool
+    found: bool = True
 
 
 def _describe(err: BaseException) -> str:
@@ -86,6 +88,8 @@ def _number(value) -> tuple[bool, float | str]:
 
 
 def _signature(function, names: tuple[str, ...]) -> Signature:
+    if not callable(function):
+        return Signature("", False, False, False)
     try:
         sig = inspect.signature(function)
     except (TypeError, ValueError):
@@ -157,12 +161,12 @@ def _serve(path: str, name: str, names: tuple[str, ...], caller: int) -> None:
         spec = importlib.util.spec_from_file_location("workbench_function", path)
         module = importlib.util.module_from_spec(spec)
         spec.loader.exec_module(module)
-        function = getattr(module, name)
+        function = getattr(module, name, None)
         sig = _signature(function, names)
     except BaseException as err:  # the user's import may raise anything
         _write(sink, (False, f"importing {Path(path).name} failed: {_describe(err)}"))
         return
-    _write(sink, (True, (sig.text, sig.one_dict, sig.binds)))  # plain: __main__ here
+    _write(sink, (True, (sig.text, sig.one_dict, sig.binds, sig.found)))  # plain: __main__ here
     while True:
         try:
             batch = _read(source)
@@ -216,6 +220,8 @@ class Evaluator:
         self._answers: queue.Queue | None = None
         self._owner = os.getpid()
         self.signature: Signature | None = None
+        # Why the first evaluation failed since the last take_first_failure (None: none did).
+        self.first_failure: str | None = None
 
     def _wait(self, seconds: float):
         """The next answer; "timeout" after ``seconds``; None when the child has ended."""
@@ -279,9 +285,19 @@ class Evaluator:
         while len(out) < len(points):
             failed = self._start()
             if failed is not None:
-                return out + [(None, failed)] * (len(points) - len(out))
+                return self._noted(out + [(None, failed)] * (len(points) - len(out)))
             out.extend(self._batch(points[len(out) :]))
+        return self._noted(out)
+
+    def _noted(self, out: list[tuple[float | None, str | None]]):
+        if self.first_failure is None:
+            self.first_failure = next((why for _, why in out if why), None)
         return out
+
+    def take_first_failure(self) -> str | None:
+        """Why the first evaluation failed since the last call (None: none did); resets it."""
+        first, self.first_failure = self.first_failure, None
+        return first
 
     def _batch(self, points: list[dict]) -> list[tuple[float | None, str | None]]:
         """Send the points; collect results until all are in, or the child dies or runs over

@@ -24,7 +24,6 @@ the textbook functions:
 from __future__ import annotations
 
 import hashlib
-import importlib.util
 import math
 import time
 from dataclasses import dataclass, field
@@ -218,22 +217,6 @@ def _fit(X: tuple, y: tuple, noise_sd: float | None) -> gp.GP:
 # --------------------------------------------------------------------------- function
 
 
-def _module(path: str):
-    """Import the file at ``path`` under a private name (once per process)."""
-    return _import(path, Path(path).stat().st_mtime_ns)
-
-
-@cache
-def _import(path: str, _mtime: int):
-    name = "workbench_function_" + str(abs(hash(path)))
-    spec = importlib.util.spec_from_file_location(name, path)
-    if spec is None or spec.loader is None:
-        raise ImportError(f"cannot import {path}")
-    module = importlib.util.module_from_spec(spec)
-    spec.loader.exec_module(module)
-    return module
-
-
 def file_digest(path: str) -> str:
     """A short SHA-256 of a file's bytes."""
     return hashlib.sha256(Path(path).read_bytes()).hexdigest()[:16]
@@ -248,12 +231,17 @@ def find_function(reference: str, study_dir: Path, where: str, key: str):
     path = (study_dir / file).resolve()
     if not path.is_file():
         raise InputError(key, "an existing Python file", raw(f"no file at {path}"), where)
+    # Imported in a child process, as every evaluation is: an import that raises, exits or
+    # crashes is one line here, and the user's code never runs in this process.
+    child = isolation.Evaluator(str(path), name, (), isolation.DEFAULT_TIME_LIMIT)
     try:
-        module = _module(str(path))
-    except Exception as err:
-        got = raw(f"{type(err).__name__}: {err}")
-        raise InputError(key, "a file that imports", got, where) from None
-    if not callable(getattr(module, name, None)):
+        failed = child._start()
+        found = failed is None and child.signature.found
+    finally:
+        child.close()
+    if failed is not None:
+        raise InputError(key, "a file that imports", raw(failed), where)
+    if not found:
         raise InputError(key, f"a function defined in {file}", raw(f"no function {name!r}"), where)
     return str(path), name
 
@@ -317,6 +305,14 @@ class UserFunction:
             sign=self._sign,
             time_limit=self.time_limit,
         )
+
+    def take_first_failure(self) -> str | None:
+        """Why this process's first failed evaluation of the function failed since the last
+        call (None: none did); the run's summary names it."""
+        names = tuple(self.space.names)
+        return isolation.evaluator(
+            self.path, self.name, names, self.time_limit
+        ).take_first_failure()
 
     def _error(self, expected: str, got: str) -> FunctionError:
         return FunctionError(self.name, expected, raw(got), Path(self.path).name)
