@@ -167,7 +167,7 @@ def csv_text(head: Sequence[str], rows: Iterable) -> str:
     body = [r for r in rows if not isinstance(r, Group)]
     paired = [any(isinstance(r[j], tuple) for r in body) for j in range(len(head))]
     out = io.StringIO()
-    writer = csv.writer(out, lineterminator="\n")
+    writer = csv.writer(out)  # RFC 4180: CRLF ends a row, a field with CR or LF is quoted
     header = ["group"] if grouped else []
     for h, two in zip(head, paired, strict=True):
         header += [h, f"{h} interval"] if two else [h]
