@@ -1,6 +1,7 @@
 """The audit: an exact belief passes, a belief on the worst point fails, and its measures agree
 with their definitions."""
 
+import html
 import json
 import textwrap
 from pathlib import Path
@@ -125,6 +126,28 @@ def test_audit_writes_its_pages_and_prints_the_verdict(tmp_path, capsys):
     page = (tmp_path / "audit" / "audit.html").read_text()
     assert "Cautions" in page and "http" not in page.replace("http-equiv", "")
     assert (tmp_path / "audit" / "audit.md").exists()
+
+
+def test_the_audit_page_states_its_verdict_once_over_headed_tables(tmp_path, capsys):
+    study = _files(tmp_path)
+    assert _audit(tmp_path, study) == 0
+    (verdict,) = [line for line in capsys.readouterr().out.splitlines() if "verdict" in line]
+    page = (tmp_path / "audit" / "audit.html").read_text()
+    assert page.count(html.escape(verdict)) == 1 and '<p class="verdict">' in page
+    assert "<thead><tr><th>finding</th><th>value</th>" in page
+    assert "<th>landscape</th><th>kind</th><th>rank agreement</th>" in page
+    assert page.count("<table>") == page.count('download="') == 2
+    assert "<li>" not in page.split("<h2>Cautions</h2>")[0]
+
+
+def test_audit_with_json_and_out_prints_the_json_and_writes_the_page(tmp_path, capsys):
+    study = _files(tmp_path)
+    assert _audit(tmp_path, study, "--json") == 0
+    printed = capsys.readouterr()
+    # stdout is the JSON alone; where the page went is said on stderr.
+    assert json.loads(printed.out)["verdict"]
+    assert f"audit: {tmp_path / 'audit' / 'audit.html'}" in printed.err
+    assert (tmp_path / "audit" / "audit.html").exists()
 
 
 def test_a_grid_of_another_study_is_refused(tmp_path, capsys):

@@ -3,6 +3,7 @@ classifiers beside the grid, answers the next evaluation from them, and checks i
 before any training."""
 
 import json
+import re
 import textwrap
 
 import numpy as np
@@ -149,3 +150,20 @@ def test_a_cache_file_not_signed_by_this_user_is_never_unpickled(tmp_path, monke
     # The user's own file round-trips.
     assert cache.save(tmp_path, key, None) is not None
     assert cache.load(tmp_path, key) is None  # not a Monitor: refused after verifying
+
+
+def test_monitor_with_json_and_out_writes_a_page_of_headed_tables(small_grid, tmp_path, capsys):
+    out = tmp_path / "page"
+    assert _monitor(small_grid, _live(small_grid, 5), "--out", str(out)) == 0
+    printed = capsys.readouterr()
+    advice = json.loads(printed.out)
+    assert f"monitor: {out / 'monitor.html'}" in printed.err
+    page = (out / "monitor.html").read_text()
+    # The advice once, as the verdict; the readings under their column headings.
+    assert page.count("; advice: ") == 1 and '<p class="verdict">after evaluation 5' in page
+    heads = re.findall(r"<thead><tr>(.*?)</tr></thead>", page)
+    assert heads[0].startswith("<th>t</th><th>accuracy</th><th>base accuracy</th>")
+    names = [f"<th>p({d})</th>" for d in advice["distortions"]]
+    assert heads[1] == "<th>t</th>" + "".join(names) + "<th>cheapest action</th><th>sure</th>"
+    rows = page.split("monitor_readings.csv")[0].rsplit("<tbody>", 1)[1]
+    assert rows.count("<tr>") == len(advice["steps"])

@@ -200,8 +200,8 @@ def table(
     right-aligned (None: none)."""
     rows = list(rows)
     attr = f' class="{cls}"' if cls else ""
-    out = [f"<table{attr}>", "<thead><tr>" + "".join(f"<th>{escape(h)}</th>" for h in head)]
-    out.append("</tr></thead><tbody>")
+    heads = "".join(f"<th>{escape(h)}</th>" for h in head)
+    out = [f"<table{attr}>", f"<thead><tr>{heads}</tr></thead><tbody>"]
     for row in rows:
         if isinstance(row, Group):
             out.append(f'<tr class="group"><th colspan="{len(head)}">{escape(row)}</th></tr>')
