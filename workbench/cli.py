@@ -576,7 +576,7 @@ def build_parser() -> argparse.ArgumentParser:
         p.add_argument(
             "--out", default=None, help=f"output folder (default results/<study>/{name})"
         )
-        p.add_argument("--json", action="store_true", help="print one JSON object")
+        p.add_argument("--json", action="store_true", help="print JSON (the pages too with --out)")
         if name == "audit":
             p.add_argument("--top", type=float, default=None, help="share of the data that is good")
         else:
