@@ -88,8 +88,12 @@
     return [quantile(v, alpha), quantile(v, 1 - alpha)];
   }
 
-  const fmt = (v) =>
-    !Number.isFinite(v) ? String(v) : Math.abs(v) >= 1000 ? v.toFixed(0) : String(Number(v.toPrecision(3)));
+  // Three significant digits, as the rest of the page (report/content.py: num).
+  function fmt(v) {
+    if (!Number.isFinite(v)) return String(v);
+    return Math.abs(v) >= 1000 ? v.toFixed(0) : String(Number(v.toPrecision(3)));
+  }
+  // A word for a POSIX shell: as it is when safe, else in single quotes.
   const shellWord = (s) => (/^[\w.,=:/+-]+$/.test(s) ? s : "'" + s.replace(/'/g, "'\\''") + "'");
 
   function readInputs(cls) {
@@ -99,6 +103,7 @@
   function update() {
     const rule = byId("rule").value;
     const level = Number(byId("level").value);
+    byId("level").disabled = rule !== "cvar";
     const dw = readInputs("w-d"), lwIn = readInputs("w-l");
     const note = byId("live-note");
     const w = normalise(dw);
@@ -120,22 +125,30 @@
     const best = order[0], [lo, hi] = interval(best, lw, w, rule, level);
     const choice = byId("live-choice");
     choice.textContent = D.settings[best];
-    Object.assign(choice.dataset, { setting: D.settings[best], value: shown[best], low: lo, high: hi });
-    const level95 = Math.round(100 * D.confidence) + " %";
+    // Full precision for whoever reads the page's numbers (the browser test does).
+    Object.assign(choice.dataset, { setting: D.settings[best], value: shown[best] });
+    Object.assign(choice.dataset, { low: lo, high: hi });
+    const conf = Math.round(100 * D.confidence) + " %";
     byId("live-value").textContent = `${D.metric}: ${fmt(shown[best])} ${D.unit} ` +
-      `(${level95} interval ${fmt(lo)} to ${fmt(hi)}; recomputed in the browser)`;
+      `(${conf} interval ${fmt(lo)} to ${fmt(hi)}; recomputed in the browser)`;
     const runner = byId("live-runner");
     if (S > 1) {
       const r = order[1], [rlo, rhi] = interval(r, lw, w, rule, level);
-      runner.textContent = `runner-up: ${D.settings[r]}: ${fmt(shown[r])} (${fmt(rlo)} to ${fmt(rhi)})`;
+      runner.textContent =
+        `runner-up: ${D.settings[r]}: ${fmt(shown[r])} (${fmt(rlo)} to ${fmt(rhi)})`;
       runner.dataset.setting = D.settings[r];
     }
-    const rows = order.map((s, i) =>
-      `<tr><td>${i + 1}</td><td></td><td class="n">${fmt(score[s])}</td><td class="n">${fmt(shown[s])}</td></tr>`);
+    // The ranking: built from numbers, the settings' names set as text (never as markup).
+    const rows = order.map((s, i) => `<tr><td>${i + 1}</td><td></td>` +
+      `<td class="n">${fmt(score[s])}</td><td class="n">${fmt(shown[s])}</td></tr>`);
     const table = byId("live-ranking");
-    table.innerHTML = `<thead><tr><th>rank</th><th>setting</th><th>score (${D.score})</th>` +
-      `<th>${D.metric}</th></tr></thead><tbody>${rows.join("")}</tbody>`;
-    table.querySelectorAll("tbody tr").forEach((tr, i) => { tr.cells[1].textContent = D.settings[order[i]]; });
+    table.innerHTML = "<thead><tr><th>rank</th><th>setting</th><th>score</th><th></th></tr>" +
+      `</thead><tbody>${rows.join("")}</tbody>`;
+    table.tHead.rows[0].cells[2].textContent = `score (${D.score})`;
+    table.tHead.rows[0].cells[3].textContent = D.metric;
+    table.querySelectorAll("tbody tr").forEach((tr, i) => {
+      tr.cells[1].textContent = D.settings[order[i]];
+    });
     const pairs = (names, v) => names.map((n, i) => `${n}=${v[i]}`).join(",");
     const parts = [D.command, "--rule", rule, "--weights", shellWord(pairs(D.distortions, dw))];
     if (rule === "cvar") parts.push("--level", String(level));

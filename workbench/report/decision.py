@@ -143,9 +143,9 @@ def decision_section(data: dict) -> list[str]:
         "(exact, as <code>workbench decide</code> prints it). The numbers inside this box are "
         "recomputed by the script of this page, in your browser, from the per-setting, "
         "per-landscape and per-distortion means embedded in it: the choice, the value and the "
-        "ranking with the same formulas as Python (they agree to the last digits of a double), "
-        f"the {level} interval from the same bootstrap draws of the replicates (the same "
-        "seed; it may differ from Python's in the last digits). Stability and the choice "
+        "ranking with Python's formulas, adding in Python's order (the same numbers the command "
+        f"prints), the {level} interval from the same bootstrap draws of the replicates (the "
+        "same seed; it may differ from Python's in the last digits). Stability and the choice "
         "without each landscape are Python's only: run the command below for them. Weights "
         "need not sum to 1; each set is divided by its sum.</p>",
         "<noscript><p>This box needs JavaScript; the rest of the page does not.</p></noscript>",
