@@ -83,7 +83,7 @@ def _html(
         '<div class="answer">',
         '<p class="choice" id="recommendation">Use '
         f"<strong>{escape(choice_words(c.rec.choice, c.ds))}</strong>.</p>",
-        page.table(["", ""], answer_rows(c), "answer", numeric_from=None, cls="kv"),
+        page.table(["", "the answer"], answer_rows(c), "answer", numeric_from=None, cls="kv"),
         '<p id="risk"><strong>Risk of a misleading belief.</strong> '
         f"{escape(risk_paragraph(c))}</p>",
         "</div>",

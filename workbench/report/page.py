@@ -53,7 +53,8 @@ th { border-bottom: 2px solid #666; font-weight: bold; }
 td.n { text-align: right; white-space: nowrap; font-variant-numeric: tabular-nums; }
 td.n span { display: block; color: #555; font-size: 0.8rem; }
 tr.group th { background: #eeede8; border-bottom: 1px solid #999; font-style: italic; }
-table.kv th { border-bottom: 1px solid #ccc; width: 12rem; }
+table.kv { width: 100%; }
+table.kv td:first-child { width: 12rem; font-weight: bold; }
 p.csv { font-size: 0.8rem; margin: 0 0 1rem 0; }
 pre { background: #f6f6f6; padding: 0.6em; overflow-x: auto; }
 figure { margin: 1.4rem 0; }
@@ -63,6 +64,7 @@ ul li { margin-bottom: 0.35rem; }
 fieldset { border: 1px solid #ccc; margin: 0.5rem 0; }
 input[type=number] { width: 6rem; }
 .browser { border: 1px dashed #888; padding: 0.4rem 1rem 1rem 1rem; }
+.browser pre { white-space: pre-wrap; overflow-wrap: anywhere; }
 """
 
 # The pages that link to each other, by file name (a report for another rule is report-RULE).
