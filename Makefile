@@ -52,12 +52,13 @@ test-oldest: $(OLDEST_STAMP)
 	  tests/engine tests/world tests/study/test_spec.py tests/study/test_runner.py \
 	  tests/study/test_provenance.py
 
-# Headless Chromium renders the HTML report in tests/test_report.py (Debian's package).
+# Headless Chromium renders the HTML report in tests/report (Debian's packages): chromium for
+# the screenshot, chromium-driver (/usr/bin/chromedriver) for the decision page's WebDriver test.
 chromium:
-	@command -v chromium >/dev/null || { \
+	@{ command -v chromium >/dev/null && command -v chromedriver >/dev/null; } || { \
 	  if [ "$$(id -u)" = 0 ]; then SUDO=; else SUDO=sudo; fi; \
-	  $$SUDO apt-get update -qq && $$SUDO apt-get install -y -qq chromium; \
-	} || echo "chromium could not be installed: the report rendering test will be skipped"
+	  $$SUDO apt-get update -qq && $$SUDO apt-get install -y -qq chromium chromium-driver; \
+	} || echo "chromium could not be installed: the report's browser tests will be skipped"
 
 format: $(STAMP)
 	$(BIN)/ruff format workbench tests benchmarks docs

@@ -215,7 +215,9 @@ def build_parser() -> argparse.ArgumentParser:
         p.add_argument(
             "--out", default=None, help=f"output folder (default: results/<study>/{name})"
         )
-        p.add_argument("--json", action="store_true", help="print one JSON object")
+        p.add_argument(
+            "--json", action="store_true", help="print one JSON object (the page is written too)"
+        )
         if name == "audit":
             p.add_argument(
                 "--top",

@@ -1,6 +1,7 @@
 """The audit: an exact belief passes, a belief on the worst point fails, and its measures agree
 with their definitions."""
 
+import html
 import json
 import textwrap
 from pathlib import Path
@@ -127,6 +128,28 @@ def test_audit_writes_its_pages_and_prints_the_verdict(tmp_path, capsys):
     assert (tmp_path / "audit" / "audit.md").exists()
 
 
+def test_the_audit_page_states_its_verdict_once_over_headed_tables(tmp_path, capsys):
+    study = _files(tmp_path)
+    assert _audit(tmp_path, study) == 0
+    (verdict,) = [line for line in capsys.readouterr().out.splitlines() if "verdict" in line]
+    page = (tmp_path / "audit" / "audit.html").read_text()
+    assert page.count(html.escape(verdict)) == 1 and '<p class="verdict">' in page
+    assert "<thead><tr><th>finding</th><th>value</th>" in page
+    assert "<th>landscape</th><th>kind</th><th>rank agreement</th>" in page
+    assert page.count("<table>") == page.count('download="') == 2
+    assert "<li>" not in page.split("<h2>Cautions</h2>")[0]
+
+
+def test_audit_with_json_and_out_prints_the_json_and_writes_the_page(tmp_path, capsys):
+    study = _files(tmp_path)
+    assert _audit(tmp_path, study, "--json") == 0
+    printed = capsys.readouterr()
+    # stdout is the JSON alone; where the page went is said on stderr.
+    assert json.loads(printed.out)["verdict"]
+    assert f"audit: {tmp_path / 'audit' / 'audit.html'}" in printed.err
+    assert (tmp_path / "audit" / "audit.html").exists()
+
+
 def test_a_grid_of_another_study_is_refused(tmp_path, capsys):
     study, other = _files(tmp_path, 1), _files(tmp_path, 2)
     assert main(["run", str(other), "--out", str(tmp_path / "g"), "--quiet", "--jobs", "1"]) == 0
@@ -175,8 +198,9 @@ def _cube(dim):
 def test_the_demo_bakes_keep_their_verdict_and_name_their_response(tmp_path, capsys):
     studies = Path(__file__).parents[2] / "studies"
     argv = ["audit", str(studies / "demo.toml"), "--data", str(studies / "bakery-history.csv")]
-    assert main([*argv, "--json"]) == 0
+    assert main([*argv, "--json", "--out", str(tmp_path / "audit")]) == 0
     out = json.loads(capsys.readouterr().out)
+    assert (tmp_path / "audit" / "audit.html").is_file()  # --json writes the page too
     assert list(out)[:3] == ["response", "goal", "goal_source"]
     assert (out["response"], out["goal"]) == ("crumb_score", "maximise")
     assert out["support"]["enough"] and out["verdict"] == "consistent"
@@ -192,6 +216,7 @@ def test_a_response_to_maximise_is_never_silently_minimised(tmp_path, capsys):
     body = "\n".join(f"{a:.4f},{b:.4f},{v:.5f}" for (a, b), v in zip(X, acc, strict=True))
     data.write_text("x1,x2,accuracy\n" + body + "\n")
     argv = ["audit", str(study), "--data", str(data), "--response", "accuracy", "--json"]
+    argv += ["--out", str(tmp_path / "audit")]
     # The study names no goal: without --goal the audit refuses instead of minimising.
     assert main(argv) == 2
     err = capsys.readouterr().err.strip()

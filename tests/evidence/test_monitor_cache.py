@@ -3,6 +3,7 @@ classifiers beside the grid, answers the next evaluation from them, and checks i
 before any training."""
 
 import json
+import re
 import textwrap
 
 import numpy as np
@@ -55,6 +56,8 @@ def _live(root, rows: int):
 def _monitor(root, live, *extra):
     argv = ["monitor", str(root / "s.toml"), "--observations", str(live), "--grid"]
     argv += [str(root / "g"), "--response", "y", "--goal", "minimise", "--json", *extra]
+    if "--out" not in extra:  # --json writes the page too: keep it out of the working folder
+        argv += ["--out", str(root / "monitor-page")]
     return main([*argv, "--setting", SETTING])
 
 
@@ -220,3 +223,20 @@ def test_audit_and_monitor_name_a_distortion_in_the_same_words_and_say_why_they_
     # And each says, in one line and the same words, why the other may name another one.
     assert audit_out.count(wording.WHY_THEY_DIFFER) == 1
     assert monitor_out.count(wording.WHY_THEY_DIFFER) == 1
+
+
+def test_monitor_with_json_and_out_writes_a_page_of_headed_tables(small_grid, tmp_path, capsys):
+    out = tmp_path / "page"
+    assert _monitor(small_grid, _live(small_grid, 5), "--out", str(out)) == 0
+    printed = capsys.readouterr()
+    advice = json.loads(printed.out)
+    assert f"monitor: {out / 'monitor.html'}" in printed.err
+    page = (out / "monitor.html").read_text()
+    # The advice once, as the verdict; the readings under their column headings.
+    assert page.count("; advice: ") == 1 and '<p class="verdict">after evaluation 5' in page
+    heads = re.findall(r"<thead><tr>(.*?)</tr></thead>", page)
+    assert heads[0].startswith("<th>t</th><th>accuracy</th><th>base accuracy</th>")
+    names = [f"<th>p({d})</th>" for d in advice["distortions"]]
+    assert heads[1] == "<th>t</th>" + "".join(names) + "<th>cheapest action</th><th>sure</th>"
+    rows = page.split("monitor_readings.csv")[0].rsplit("<tbody>", 1)[1]
+    assert rows.count("<tr>") == len(advice["steps"])

@@ -12,6 +12,7 @@ import pytest
 
 from workbench import plan as pl
 from workbench.cli import main
+from workbench.report.page import STYLE
 from workbench.study import grid
 from workbench.study.runner import run_study
 from workbench.study.spec import load, parse_text
@@ -166,8 +167,12 @@ def test_plan_page_is_self_contained_and_escapes_user_strings(tiny_capped):
     *_, folder = tiny_capped
     page = (folder / "plan.html").read_text(encoding="utf-8")
     assert "<script" not in page.lower()
+    assert f"<style>{STYLE}</style>" in page  # the report's, audit's and monitor's style
     assert "&lt;script&gt;alert(&#x27;x&#x27;)&lt;/script&gt; &amp; co" in page
-    assert not re.search(r"(href|src)\s*=|https?://|@import", page)
+    assert not re.search(r"src\s*=|https?://|@import", page)
+    # The only links: the tables' CSV inside the page, and the pages beside it.
+    for href in re.findall(r'href="([^"]*)"', page):
+        assert href.startswith("data:text/csv") or re.fullmatch(r"[\w./-]+\.html", href)
 
 
 @pytest.mark.parametrize(

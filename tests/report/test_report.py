@@ -115,8 +115,11 @@ def test_report_writes_page_summary_and_figures_and_no_temporary_files(demo):
 
 
 def test_page_is_one_self_contained_file(page):
-    for forbidden in ("http://", "https://", 'src="//', "<script", "<link", "url("):
+    for forbidden in ("http://", "https://", 'src="//', "<link", "url(", "fetch("):
         assert forbidden not in page.lower()
+    # Its scripts are inline (the decision box's data and code): none has a source.
+    scripts = re.findall(r"<script[^>]*>", page)
+    assert scripts and all("src" not in s for s in scripts)
     sources = re.findall(r'<img [^>]*src="([^"]*)"', page)
     assert len(sources) == 4
     assert all(s.startswith("data:image/png;base64,") for s in sources)
@@ -164,9 +167,13 @@ def test_report_command_takes_the_decision_options(demo, tmp_path, capsys):
     code = cli.main(["report", str(tmp_path), "--rule", "minimax", "--draws", "100"])
     assert code == 0
     printed = capsys.readouterr().out
-    assert f"report: {tmp_path / 'report.html'}" in printed
-    page = (tmp_path / "report.html").read_text(encoding="utf-8")
+    # Another rule than the study's: its own files, the study's report is not overwritten.
+    assert f"report: {tmp_path / 'report-minimax.html'}" in printed
+    assert not (tmp_path / "report.html").exists()
+    page = (tmp_path / "report-minimax.html").read_text(encoding="utf-8")
     assert "at the worst distortion" in page
+    assert (tmp_path / "summary-minimax.md").exists()
+    assert len(list((tmp_path / "figures-minimax").glob("*.png"))) == 4
     assert cli.main(["report", str(tmp_path / "missing")]) == 2
     assert "grid.nc" in capsys.readouterr().err
 

@@ -148,7 +148,7 @@ def cmd_audit(args) -> int:
     )
     from ..validation import check_number
     from . import audit as au
-    from .pages import CAUTIONS, audit_lines, write_page
+    from .pages import audit_lines, audit_tables, write_page
 
     study = _study_with_space(args.study)
     ds = _study_grid(study, args.grid) if args.grid else None
@@ -196,10 +196,10 @@ def cmd_audit(args) -> int:
                 "landscapes": [_finite_or_none(asdict(r)) for r in table.rows],
             }
         print(json.dumps(out, indent=2, ensure_ascii=False))
-        return 0
-    print("\n".join(lines))
-    if table is not None:
-        print("\n".join(table_lines(table)))
+    else:
+        print("\n".join(lines))
+        if table is not None:
+            print("\n".join(table_lines(table)))
     out = Path(args.out) if args.out else Path("results") / study.name / "audit"
 
     def draw(axes, fig):
@@ -212,10 +212,19 @@ def cmd_audit(args) -> int:
         f"Audit of the belief: {study.title}",
         lines,
         _figure_png(draw, study.space.dim),
+        audit_tables(lines, table),
     )
-    print(f"audit: {page} and {md.name}")
-    print(" ".join(CAUTIONS))
+    _say_written("audit", page, md, args.json)
     return 0
+
+
+def _say_written(what: str, page: Path, md: Path, to_json: bool) -> None:
+    """Where the page went, and the cautions; on stderr when stdout carries the JSON."""
+    from .pages import CAUTIONS
+
+    stream = sys.stderr if to_json else sys.stdout
+    print(f"{what}: {page} and {md.name}", file=stream)
+    print(" ".join(CAUTIONS), file=stream)
 
 
 def monitor_steps(study) -> list[int]:
@@ -259,7 +268,7 @@ def cmd_monitor(args) -> int:
     from ..engine.strategies import DEFAULT_QUANTILE
     from . import cache
     from . import monitor as mo
-    from .pages import CAUTIONS, monitor_lines, write_page
+    from .pages import monitor_lines, monitor_tables, write_page
 
     # Every argument is checked before the training, which is the only slow part.
     study = _study_with_space(args.study)
@@ -300,9 +309,9 @@ def cmd_monitor(args) -> int:
         out["training_seconds"] = None if training is None else round(training, 2)
         out["validation"] = json.loads(monitor.validation.to_dataframe().to_json(orient="index"))
         print(json.dumps(out, indent=2, ensure_ascii=False))
-        return 0
     lines = monitor_lines(monitor, advice, args.observations, seconds, cached)
-    print("\n".join(lines))
+    if not args.json:
+        print("\n".join(lines))
     out = Path(args.out) if args.out else Path("results") / study.name / "monitor"
 
     def draw(axes, fig):
@@ -313,7 +322,7 @@ def cmd_monitor(args) -> int:
         fig.suptitle(mpl_text(heading), fontsize="medium")
 
     title = f"Monitor of the live campaign: {study.title}"
-    md, page = write_page(out, "monitor", title, lines, _figure_png(draw, 1))
-    print(f"monitor: {page} and {md.name}")
-    print(" ".join(CAUTIONS))
+    tables = monitor_tables(monitor, advice)
+    md, page = write_page(out, "monitor", title, lines, _figure_png(draw, 1), tables)
+    _say_written("monitor", page, md, args.json)
     return 0

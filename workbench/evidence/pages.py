@@ -1,22 +1,34 @@
 """The audit's and the monitor's words and pages: plain lines for the terminal, Markdown and a
-self-contained HTML page (figure embedded, no external reference, every user string escaped)."""
+self-contained HTML page (the verdict once, headed tables with CSV downloads, figure embedded,
+no external reference, every user string escaped; the style and the links to the other pages
+are :mod:`workbench.report.page`'s)."""
 
 from __future__ import annotations
 
 import base64
 import html
+from dataclasses import dataclass
 from pathlib import Path
 
 import numpy as np
 
+from ..report import page
 from ..report.markup import md_text
-from ..storage import write_text
+from ..storage import atomic_path, write_text
 from ..world.history import MAX_FIT_ROWS
 from ..world.space import Space
 from .audit import CONSISTENT_AT, CONTRADICTED_BELOW, FAR_FROM_DATA, Audit
 from .wording import WHY_THEY_DIFFER
 
-__all__ = ["CAUTIONS", "audit_lines", "monitor_lines", "write_page"]
+__all__ = [
+    "CAUTIONS",
+    "PageTable",
+    "audit_lines",
+    "audit_tables",
+    "monitor_lines",
+    "monitor_tables",
+    "write_page",
+]
 
 CAUTIONS = (
     "This rests on a simulation and on a Gaussian-process model of your data; both can be wrong "
@@ -126,43 +138,153 @@ def monitor_lines(monitor, advice, data: str, seconds: float, cached: bool = Fal
     return lines
 
 
-_STYLE = (
-    "body{font-family:system-ui,sans-serif;max-width:60rem;margin:2rem auto;padding:0 1rem;"
-    "line-height:1.45;color:#222}img{max-width:100%}li{margin:.3rem 0}"
-    ".verdict{font-size:1.2rem;font-weight:600}"
-)
+@dataclass(frozen=True)
+class PageTable:
+    """A headed table of a page: its heading, a sentence saying how to read it, the column
+    names, the rows and the CSV file's name."""
+
+    heading: str
+    words: str
+    head: tuple[str, ...]
+    rows: tuple[tuple, ...]
+    name: str
+
+
+def _finding(line: str) -> tuple[str, str]:
+    what, sep, value = line.partition(": ")
+    return (what, value) if sep else (line, "")
+
+
+def audit_tables(lines: list[str], table=None) -> list[PageTable]:
+    """The audit's page tables: its findings (every line after the first two, the source and
+    the verdict, split into finding and value) and, when there are earlier evaluations, how
+    well each landscape explains them (a :class:`~workbench.study.resemblance.ResemblanceTable`)."""
+    out = [
+        PageTable(
+            "What the data say",
+            "Each finding of the audit, as the terminal prints it.",
+            ("finding", "value"),
+            tuple(_finding(line) for line in lines[2:]),
+            "audit_findings",
+        )
+    ]
+    if table is not None:
+        level = f"{100 * table.level:.0f} %"
+        out.append(
+            PageTable(
+                "How well each landscape explains the earlier evaluations",
+                f"Rank agreement of each landscape with {table.source}, with its {level} "
+                "interval; the log likelihood per point of the data under the landscape.",
+                (
+                    "landscape",
+                    "kind",
+                    "rank agreement",
+                    f"{level} interval",
+                    "log lik./point",
+                    "measure",
+                ),
+                tuple(
+                    (
+                        r.landscape,
+                        r.kind,
+                        f"{r.estimate:.3g}",
+                        f"{r.low:.3g} to {r.high:.3g}",
+                        f"{r.likelihood:.3g}",
+                        r.how,
+                    )
+                    for r in table.rows
+                ),
+                "resemblance",
+            )
+        )
+    return out
+
+
+def monitor_tables(monitor, advice) -> list[PageTable]:
+    """The monitor's page tables: the validation per t and the reading after each evaluation."""
+    v = monitor.validation
+    validation = tuple(
+        (
+            int(step),
+            f"{float(v['accuracy'][k]):.2f}",
+            f"{float(v['base_accuracy'][k]):.2f}",
+            f"{float(v['brier'][k]):.3f}",
+            f"{float(v['base_brier'][k]):.3f}",
+            str(v["model"].values[k]),
+        )
+        for k, step in enumerate(v["step"].values)
+    )
+    reading = tuple(
+        (
+            int(t),
+            *(f"{p:.2f}" for p in advice.probabilities[k]),
+            advice.best_action[k],
+            f"{advice.confidence[k]:.0%}",
+        )
+        for k, t in enumerate(advice.t)
+    )
+    return [
+        PageTable(
+            "Validation on held-out replicates of the grid",
+            f"{v.attrs['campaigns']} campaigns, {v.attrs['replicates']} replicates: per t, "
+            "accuracy against the base rate and Brier score against the base rate's (lower is "
+            "better).",
+            ("t", "accuracy", "base accuracy", "Brier", "base Brier", "classifier"),
+            validation,
+            "monitor_validation",
+        ),
+        PageTable(
+            "After each evaluation",
+            "The probability of each distortion given the live campaign so far, the cheapest "
+            "action and how sure that is (the probability of the distortions under which it is "
+            "the cheapest). Expected cost = the grid's mean evaluations to target of each "
+            "action's setting, weighted by the probabilities; a switch is costed as a whole "
+            "campaign of that decay.",
+            ("t", *(f"p({d})" for d in advice.distortions), "cheapest action", "sure"),
+            reading,
+            "monitor_readings",
+        ),
+    ]
 
 
 def write_page(
-    out: Path, stem: str, title: str, lines: list[str], png: bytes | None
+    out: Path,
+    stem: str,
+    title: str,
+    lines: list[str],
+    png: bytes | None,
+    tables: list[PageTable] = (),
 ) -> tuple[Path, Path]:
-    """Write ``stem.md`` and ``stem.html`` (figure ``stem.png`` beside and embedded)."""
+    """Write ``stem.md`` and ``stem.html`` (figure ``stem.png`` beside and embedded): the
+    first line (what was read) as a paragraph, the second (the verdict or the advice) once,
+    then ``tables`` headed and each with its CSV download, the figure and the cautions. The
+    page has the shared style and links of :mod:`workbench.report.page`."""
     figure = out / f"{stem}.png"
     if png is not None:
-        from ..storage import atomic_path
-
         with atomic_path(figure) as tmp:
             tmp.write_bytes(png)
-    md = [f"# {md_text(title)}", "", *(f"- {md_text(line)}" for line in lines), ""]
+    source, verdict = lines[0], lines[1] if len(lines) > 1 else ""
+    md = [f"# {md_text(title)}", "", md_text(source), "", f"**{md_text(verdict)}**", ""]
+    for t in tables:
+        md += [f"## {md_text(t.heading)}", "", md_text(t.words), ""]
+        md.append("| " + " | ".join(md_text(h) for h in t.head) + " |")
+        md.append("|" + "|".join(" --- " for _ in t.head) + "|")
+        md += ["| " + " | ".join(md_text(v) for v in row) + " |" for row in t.rows] + [""]
     if png is not None:
         md += [f"![{md_text(title)}]({figure.name})", ""]
     md += ["## Cautions", "", *(f"- {md_text(c)}" for c in CAUTIONS), ""]
-    page = [
-        "<!DOCTYPE html>",
-        '<html lang="en"><head><meta charset="utf-8">',
-        f"<title>{html.escape(title)}</title><style>{_STYLE}</style></head><body>",
-        f"<h1>{html.escape(title)}</h1>",
-        f'<p class="verdict">{html.escape(lines[1] if len(lines) > 1 else "")}</p>',
-        "<ul>",
-        *(f"<li>{html.escape(line)}</li>" for line in lines),
-        "</ul>",
-    ]
+    e = html.escape
+    path = out / f"{stem}.html"
+    body = [*page.head(title, path), f"<p>{e(source)}</p>", f'<p class="verdict">{e(verdict)}</p>']
+    for t in tables:
+        body += [f"<h2>{e(t.heading)}</h2>", f"<p>{e(t.words)}</p>"]
+        body.append(page.table(t.head, t.rows, t.name, numeric_from=None))
     if png is not None:
         data = base64.b64encode(png).decode("ascii")
-        page.append(f'<img alt="{html.escape(title)}" src="data:image/png;base64,{data}">')
-    page += ["<h2>Cautions</h2>", "<ul>", *(f"<li>{html.escape(c)}</li>" for c in CAUTIONS)]
-    page += ["</ul>", "</body></html>"]
+        body.append(f'<figure><img alt="{e(title)}" src="data:image/png;base64,{data}"></figure>')
+    body += ["<h2>Cautions</h2>", "<ul>", *(f"<li>{e(c)}</li>" for c in CAUTIONS)]
+    body += ["</ul>", "</body></html>"]
     return (
         write_text(out / f"{stem}.md", "\n".join(md)),
-        write_text(out / f"{stem}.html", "\n".join(page) + "\n"),
+        page.write_page_linked(path, "\n".join(body) + "\n"),
     )

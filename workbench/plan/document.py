@@ -18,6 +18,7 @@ from pathlib import Path
 
 from .. import __version__
 from ..engine.strategies import uses_quantile
+from ..report import page
 from ..report.markup import md_code, md_text
 from ..storage import write_text
 from ..study.cost import duration, size
@@ -150,8 +151,8 @@ def write_plan(plan: Plan, out: str | Path | None = None) -> tuple[Path, Path]:
     each atomically; returns their paths."""
     folder = Path(out) if out is not None else plan.out
     md = write_text(folder / PLAN_MD, plan.markdown())
-    page = write_text(folder / PLAN_HTML, plan.html())
-    return md, page
+    html_path = page.write_page_linked(folder / PLAN_HTML, _html(plan, folder / PLAN_HTML))
+    return md, html_path
 
 
 # --------------------------------------------------------------------------- words
@@ -601,45 +602,26 @@ def _markdown(plan: Plan) -> str:
     return "\n".join(lines).rstrip() + "\n"
 
 
-_STYLE = """
-body { font-family: system-ui, sans-serif; max-width: 58em; margin: 2em auto; padding: 0 1em;
-       line-height: 1.45; color: #222; }
-h1 { font-size: 1.5em; } h2 { font-size: 1.2em; margin-top: 1.6em; }
-table { border-collapse: collapse; margin: 0.6em 0; }
-th, td { border: 1px solid #ccc; padding: 0.25em 0.6em; text-align: left; }
-th { background: #f2f2f2; }
-pre { background: #f6f6f6; padding: 0.6em; overflow-x: auto; }
-.warning { border-left: 4px solid #c60; background: #fff4e8; padding: 0.5em 0.8em; }
-"""
+def _slug(text: str) -> str:
+    return re.sub(r"[^a-z0-9]+", "_", text.lower()).strip("_") or "table"
 
 
-def _html(plan: Plan) -> str:
+def _html(plan: Plan, path: Path | None = None) -> str:
+    """The plan as a page (the shared style and links of :mod:`workbench.report.page`); every
+    table with its CSV download."""
     e = html.escape
-    out = [
-        "<!DOCTYPE html>",
-        '<html lang="en">',
-        "<head>",
-        '<meta charset="utf-8">',
-        f"<title>{e(plan.title)}</title>",
-        f"<style>{_STYLE}</style>",
-        "</head>",
-        "<body>",
-        f"<h1>{e(plan.title)}</h1>",
-    ]
+    out = page.head(plan.title, path or plan.out / PLAN_HTML)
     out += [f"<p>{e(para)}</p>" for para in _head(plan)]
     for sec in plan.sections:
         out.append(f"<h2>{e(sec.title)}</h2>")
-        for b in sec.blocks:
+        for k, b in enumerate(sec.blocks):
             if b.kind == "p":
                 out.append(f"<p>{e(b.text)}</p>")
             elif b.kind == "ul":
                 out.append("<ul>" + "".join(f"<li>{e(i)}</li>" for i in b.items) + "</ul>")
             elif b.kind == "table":
-                head = "".join(f"<th>{e(h)}</th>" for h in b.header)
-                body = "".join(
-                    "<tr>" + "".join(f"<td>{e(v)}</td>" for v in row) + "</tr>" for row in b.rows
-                )
-                out.append(f"<table><thead><tr>{head}</tr></thead><tbody>{body}</tbody></table>")
+                name = _slug(sec.title) + (f"_{k}" if k else "")
+                out.append(page.table(b.header, b.rows, name, numeric_from=None))
             elif b.kind == "code":
                 out.append(f"<pre><code>{e(b.text)}</code></pre>")
             else:

@@ -14,10 +14,12 @@ import xarray as xr
 from .. import analysis as an
 from ..analysis.transfer_check import TransferCheck, transfer_from_grids
 from ..engine.strategies import uses_quantile
+from .page import Group
 
 REPORT = "report.html"
 SUMMARY = "summary.md"
 FIGURES = "figures"
+__all__ = ["Content", "Group", "ReportFiles", "compute_content"]
 DPI = 110
 
 DECAY_TEXT = {
@@ -75,10 +77,6 @@ def beyond_budget(budget: int):
         return f"> {budget}" if v is not None and math.isinf(float(v)) else num(v)
 
     return fmt
-
-
-class Group(str):
-    """A row of a table that heads a group of rows (a distortion)."""
 
 
 # --------------------------------------------------------------------------- computing

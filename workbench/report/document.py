@@ -1,10 +1,12 @@
 """The report of a grid: one self-contained HTML page, its figures as PNG files, and a Markdown
 summary, all written atomically into the results folder.
 
-The page opens with the answer (the recommendation and the risk of a misleading belief), then
-the figures, then the method and the cautions. It holds no external reference: figures are
-embedded as base64 PNG, the style sheet is inline, there are no scripts, and every string
-that comes from the user (titles, names, labels, units) is escaped.
+The page opens with the answer (the recommendation and the risk of a misleading belief) and a
+box where the reader changes the rule and the weights (:mod:`.decision`), then the figures,
+then the method and the cautions. It holds no external reference: figures are embedded as
+base64 PNG, the style sheet (:mod:`.page`, shared with the plan, audit and monitor pages) and
+the one script are inline, every table's CSV is a ``data:`` link, and every string that comes
+from the user (titles, names, labels, units) is escaped.
 """
 
 from __future__ import annotations
@@ -16,8 +18,10 @@ import xarray as xr
 
 from .. import analysis as an
 from ..analysis.dataset import GRID
+from ..analysis.recommendation import stored_decision
 from ..analysis.transfer_check import TRUTH_FOLDER
 from ..storage import atomic_path, write_text
+from . import page
 from .content import (
     FIGURES,
     REPORT,
@@ -29,6 +33,7 @@ from .content import (
     escape,
     pct,
 )
+from .decision import decision_data, decision_section
 from .markup import md_text
 from .panels import report_figures
 from .text import (
@@ -54,63 +59,21 @@ from .text import (
     truth_rows,
 )
 
-_STYLE = """
-body { font-family: Georgia, "Times New Roman", serif; color: #1e1e1e; background: #fff;
-  max-width: 64rem; margin: 2rem auto; padding: 0 1.2rem; line-height: 1.5; }
-h1 { font-size: 1.75rem; margin-bottom: 0.2rem; }
-h2 { font-size: 1.3rem; border-bottom: 1px solid #888; padding-bottom: 0.15rem;
-  margin-top: 2.2rem; }
-h3 { font-size: 1.08rem; margin-top: 1.6rem; }
-p.meta { color: #555; margin-top: 0; }
-.answer { border-left: 4px solid #333; background: #f5f4ef; padding: 0.6rem 1.1rem; }
-.answer p.choice { font-size: 1.2rem; margin: 0.3rem 0 0.6rem 0; }
-table { border-collapse: collapse; margin: 0.6rem 0 1rem 0; font-size: 0.86rem; }
-th, td { border-bottom: 1px solid #ccc; padding: 0.22rem 0.55rem; vertical-align: top; }
-th { text-align: left; border-bottom: 2px solid #666; font-weight: bold; }
-td.n { text-align: right; white-space: nowrap; font-variant-numeric: tabular-nums; }
-td.n span { display: block; color: #555; font-size: 0.8rem; }
-tr.group th { background: #eeede8; border-bottom: 1px solid #999; font-style: italic; }
-table.kv th { border-bottom: 1px solid #ccc; width: 12rem; }
-figure { margin: 1.4rem 0; }
-figure img { max-width: 100%; height: auto; border: 1px solid #ddd; }
-figcaption { font-size: 0.9rem; color: #333; margin-top: 0.3rem; }
-ul li { margin-bottom: 0.35rem; }
-"""
-
-__all__ = ["ReportFiles", "write_report"]
+__all__ = ["ReportFiles", "report_names", "write_report"]
 
 
-def _html_cell(v, numeric: bool) -> str:
-    cls = ' class="n"' if numeric else ""
-    if isinstance(v, tuple):
-        return f"<td{cls}>{escape(v[0])}<span>{escape(v[1])}</span></td>"
-    return f"<td{cls}>{escape(v)}</td>"
+def _table(head: list[str], rows: list, name: str, numeric_from: int = 1) -> str:
+    return page.table(head, rows, name, numeric_from)
 
 
-def _table(head: list[str], rows: list, numeric_from: int = 1) -> str:
-    out = ["<table>", "<tr>" + "".join(f"<th>{escape(h)}</th>" for h in head) + "</tr>"]
-    for row in rows:
-        if isinstance(row, Group):
-            out.append(f'<tr class="group"><th colspan="{len(head)}">{escape(row)}</th></tr>')
-            continue
-        out.append(
-            "<tr>" + "".join(_html_cell(v, j >= numeric_from) for j, v in enumerate(row)) + "</tr>"
-        )
-    out.append("</table>")
-    return "\n".join(out)
-
-
-def _html(c: Content, figures: list[tuple[str, str, str, bytes]]) -> str:
+def _html(
+    c: Content, figures: list[tuple[str, str, str, bytes]], path: Path, decision: dict
+) -> str:
     ds = c.ds
     level = pct(c.rs.level)
     metric_name = an.METRIC_NAMES[c.rule.metric][0]
     parts = [
-        "<!DOCTYPE html>",
-        '<html lang="en"><head><meta charset="utf-8">',
-        '<meta name="viewport" content="width=device-width, initial-scale=1">',
-        f"<title>{escape(ds.attrs.get('title', 'Report'))}</title>",
-        f"<style>{_STYLE}</style></head><body>",
-        f"<h1>{escape(ds.attrs.get('title', ''))}</h1>",
+        *page.head(ds.attrs.get("title", "Report"), path),
         f'<p class="meta">Study {escape(ds.attrs.get("study_name", ""))}: '
         f"{ds.sizes['landscape']} landscape(s), {ds.sizes['distortion']} distortions, "
         f"{ds.sizes['replicate']} replicates per grid cell, budget {escape(ds.attrs['budget'])} "
@@ -120,25 +83,24 @@ def _html(c: Content, figures: list[tuple[str, str, str, bytes]]) -> str:
         '<div class="answer">',
         '<p class="choice" id="recommendation">Use '
         f"<strong>{escape(choice_words(c.rec.choice, c.ds))}</strong>.</p>",
-        '<table class="kv">',
-        *(f"<tr><th>{escape(k)}</th><td>{escape(v)}</td></tr>" for k, v in answer_rows(c)),
-        "</table>",
+        page.table(["", "the answer"], answer_rows(c), "answer", numeric_from=None, cls="kv"),
         '<p id="risk"><strong>Risk of a misleading belief.</strong> '
         f"{escape(risk_paragraph(c))}</p>",
         "</div>",
+        *decision_section(decision),
         "<h3>The recommended setting, the runner-up and the baselines</h3>",
         f"<p>Means and medians over landscapes and replicates, per distortion; beneath each "
         f"value its {level} interval (bootstrap over replicates; Wilson for recovery). Speedup "
         f"and belief cost are against no belief. The belief's mode is the expert's best guess: "
         f"when the belief is exact it sits on the optimum, which cannot be beaten.</p>",
-        _table(SUMMARY_HEAD, summary_rows(c)),
+        _table(SUMMARY_HEAD, summary_rows(c), "summary"),
     ]
     head, rows = regret_rows(c)
     parts += [
         "<h3>Normalized regret at chosen budgets</h3>",
         f"<p>Median normalized regret after the stated number of evaluations, with {level} "
         f"bootstrap intervals.</p>",
-        _table(head, rows),
+        _table(head, rows, "regret_at_budgets"),
         "<h2>Figures</h2>",
     ]
     for _, title, caption, png in figures:
@@ -154,7 +116,7 @@ def _html(c: Content, figures: list[tuple[str, str, str, bytes]]) -> str:
         f"<p>Variance decomposition (the sums of squares of a balanced analysis of variance) of "
         f"{escape(metric_name)} per campaign over the factors of the grid, with {level} bootstrap "
         f"intervals of each share. {escape(effect_words)}</p>",
-        _table(["source", "sum of squares", "share of the total"], effect_rows),
+        _table(["source", "sum of squares", "share of the total"], effect_rows, "effects"),
     ]
     if c.transfer is not None:
         rows, words = transfer_rows(c)
@@ -163,7 +125,7 @@ def _html(c: Content, figures: list[tuple[str, str, str, bytes]]) -> str:
             f"<p>The setting the rule picks on each kind of landscape alone, and what the "
             f"setting picked on the textbook landscapes costs on the other kinds (its score "
             f"minus the kind's own choice's, paired, {level} interval). {escape(words)}</p>",
-            _table(TRANSFER_HEAD, rows, numeric_from=3),
+            _table(TRANSFER_HEAD, rows, "transfer_by_kind", numeric_from=3),
         ]
     if c.truth is not None:
         rows, by, words = truth_rows(c)
@@ -172,22 +134,22 @@ def _html(c: Content, figures: list[tuple[str, str, str, bytes]]) -> str:
             f"<p>The study's belief-guided settings, distortions and rule replayed on the truth "
             f"({c.truth.draws} bootstrap draws over the replicates of both grids, {level} "
             f"intervals). {escape(words)}</p>",
-            _table(TRUTH_HEAD, rows),
-            _table(TRUTH_LANDSCAPE_HEAD, by),
+            _table(TRUTH_HEAD, rows, "truth"),
+            _table(TRUTH_LANDSCAPE_HEAD, by, "truth_by_landscape"),
         ]
     if c.resemblance is not None:
         rows, words = resemblance_rows(c)
         parts += [
             "<h3>How well each landscape explains the earlier evaluations</h3>",
             f'<p id="resemblance">{escape(words)}</p>',
-            _table(RESEMBLANCE_HEAD, rows, numeric_from=3),
+            _table(RESEMBLANCE_HEAD, rows, "resemblance", numeric_from=3),
         ]
     head, rows = ranking_rows(c)
     parts += [
         "<h3>All belief-guided settings, ranked by the rule</h3>",
         f"<p>Score under the rule and mean {escape(metric_name)} per distortion, with {level} "
         f"intervals; lower is better.</p>",
-        _table(head, rows, numeric_from=2),
+        _table(head, rows, "ranking", numeric_from=2),
         "<h2>Method</h2>",
         "<p>Strategies simulated:</p>",
         "<ul>",
@@ -199,7 +161,7 @@ def _html(c: Content, figures: list[tuple[str, str, str, bytes]]) -> str:
         "range; the spread factor multiplies its width (below 1: overconfident); misplace puts "
         "the centre on the landscape's worst point or on a decoy optimum. Distance and mass are "
         "means over landscapes and replicates.</p>",
-        _table(DISTORTION_HEAD, distortion_rows(c)),
+        _table(DISTORTION_HEAD, distortion_rows(c), "distortions"),
         "<h2>Cautions</h2>",
         "<ul>",
         *(f"<li>{escape(t)}</li>" for t in CAUTIONS),
@@ -265,7 +227,7 @@ def _md_resemblance(c: Content) -> list[str]:
     ]
 
 
-def _markdown(c: Content, figures: list[tuple[str, str, str, bytes]]) -> str:
+def _markdown(c: Content, figures: list[tuple[str, str, str, bytes]], figures_dir: str) -> str:
     lines = [
         f"# {md_text(c.ds.attrs.get('title', 'Report'))}",
         "",
@@ -287,7 +249,7 @@ def _markdown(c: Content, figures: list[tuple[str, str, str, bytes]]) -> str:
         *_md_resemblance(c),
         "## Figures",
         "",
-        *(f"- {md_text(title)}: `{FIGURES}/{stem}.png`" for stem, title, _, _ in figures),
+        *(f"- {md_text(title)}: `{figures_dir}/{stem}.png`" for stem, title, _, _ in figures),
         "",
         "## Method",
         "",
@@ -302,6 +264,16 @@ def _markdown(c: Content, figures: list[tuple[str, str, str, bytes]]) -> str:
     return "\n".join(lines)
 
 
+def report_names(ds: xr.Dataset, rule: an.Rule) -> tuple[str, str, str]:
+    """The page, summary and figures folder names: ``report.html``, ``summary.md`` and
+    ``figures`` for the study's own rule; ``report-RULE.html``, ``summary-RULE.md`` and
+    ``figures-RULE`` for another rule, so that it does not overwrite the study's report."""
+    if rule.rule == stored_decision(ds)["rule"]:
+        return REPORT, SUMMARY, FIGURES
+    stem = f"-{rule.rule}"
+    return f"report{stem}.html", f"summary{stem}.md", f"{FIGURES}{stem}"
+
+
 def write_report(
     folder: str | Path,
     rule: an.Rule | None = None,
@@ -309,20 +281,26 @@ def write_report(
     ds: xr.Dataset | None = None,
 ) -> tuple[ReportFiles, an.Recommendation]:
     """Write ``report.html``, ``summary.md`` and ``figures/*.png`` into ``folder`` (which holds
-    grid.nc, unless ``ds`` is given); returns the files written and the recommendation."""
+    grid.nc, unless ``ds`` is given), named as :func:`report_names` says; returns the files
+    written and the recommendation. The page's links line is updated in the pages beside it."""
     folder = Path(folder)
     ds = ds if ds is not None else an.open_grid(folder)
     rule = rule or an.decision_rule(ds)
+    rs = resampling or an.Resampling()
     truth_grid = folder / TRUTH_FOLDER / GRID
     truth = an.open_grid(truth_grid) if truth_grid.is_file() else None
-    c = compute_content(ds, rule, resampling or an.Resampling(), truth)
+    c = compute_content(ds, rule, rs, truth)
     figures = report_figures(c)
+    report, summary_name, figures_dir = report_names(ds, rule)
     paths = []
     for stem, _, _, png in figures:
-        path = folder / FIGURES / f"{stem}.png"
+        path = folder / figures_dir / f"{stem}.png"
         with atomic_path(path) as tmp:
             tmp.write_bytes(png)
         paths.append(path)
-    page = write_text(folder / REPORT, _html(c, figures))
-    summary = write_text(folder / SUMMARY, _markdown(c, figures))
-    return ReportFiles(page, summary, tuple(paths)), c.rec
+    decision = decision_data(ds, rule, rs, c.rec, str(folder))
+    html_path = page.write_page_linked(
+        folder / report, _html(c, figures, folder / report, decision)
+    )
+    summary = write_text(folder / summary_name, _markdown(c, figures, figures_dir))
+    return ReportFiles(html_path, summary, tuple(paths)), c.rec
