@@ -22,6 +22,7 @@ from .dataset import (
     guided_only,
     landscape_kinds,
 )
+from .edges import Edge, edge_lines, edge_snippet, study_edges
 from .grid_metrics import campaign_metric
 from .standardise import over_landscapes, standardise
 from .statistics import Resampling, bootstrap
@@ -274,6 +275,7 @@ class Recommendation:
     leave_one_landscape_out: dict[str, str]
     scores: xr.Dataset = field(repr=False)
     resampling: Resampling = field(default_factory=Resampling)
+    edges: tuple[Edge, ...] = ()
 
     @property
     def setting(self) -> str:
@@ -307,7 +309,7 @@ class Recommendation:
         for landscape, choice in self.leave_one_landscape_out.items():
             same = "the same" if choice == self.setting else choice
             out.append(f"  without landscape {landscape}: {same}")
-        return out
+        return out + edge_lines(self.edges)
 
     def to_dict(self) -> dict:
         """Everything as plain JSON-ready values."""
@@ -332,6 +334,8 @@ class Recommendation:
                 k: {"setting": v, "same": v == self.setting}
                 for k, v in self.leave_one_landscape_out.items()
             },
+            edge_of_study=[e.to_dict() for e in self.edges],
+            edge_snippet=edge_snippet(self.edges) or None,
         )
         return json.loads(json.dumps(out, default=_plain))
 
@@ -419,4 +423,14 @@ def recommend(
         leave_one_landscape_out=lolo,
         scores=boot.drop_vars("distribution"),
         resampling=rs,
+        edges=study_edges(_studied(values), _factors(values, best)),
     )
+
+
+def _studied(values: xr.DataArray) -> list[dict]:
+    """The belief-guided settings of ``values`` as mappings of their factors."""
+    guided = np.flatnonzero(values["kind"].values == "guided") if "kind" in values.coords else []
+    return [
+        {k: values[k].values[i].item() for k in SETTING_FACTORS}
+        for i in (guided if len(guided) else range(values.sizes["setting"]))
+    ]
