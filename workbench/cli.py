@@ -202,7 +202,7 @@ def _progress(quiet: bool):
 
 
 def cmd_check(args) -> int:
-    from .study.cost import duration, probe
+    from .plan import CHECK_PILOT, PlanOptions, compute_estimate, run_pilot
     from .study.resemblance import resemblance_table, table_lines
     from .study.spec import load
 
@@ -211,16 +211,16 @@ def cmd_check(args) -> int:
     timed = [
         (e.label, e.spec.probe(s.belief.mode())) for e in s.landscapes if e.kind == "objective"
     ]
-    est = probe(s, jobs=args.jobs)
+    # The time: the plan's pilot (smaller) and the plan's estimate, so the two agree.
+    pilot = run_pilot(s, PlanOptions(pilot_replicates=CHECK_PILOT, jobs=args.jobs))
+    c = compute_estimate(s, pilot, s.replicates, jobs=args.jobs)
     print(f"study '{s.name}': {s.title}")
     for label, seconds in timed:
         print(f"objective {label}: {seconds * 1e3:.1f} ms per call at the belief's mode")
-    print(f"grid cells: {est.cells} (landscapes x distortions x strategy settings)")
-    print(f"campaigns: {est.campaigns} ({s.replicates} replicates per cell, baselines included)")
-    print(f"evaluations in total: {est.evaluations}")
+    print("\n".join(c.estimate.count_lines(s.replicates)))
     print(
-        f"estimated wall time on {est.jobs} worker(s): {duration(est.seconds)} "
-        f"(timing probe: {est.probe_campaigns} campaigns, {est.per_campaign:.3f} s each)"
+        f"estimated wall time: {c.time_words()} (pilot: {pilot.campaigns} campaigns, "
+        f"{c.estimate.per_campaign:.3f} s each on average; `workbench plan` runs a larger one)"
     )
     table = resemblance_table(s)
     if table is not None:
@@ -329,9 +329,9 @@ def cmd_plan(args) -> int:
         print(f"  warning: {plan.warning}")
         print(f"workbench: warning: {plan.warning}", file=sys.stderr)
     print(
-        f"time: {c.estimate.campaigns} campaigns, {c.estimate.evaluations} evaluations: about "
-        f"{duration(c.local)} here ({c.estimate.jobs} processes), {duration(c.cluster)} on "
-        f"{c.workers} Dask workers; disk about {size(c.disk_bytes)}"
+        f"time: {c.estimate.campaigns} campaigns, {c.estimate.evaluations} evaluations: "
+        f"{c.time_words()}; {duration(c.cluster)} on {c.workers} Dask workers; disk about "
+        f"{size(c.disk_bytes)}"
     )
     old, new = plan.edit
     if r.chosen == study.replicates:

@@ -380,7 +380,8 @@ def test_weights_on_one_distortion_pick_that_distortions_best():
     }
     for name, setting in best.items():
         for rule in an.RULES:
-            chosen = an.recommend(ds, an.decision_rule(ds, rule, f"{name}=1"), FAST)
+            only = ",".join(f"{d}={int(d == name)}" for d in DISTORTIONS)
+            chosen = an.recommend(ds, an.decision_rule(ds, rule, only), FAST)
             assert chosen.setting == setting, (name, rule)
     # the three balance out under equal weights, and are the three best settings
     rec = an.recommend(ds, an.decision_rule(ds, "expected", {}), FAST)
@@ -660,3 +661,36 @@ def test_next_levels_lie_beyond_the_edge_and_inside_the_factors_range(levels, fa
             assert all(b >= 1 and b == int(b) for b in beyond)
         else:
             assert all(b > 0 for b in beyond)
+
+
+# --------------------------------------------------------------------------- what the rule says
+
+
+def test_partial_weights_on_the_command_line_are_refused_in_one_line(grid_dir, capsys):
+    code = main(["recommend", str(grid_dir), "--weights", "exact=0.5,shifted=0.5"])
+    err = capsys.readouterr().err.strip()
+    assert code == 2 and len(err.splitlines()) == 1
+    assert "'--weights' must be a weight for every distortion" in err
+    assert "missing: misplaced" in err and "exact=0.5,shifted=0.5" in err
+    # written out with a 0, the same weights are taken
+    full = "exact=0.5,shifted=0.5,misplaced=0"
+    assert main(["recommend", str(grid_dir), "--weights", full, "--draws", "50"]) == 0
+
+
+def test_the_study_files_partial_weights_show_the_zero_they_give():
+    guided, baseline = random_ett(1)
+    text = STUDY + "\n[decision]\nweights = { exact = 3, misplaced = 1 }\n"
+    rule = an.decision_rule(hand_grid(guided, baseline, text))
+    assert "shifted 0" in rule.describe()
+
+
+def test_the_minimax_line_names_only_the_distortions_it_takes_the_worst_of():
+    guided, baseline = random_ett(1)
+    ds = hand_grid(guided, baseline)
+    rule = an.decision_rule(ds, "minimax", "exact=0.5,shifted=0.5,misplaced=0")
+    words = rule.describe()
+    assert "worst of the distortions exact, shifted" in words
+    assert "misplaced left out" in words
+    assert "0.5" not in words  # minimax uses which weights are positive, not their sizes
+    rec = an.recommend(ds, rule, FAST)
+    assert any(words in line for line in rec.lines())

@@ -207,3 +207,48 @@ def test_the_replicates_line_is_edited_in_place_or_added():
     assert old == "replicates = 3" and new == "replicates = 12"
     bare = parse_text(textwrap.dedent(TINY).replace("replicates = 3\n", ""), name="tiny")
     assert pl.replicates_edit(bare, 12) == (None, "replicates = 12")
+
+
+# --------------------------------------------------------------------------- one estimate
+
+
+def test_checks_counts_add_up_cells_times_replicates_make_the_campaigns():
+    study = load(DEMO)
+    guided_cells, baseline_cells = pl.cell_counts(study)
+    # 4 landscapes × 4 distortions × 12 guided settings; belief-sampling in every distortion,
+    # no-belief and random in the exact one only: 4 × (4 + 2) baseline cells.
+    assert (guided_cells, baseline_cells) == (192, 24)
+    campaigns = sum(c.campaigns for c in grid.chunks(study))
+    assert (guided_cells + baseline_cells) * study.replicates == campaigns == 6912
+
+
+def test_check_and_plan_print_the_one_estimate_of_the_pilot(demo_pilot, tiny, tmp_path, capsys):
+    study, pilot = demo_pilot
+    # Both commands take their time from a pilot through compute_estimate: given the same
+    # pilot, they print the same words.
+    with pytest.MonkeyPatch.context() as mp:
+        mp.setattr(pl, "run_pilot", lambda s, o: pilot)
+        code, checked, err = _run(["check", str(DEMO), "--jobs", "2"], capsys)
+        assert code == 0, err
+        code, planned, err = _run(
+            ["plan", str(DEMO), "--out", str(tmp_path), "--jobs", "2", "--cap", "32"], capsys
+        )
+        assert code == 0, err
+    words = pl.compute_estimate(study, pilot, study.replicates, jobs=2).time_words()
+    assert f"estimated wall time: {words}" in checked
+    chosen = int(re.search(r"^replicates: (\d+)$", planned, re.M).group(1))
+    at = pl.compute_estimate(study, pilot, chosen, jobs=2)
+    assert f"evaluations: {at.time_words()}" in planned, planned
+    low, high = pl.compute_estimate(study, pilot, 32, jobs=2).local_interval
+    assert low < high  # a range, not a point
+
+
+def test_the_estimate_is_within_a_factor_of_one_and_a_half_of_a_real_run(tiny, tmp_path):
+    study = load(tiny)
+    pilot = pl.run_pilot(study, pl.PlanOptions(pilot_replicates=2, jobs=1))
+    bigger = dataclasses.replace(study, replicates=6)
+    estimate = pl.compute_estimate(bigger, pilot, 6, jobs=1)
+    summary = run_study(bigger, tmp_path / "run", jobs=1)
+    # Timings share the machine with other work: the ratio, not the seconds, is checked.
+    ratio = estimate.local / summary.seconds
+    assert 1 / 1.5 <= ratio <= 1.5, (estimate.local, summary.seconds)

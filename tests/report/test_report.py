@@ -166,7 +166,7 @@ def test_report_command_takes_the_decision_options(demo, tmp_path, capsys):
     printed = capsys.readouterr().out
     assert f"report: {tmp_path / 'report.html'}" in printed
     page = (tmp_path / "report.html").read_text(encoding="utf-8")
-    assert "at the worst distortion" in page
+    assert "at the worst of the distortions" in page
     assert cli.main(["report", str(tmp_path / "missing")]) == 2
     assert "grid.nc" in capsys.readouterr().err
 

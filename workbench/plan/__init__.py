@@ -5,12 +5,21 @@ replicates (with the formulas of :mod:`.sample_size`) and compute; :func:`build_
 and :func:`write_plan` writes ``plan.md`` and ``plan.html`` (:mod:`.document`).
 """
 
-from ..study.cost import duration, size
+from ..study.cost import cell_counts, duration, size
 from .document import Plan, build_plan, reasons, replicates_edit, write_plan
 from .estimate import Compute, Replicates, compute_estimate, grid_bytes, replicates_needed
-from .pilot import Pilot, PilotDesign, PlanOptions, pilot_chunks, pilot_design, run_pilot
+from .pilot import (
+    CHECK_PILOT,
+    Pilot,
+    PilotDesign,
+    PlanOptions,
+    pilot_chunks,
+    pilot_design,
+    run_pilot,
+)
 
 __all__ = [
+    "CHECK_PILOT",
     "Compute",
     "Pilot",
     "PilotDesign",
@@ -18,6 +27,7 @@ __all__ = [
     "PlanOptions",
     "Replicates",
     "build_plan",
+    "cell_counts",
     "compute_estimate",
     "duration",
     "grid_bytes",

@@ -24,7 +24,14 @@ from ..study.cost import duration, size
 from ..study.grid import settings
 from ..study.spec import Study
 from . import sample_size
-from .estimate import Compute, Replicates, compute_estimate, replicates_needed
+from .estimate import (
+    TIME_LEVEL,
+    TIME_RESAMPLES,
+    Compute,
+    Replicates,
+    compute_estimate,
+    replicates_needed,
+)
 from .pilot import Pilot, PlanOptions
 
 PLAN_MD = "plan.md"
@@ -447,7 +454,11 @@ def _compute_section(plan: Plan) -> Section:
         ("evaluations", e.evaluations),
         ("chunks", c.chunks),
         ("CPU time", duration(c.cpu)),
-        (f"wall time here ({e.jobs} process(es))", duration(c.local)),
+        (
+            f"wall time here ({e.jobs} process(es))",
+            f"{duration(c.local)} ({duration(c.local_interval[0])} to "
+            f"{duration(c.local_interval[1])})",
+        ),
         (f"wall time on {c.workers} Dask workers", duration(c.cluster)),
         ("chunk files", size(c.chunk_bytes)),
         ("grid.nc", size(c.grid_bytes)),
@@ -462,7 +473,10 @@ def _compute_section(plan: Plan) -> Section:
                 "pilot's measured seconds per campaign of that strategy in that landscape and "
                 f"distortion ({e.per_campaign:.3f} s per campaign on average); wall time is "
                 f"max(CPU time / {e.jobs}, longest chunk {c.longest:.1f} s) plus the pilot's "
-                f"start-up time ({c.startup:.1f} s). Dask workers are taken as fast as one "
+                f"start-up time ({c.startup:.1f} s). The range beside it is the same "
+                "estimate with the pilot's cells (distortions within each landscape, and "
+                f"replicates) resampled with replacement ({TIME_RESAMPLES} times; central "
+                f"{TIME_LEVEL:.0%}). Dask workers are taken as fast as one "
                 "core of this machine, with the same chunks. The timings are this machine's "
                 "while the pilot ran: other work running then, or during the study, scales "
                 "them."

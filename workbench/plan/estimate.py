@@ -3,13 +3,14 @@
 from __future__ import annotations
 
 import math
+import warnings
 from dataclasses import dataclass, replace
 
 import numpy as np
 
 from ..engine.strategies import reference
 from ..seeding import derive
-from ..study.cost import Estimate
+from ..study.cost import Estimate, cell_counts, duration
 from ..study.grid import chunks, settings
 from ..study.spec import Study
 from . import sample_size
@@ -122,6 +123,10 @@ def replicates_needed(study: Study, pilot: Pilot, options: PlanOptions) -> Repli
 
 # --------------------------------------------------------------------------- compute
 
+# Resamples of the pilot's replicates behind the time estimate's range, and its level.
+TIME_RESAMPLES = 200
+TIME_LEVEL = 0.9
+
 # The grid file's per-evaluation series (gridfile._SERIES): seven 8-byte ones and 'failed' (1).
 _GRID_SERIES_BYTES = 7 * 8 + 1
 # The grid file's per-cell and per-placement variables, and a margin for its header.
@@ -133,8 +138,19 @@ _GRID_HEADER_BYTES = 64 * 1024
 @dataclass(frozen=True)
 class Compute:
     """The study's cost at a replicate count: counts and seconds per campaign (an
-    :class:`~workbench.estimate.Estimate`), chunks, the longest chunk, the start-up time the
-    pilot measured, wall time here (``local``) and on ``workers`` Dask workers, and bytes."""
+    :class:`~workbench.study.cost.Estimate`), chunks, the longest chunk, the start-up time the
+    pilot measured, wall time here (``local``, with ``local_interval``: the
+    :data:`TIME_LEVEL` range of the same estimate over the pilot's cells resampled) and
+    on ``workers`` Dask workers, and bytes."""
+
+    def time_words(self) -> str:
+        """Wall time here with its range, as ``check`` and ``plan`` both print it."""
+        lo, hi = self.local_interval
+        return (
+            f"about {duration(self.local)} ({duration(lo)} to {duration(hi)}, "
+            f"{TIME_LEVEL:.0%} range over the pilot's cells resampled) on "
+            f"{self.estimate.jobs} process(es)"
+        )
 
     estimate: Estimate
     replicates: int
@@ -142,6 +158,7 @@ class Compute:
     longest: float
     startup: float
     local: float
+    local_interval: tuple[float, float]
     workers: int
     cluster: float
     chunk_bytes: int
@@ -156,14 +173,15 @@ class Compute:
         return self.chunk_bytes + self.grid_bytes
 
 
-def _mean_seconds(pilot: Pilot) -> dict:
-    """Seconds per campaign from the pilot, by (strategy, landscape, distortion), with
-    fall-backs by (strategy, landscape) and strategy."""
-    names = [s.strategy for s in pilot.design.settings]
+def _mean_seconds(names: list[str], seconds: np.ndarray) -> dict:
+    """Seconds per campaign from the pilot's ``seconds`` (setting, landscape, distortion,
+    replicate), by (strategy, landscape, distortion), with fall-backs by (strategy, landscape)
+    and strategy; ``names`` are the settings' strategies."""
     out: dict = {}
     for strategy in dict.fromkeys(names):
-        rows = pilot.seconds[[i for i, n in enumerate(names) if n == strategy]]
-        with np.errstate(invalid="ignore"):
+        rows = seconds[[i for i, n in enumerate(names) if n == strategy]]
+        with np.errstate(invalid="ignore"), warnings.catch_warnings():
+            warnings.simplefilter("ignore", RuntimeWarning)  # a cell no resample kept
             out[strategy] = float(np.nanmean(rows))
             for li in range(rows.shape[1]):
                 by_l = rows[:, li]
@@ -174,6 +192,29 @@ def _mean_seconds(pilot: Pilot) -> dict:
                     if np.isfinite(cell).any():
                         out[strategy, li, di] = float(np.nanmean(cell))
     return out
+
+
+def _chunk_seconds(
+    every, names: list[str], seconds: np.ndarray, overhead: np.ndarray, fallback=None
+):
+    """Each chunk's seconds: per replicate, its cell's overhead plus the pilot's mean seconds
+    per campaign of each of its settings' strategies there (``fallback``: a table of
+    :func:`_mean_seconds` for what ``seconds`` leaves NaN)."""
+    per = {**(fallback or {})}
+    per.update((k, v) for k, v in _mean_seconds(names, seconds).items() if np.isfinite(v))
+    with np.errstate(invalid="ignore"), warnings.catch_warnings():
+        warnings.simplefilter("ignore", RuntimeWarning)
+        cell = np.nan_to_num(np.nanmean(overhead, axis=-1), nan=0.0)
+    return np.array(
+        [
+            len(c.replicates)
+            * (
+                cell[c.landscape, c.distortion]
+                + sum(_lookup(per, s.strategy, c.landscape, c.distortion) for s in c.settings)
+            )
+            for c in every
+        ]
+    )
 
 
 def _lookup(table: dict, strategy: str, li: int, di: int) -> float:
@@ -204,20 +245,8 @@ def compute_estimate(
     """
     full = replace(study, replicates=replicates)
     every = chunks(full)
-    guided, baseline = settings(full)
-    per = _mean_seconds(pilot)
-    with np.errstate(invalid="ignore"):
-        overhead = np.nan_to_num(np.nanmean(pilot.overhead, axis=-1), nan=0.0)
-    chunk_seconds = np.array(
-        [
-            len(c.replicates)
-            * (
-                overhead[c.landscape, c.distortion]
-                + sum(_lookup(per, s.strategy, c.landscape, c.distortion) for s in c.settings)
-            )
-            for c in every
-        ]
-    )
+    names = [s.strategy for s in pilot.design.settings]
+    chunk_seconds = _chunk_seconds(every, names, pilot.seconds, pilot.overhead)
     campaigns = sum(c.campaigns for c in every)
     cpu = float(chunk_seconds.sum())
     longest = float(chunk_seconds.max()) if every else 0.0
@@ -232,13 +261,35 @@ def compute_estimate(
     startup = max(pilot.wall - pilot_bound, 0.0)
     local = max(cpu / parallel, longest) + startup
     cluster = max(cpu / workers, longest)
+    # Uncertainty: the same estimate from the pilot's cells resampled with replacement (its
+    # distortions within each landscape, and its replicates): a chunk's campaigns share one
+    # batch's time, so the replicates alone hardly vary; the cells do.
+    rng = np.random.default_rng(derive(study.seed, "plan-time"))
+    n_d, k = pilot.seconds.shape[-2:]
+    table = _mean_seconds(names, pilot.seconds)
+    again = []
+    for _ in range(TIME_RESAMPLES):
+        d, r = rng.integers(0, n_d, size=n_d), rng.integers(0, k, size=k)
+        secs = _chunk_seconds(
+            every,
+            names,
+            pilot.seconds[..., d, :][..., r],
+            pilot.overhead[..., d, :][..., r],
+            fallback=table,
+        )
+        again.append(max(float(secs.sum()) / parallel, float(secs.max())) + startup)
+    alpha = (1 - TIME_LEVEL) / 2
+    low, high = (float(v) for v in np.quantile(again, [alpha, 1 - alpha]))
+    guided_cells, baseline_cells = cell_counts(study)
     estimate = Estimate(
-        cells=len(study.landscapes) * len(study.distortions) * (len(guided) + len(baseline)),
+        cells=guided_cells + baseline_cells,
         campaigns=campaigns,
         evaluations=campaigns * study.budget,
         probe_campaigns=pilot.campaigns,
         per_campaign=cpu / max(campaigns, 1),
         jobs=parallel,
+        guided_cells=guided_cells,
+        baseline_cells=baseline_cells,
     )
     chunk_bytes = sum(
         pilot.chunk_bytes + c.campaigns * float(pilot.campaign_bytes[c.landscape]) for c in every
@@ -250,6 +301,7 @@ def compute_estimate(
         longest=longest,
         startup=startup,
         local=local,
+        local_interval=(min(low, local), max(high, local)),
         workers=workers,
         cluster=cluster,
         chunk_bytes=int(chunk_bytes),

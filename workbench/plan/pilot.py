@@ -18,6 +18,8 @@ from ..study.spec import Study
 from ..validation import check_number
 
 WHERE = "command line"
+# Pilot replicates `check` runs for its time estimate (the plan's default is larger).
+CHECK_PILOT = 2
 # Resampled studies per candidate replicate count in the power search.
 RESAMPLES = 1000
 # The per-setting arrays of a chunk (the rest are one value per chunk), as run_chunk stacks them.
