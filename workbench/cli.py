@@ -202,7 +202,7 @@ def _progress(quiet: bool):
 
 
 def cmd_check(args) -> int:
-    from .plan import CHECK_PILOT, PlanOptions, compute_estimate, run_pilot
+    from .plan import check_lines
     from .study.resemblance import resemblance_table, table_lines
     from .study.spec import load
 
@@ -211,17 +211,11 @@ def cmd_check(args) -> int:
     timed = [
         (e.label, e.spec.probe(s.belief.mode())) for e in s.landscapes if e.kind == "objective"
     ]
-    # The time: the plan's pilot (smaller) and the plan's estimate, so the two agree.
-    pilot = run_pilot(s, PlanOptions(pilot_replicates=CHECK_PILOT, jobs=args.jobs))
-    c = compute_estimate(s, pilot, s.replicates, jobs=args.jobs)
+    lines = check_lines(s, args.jobs)  # the plan's pilot, smaller, and the plan's estimate
     print(f"study '{s.name}': {s.title}")
     for label, seconds in timed:
         print(f"objective {label}: {seconds * 1e3:.1f} ms per call at the belief's mode")
-    print("\n".join(c.estimate.count_lines(s.replicates)))
-    print(
-        f"estimated wall time: {c.time_words()} (pilot: {pilot.campaigns} campaigns, "
-        f"{c.estimate.per_campaign:.3f} s each on average; `workbench plan` runs a larger one)"
-    )
+    print("\n".join(lines))
     table = resemblance_table(s)
     if table is not None:
         print("\n".join(table_lines(table)))
@@ -297,7 +291,7 @@ def cmd_demo(args) -> int:
 
 
 def cmd_plan(args) -> int:
-    from .plan import PlanOptions, build_plan, reasons, run_pilot, write_plan
+    from .plan import PlanOptions, build_plan, edge_lines, reasons, run_pilot, write_plan
     from .study.cost import duration, size
     from .study.spec import load
 
@@ -340,6 +334,7 @@ def cmd_plan(args) -> int:
         print(f"add this line at the top of {study.path}: {new}")
     else:
         print(f"first, in {study.path}: change '{old.strip()}' to '{new.strip()}'")
+    print("\n".join(edge_lines(plan)))
     print(f"command: {plan.command}")
     print(f"plan: {md}, {page}")
     return 0
@@ -515,7 +510,11 @@ def build_parser() -> argparse.ArgumentParser:
     for option, helptext in (
         ("--half-width", "half-width of the recovery interval (default 0.1)"),
         ("--power", "power to tell apart two settings (default 0.8)"),
-        ("--difference", "difference in evaluations to target to detect (default 5)"),
+        (
+            "--difference",
+            "difference in evaluations to target to detect (default: the gap "
+            "between the pilot's two best settings)",
+        ),
         ("--confidence", "confidence level; the test's level is 1 - confidence (default 0.95)"),
         ("--pilot-replicates", "replicates per pilot cell (default 4)"),
         ("--cap", "most replicates to plan for (default 64)"),

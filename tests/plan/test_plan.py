@@ -4,6 +4,7 @@ import contextlib
 import dataclasses
 import io
 import re
+import shlex
 import textwrap
 from pathlib import Path
 
@@ -227,7 +228,8 @@ def test_check_and_plan_print_the_one_estimate_of_the_pilot(demo_pilot, tiny, tm
     # Both commands take their time from a pilot through compute_estimate: given the same
     # pilot, they print the same words.
     with pytest.MonkeyPatch.context() as mp:
-        mp.setattr(pl, "run_pilot", lambda s, o: pilot)
+        mp.setattr(pl, "run_pilot", lambda s, o: pilot)  # plan's
+        mp.setattr(pl.estimate, "run_pilot", lambda s, o: pilot)  # check's
         code, checked, err = _run(["check", str(DEMO), "--jobs", "2"], capsys)
         assert code == 0, err
         code, planned, err = _run(
@@ -252,3 +254,58 @@ def test_the_estimate_is_within_a_factor_of_one_and_a_half_of_a_real_run(tiny, t
     # Timings share the machine with other work: the ratio, not the seconds, is checked.
     ratio = estimate.local / summary.seconds
     assert 1 / 1.5 <= ratio <= 1.5, (estimate.local, summary.seconds)
+
+
+# --------------------------------------------------------------------------- uses its pilot
+
+
+def test_the_default_difference_is_the_gap_between_the_pilots_two_best_settings(demo_pilot):
+    study, pilot = demo_pilot
+    r = pl.replicates_needed(study, pilot, pl.PlanOptions(pilot_replicates=2, resamples=50))
+    # By hand: mean evaluations to target over landscapes and replicates, per distortion,
+    # weighted by the study's [decision] weights; the two lowest settings' gap.
+    w = np.array([study.decision.weights[d.name] for d in study.distortions])
+    guided = pilot.evaluations[: len(pilot.design.guided)]
+    means = np.array([[np.mean(g[:, d]) for d in range(g.shape[1])] for g in guided]) @ (
+        w / w.sum()
+    )
+    gap = np.sort(means)[1] - np.sort(means)[0]
+    assert r.difference == pytest.approx(min(max(gap, 1.0), study.budget - 1))
+    assert "gap between the pilot's two best settings" in r.difference_words
+    given = pl.replicates_needed(
+        study, pilot, pl.PlanOptions(pilot_replicates=2, resamples=50, difference=3)
+    )
+    assert (given.difference, given.difference_words) == (3, "given by --difference")
+
+
+def test_the_plans_printed_command_works_when_followed(tiny, tmp_path, capsys):
+    study = tmp_path / "tiny.toml"
+    study.write_text(tiny.read_text(encoding="utf-8"), encoding="utf-8")
+    out = tmp_path / "out"
+    assert main(["run", str(study), "--out", str(out), "--quiet", "--jobs", "1"]) == 0
+    code, stdout, err = _run(
+        ["plan", str(study), "--out", str(out), "--cap", "2", "--pilot-replicates", "2"], capsys
+    )
+    assert code == 0, err
+    # Follow it: make the edit it asks for, then run the command it prints.
+    edit = re.search(r"^first, in .*: change '(.*)' to '(.*)'$", stdout, re.M)
+    text = study.read_text(encoding="utf-8")
+    study.write_text(text.replace(edit.group(1), edit.group(2), 1), encoding="utf-8")
+    command = re.search(r"^command: (.*)$", stdout, re.M).group(1)
+    assert command.endswith("--fresh")  # the folder holds the study before the edit
+    assert "--fresh discards those results" in (out / "plan.md").read_text(encoding="utf-8")
+    argv = shlex.split(command)
+    assert argv[0] == "workbench"
+    code, _, err = _run([*argv[1:], "--quiet"], capsys)
+    assert code == 0, err
+    assert load(study).replicates == 2
+
+
+def test_the_plan_names_the_edge_its_pilots_best_setting_sits_on(tiny_capped):
+    code, out, err, folder = tiny_capped
+    assert code == 0, err
+    # The tiny study runs hyperbolic:3 and hyperbolic:9 only: the pilot's best is an edge.
+    assert "edge of the study (pilot's best): decay hyperbolic:" in out
+    assert "[strategy.pseudo-posterior]" in out
+    text = (folder / "plan.md").read_text(encoding="utf-8")
+    assert "Edge of the study" in text and "decay = [" in text

@@ -6,8 +6,25 @@ and :func:`write_plan` writes ``plan.md`` and ``plan.html`` (:mod:`.document`).
 """
 
 from ..study.cost import cell_counts, duration, size
-from .document import Plan, build_plan, reasons, replicates_edit, write_plan
-from .estimate import Compute, Replicates, compute_estimate, grid_bytes, replicates_needed
+from .document import (
+    Plan,
+    build_plan,
+    reasons,
+    replicates_edit,
+    write_plan,
+)
+from .estimate import (
+    Compute,
+    Replicates,
+    check_lines,
+    compute_estimate,
+    edge_lines,
+    grid_bytes,
+    pilot_difference,
+    pilot_edges,
+    pilot_means,
+    replicates_needed,
+)
 from .pilot import (
     CHECK_PILOT,
     Pilot,
@@ -28,11 +45,16 @@ __all__ = [
     "Replicates",
     "build_plan",
     "cell_counts",
+    "check_lines",
     "compute_estimate",
     "duration",
+    "edge_lines",
     "grid_bytes",
     "pilot_chunks",
     "pilot_design",
+    "pilot_difference",
+    "pilot_edges",
+    "pilot_means",
     "reasons",
     "replicates_edit",
     "replicates_needed",

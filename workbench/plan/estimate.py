@@ -8,13 +8,15 @@ from dataclasses import dataclass, replace
 
 import numpy as np
 
-from ..engine.strategies import reference
+from ..analysis.edges import Edge, study_edges
+from ..analysis.edges import edge_lines as _edge_lines
+from ..engine.strategies import reference, uses_quantile
 from ..seeding import derive
 from ..study.cost import Estimate, cell_counts, duration
 from ..study.grid import chunks, settings
 from ..study.spec import Study
 from . import sample_size
-from .pilot import Pilot, PilotDesign, PlanOptions, parallel_processes
+from .pilot import CHECK_PILOT, Pilot, PilotDesign, PlanOptions, parallel_processes, run_pilot
 
 
 @dataclass(frozen=True)
@@ -25,7 +27,8 @@ class Replicates:
     ``normal`` = z² p(1 − p)/h² before rounding, ``campaigns`` after the Wilson check,
     ``wilson`` the Wilson half-width there, ``per_replicate`` campaigns each replicate adds to
     an interval (the landscapes), ``interval`` the replicates; (b) ``search`` of the power
-    (None when the pilot has no two settings to compare), ``comparisons`` it pooled.
+    (None when the pilot has no two settings to compare), ``comparisons`` it pooled, at
+    ``difference`` evaluations (``difference_words``: where it comes from).
     """
 
     p: float
@@ -42,6 +45,8 @@ class Replicates:
     needed: int
     chosen: int
     cap: int
+    difference: float = 5.0
+    difference_words: str = "given"
 
     @property
     def power(self) -> int | None:
@@ -90,13 +95,17 @@ def replicates_needed(study: Study, pilot: Pilot, options: PlanOptions) -> Repli
     # (b) power: paired differences between pilot settings, per landscape.
     pairs = _comparisons(pilot.design)
     search = None
+    if options.difference is not None:
+        difference, difference_words = options.difference, "given by --difference"
+    else:
+        difference, difference_words = pilot_difference(study, pilot)
     if pairs:
         diffs = np.stack([pilot.evaluations[i] - pilot.evaluations[j] for i, j, _ in pairs])
         resid = sample_size.centred(diffs, axis=-1)
         strata = [resid[:, li].ravel() for li in range(landscapes)]
         search = sample_size.replicates_for_power(
             strata,
-            options.difference,
+            difference,
             power=options.power,
             alpha=options.alpha,
             resamples=options.resamples,
@@ -118,7 +127,72 @@ def replicates_needed(study: Study, pilot: Pilot, options: PlanOptions) -> Repli
         needed=needed,
         chosen=min(needed, options.cap),
         cap=options.cap,
+        difference=difference,
+        difference_words=difference_words,
     )
+
+
+def _distortion_weights(study: Study) -> np.ndarray:
+    """The study's decision weights over its distortions, summing to 1 (none: equal)."""
+    given = study.decision.weights
+    w = np.array([float(given.get(d.name, 0.0)) for d in study.distortions])
+    if not given or w.sum() <= 0:
+        w = np.ones(len(study.distortions))
+    return w / w.sum()
+
+
+def pilot_means(study: Study, pilot: Pilot) -> np.ndarray:
+    """Each pilot belief-guided setting's mean evaluations to target (censored at the budget)
+    over landscapes and replicates, weighted over distortions by the study's decision weights:
+    the expected rule's score on the pilot."""
+    ett = pilot.evaluations[: len(pilot.design.guided)]
+    with np.errstate(invalid="ignore"), warnings.catch_warnings():
+        warnings.simplefilter("ignore", RuntimeWarning)
+        by_distortion = np.nanmean(ett, axis=(1, 3))
+    return by_distortion @ _distortion_weights(study)
+
+
+def pilot_difference(study: Study, pilot: Pilot) -> tuple[float, str]:
+    """The difference the power is planned for, from the pilot: the gap between the pilot's
+    two best belief-guided settings (:func:`pilot_means`), the smallest difference between
+    the top settings that would change the decision, at least 1 evaluation (the step of
+    evaluations to target) and at most budget − 1. Returns it and its words."""
+    means = pilot_means(study, pilot)
+    finite = np.sort(means[np.isfinite(means)])
+    high = study.budget - 1
+    if finite.size < 2:
+        return float(min(5.0, high)), "5 evaluations: the pilot has no two settings to compare"
+    gap = float(finite[1] - finite[0])
+    chosen = float(min(max(gap, 1.0), high))
+    order = np.argsort(means)
+    best, second = (pilot.design.guided[i].label for i in order[:2])
+    floor = " (raised to 1, the step of evaluations to target)" if gap < 1.0 else ""
+    return chosen, (
+        f"the gap between the pilot's two best settings, {best} ({finite[0]:.2f}) and {second} "
+        f"({finite[1]:.2f}), in mean evaluations to target under the study's distortion "
+        f"weights: {gap:.2f}{floor}; a smaller true difference could change the decision"
+    )
+
+
+def pilot_edges(study: Study, pilot: Pilot) -> tuple[Edge, ...]:
+    """The edge of what the study covers, from its pilot: the pilot's best belief-guided
+    setting (:func:`~workbench.plan.estimate.pilot_means`) at the lowest or highest level
+    of a factor (:func:`workbench.analysis.study_edges`, the report's own rule)."""
+    means = pilot_means(study, pilot)
+    if not np.isfinite(means).any():
+        return ()
+    guided, _ = settings(study)
+
+    def factors(s) -> dict:
+        return {
+            "strategy": s.strategy,
+            "decay": str(s.decay),
+            "quantile": s.quantile if uses_quantile(s.strategy) else None,
+            "exploration": s.exploration,
+        }
+
+    best = pilot.design.guided[int(np.nanargmin(means))]
+    return study_edges([factors(s) for s in guided], factors(best))
 
 
 # --------------------------------------------------------------------------- compute
@@ -327,3 +401,25 @@ def grid_bytes(study: Study) -> int:
     positions = (positions + len(baseline)) * n_l * n_d * n_r
     cells = (_GRID_CELL_VALUES * n_d + _GRID_PLACEMENT_VALUES) * n_l * n_r * 8
     return int(positions * per_campaign + cells + _GRID_HEADER_BYTES)
+
+
+def check_lines(study: Study, jobs: int | None = None) -> list[str]:
+    """What ``check`` prints of a study's cost: its counts, and the wall time from a pilot of
+    :data:`~workbench.plan.pilot.CHECK_PILOT` replicates through :func:`compute_estimate`,
+    the plan's own estimate (so that ``check`` and ``plan`` agree)."""
+    pilot = run_pilot(study, PlanOptions(pilot_replicates=CHECK_PILOT, jobs=jobs))
+    c = compute_estimate(study, pilot, study.replicates, jobs=jobs)
+    return [
+        *c.estimate.count_lines(study.replicates),
+        f"estimated wall time: {c.time_words()} (pilot: {pilot.campaigns} campaigns, "
+        f"{c.estimate.per_campaign:.3f} s each on average; `workbench plan` runs a larger one)",
+    ]
+
+
+def edge_lines(plan) -> list[str]:
+    """The pilot's best setting at the edge of the levels studied (``plan.edges``), as the
+    command line prints it."""
+    return [
+        line.replace("edge of the study:", "edge of the study (pilot's best):", 1)
+        for line in _edge_lines(plan.edges, indent="")
+    ]
