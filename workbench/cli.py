@@ -87,14 +87,13 @@ def _write_belief_figure(s, path: Path) -> Path:
     matplotlib.use("Agg")
     import matplotlib.pyplot as plt
 
-    from .report.figures import belief_marginals
-    from .report.markup import mpl_text
+    from .report.figures import belief_marginals, figure_title
     from .storage import atomic_path
 
-    fig, axes = plt.subplots(1, s.space.dim, figsize=(4.2 * s.space.dim, 3.4), squeeze=False)
+    size = (4.2 * s.space.dim, 3.6)
+    fig, axes = plt.subplots(1, s.space.dim, figsize=size, squeeze=False, layout="constrained")
     belief_marginals(list(axes[0]), s.space, {"belief": s.belief})
-    fig.suptitle(mpl_text(f"Belief marginals: {s.title}"), fontsize="medium")
-    fig.tight_layout()
+    figure_title(fig, f"Belief marginals: {s.title}")
     with atomic_path(path) as tmp:
         fig.savefig(tmp, format="png", dpi=110)
     plt.close(fig)

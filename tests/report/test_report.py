@@ -281,8 +281,13 @@ def test_robustness_frontier_labels_the_settings_no_other_beats(data):
     fr = an.frontier(ds, rule.metric, rs)
     fig, ax = plt.subplots()
     fg.robustness_frontier(ax, fr)
-    labels = {t.get_text() for t in ax.texts}
-    assert labels == set(fr["setting"].values[fr["efficient"].values])
+    # every point is labelled: black for those no other beats, grey for the beaten ones
+    labels = {t.get_text(): t.get_color() for t in ax.texts}
+    assert set(labels) == set(fr["setting"].values)
+    for setting, on in zip(fr["setting"].values, fr["efficient"].values, strict=True):
+        assert (labels[setting] == "black") == bool(on)
+    legend = [t.get_text() for t in ax.get_legend().get_texts()]
+    assert "beaten on both axes by another setting (grey label)" in legend
     assert "exact" in ax.get_xlabel() and "worst distortion" in ax.get_ylabel()
     plt.close(fig)
 
