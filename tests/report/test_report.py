@@ -296,3 +296,33 @@ def test_recommendation_json_round_trips(demo):
     rec = an.recommend(an.open_grid(demo[0]))
     out = json.loads(json.dumps(rec.to_dict()))
     assert out["setting"] == rec.setting and out["stability"] == rec.stability
+
+
+def test_the_page_and_the_terminal_name_the_same_edge_of_the_study(demo, page):
+    from html import escape
+
+    printed = [
+        line.strip().split("edge of the study: ", 1)[1]
+        for line in demo[1].splitlines()
+        if line.strip().startswith("edge of the study: ")
+    ]
+    for words in printed:
+        assert escape(words) in page
+    assert ("edge of the study" in page) == bool(printed)
+
+
+def test_the_edge_rows_give_the_lines_to_put_in_the_study_file():
+    from workbench.report.text import edge_rows
+
+    studied = [
+        {"strategy": "pseudo-posterior", "decay": f"hyperbolic:{b}", "quantile": 0.25}
+        for b in (2, 6, 20)
+    ]
+    edges = an.study_edges(studied, studied[0])
+    rows = dict(edge_rows(edges))
+    assert "fastest decay studied" in rows["edge of the study"]
+    assert rows["to study beyond it"] == (
+        "in the study file's [strategy.pseudo-posterior] table, replace the decay line with: "
+        'decay = ["hyperbolic:0.5", "hyperbolic:1", "hyperbolic:2", "hyperbolic:6"]'
+    )
+    assert edge_rows(()) == []
