@@ -103,14 +103,18 @@ def test_pilot_campaigns_are_the_studys_first_replicates(tiny):
             np.testing.assert_array_equal(small[r]["value"][k], whole[r]["value"][j])
 
 
-def test_compute_estimate_is_within_a_factor_of_two_of_a_real_run(demo_pilot, tmp_path):
+def test_compute_estimate_is_within_a_factor_of_one_and_a_half_of_a_real_run(
+    demo_pilot, tmp_path
+):
     study, pilot = demo_pilot
     # One replicate keeps the suite fast: 8 chunks, 108 campaigns, run for real.
     small = dataclasses.replace(study, replicates=1)
     estimate = pl.compute_estimate(small, pilot, 1)
     summary = run_study(small, tmp_path / "run")
     assert estimate.estimate.campaigns == summary.campaigns
-    assert 0.5 <= estimate.local / summary.seconds <= 2.0, (estimate.local, summary.seconds)
+    # The machine is shared while the suite runs: the ratio, not the seconds, is checked.
+    ratio = estimate.local / summary.seconds
+    assert 1 / 1.5 <= ratio <= 1.5, (estimate.local, summary.seconds)
     on_disk = sum(p.stat().st_size for p in (tmp_path / "run" / "chunks").glob("*.npz"))
     grid_file = (tmp_path / "run" / "grid.nc").stat().st_size
     assert 0.5 <= estimate.chunk_bytes / on_disk <= 2.0
