@@ -103,9 +103,7 @@ def test_pilot_campaigns_are_the_studys_first_replicates(tiny):
             np.testing.assert_array_equal(small[r]["value"][k], whole[r]["value"][j])
 
 
-def test_compute_estimate_is_within_a_factor_of_one_and_a_half_of_a_real_run(
-    demo_pilot, tmp_path
-):
+def test_compute_estimate_is_within_a_factor_of_one_and_a_half_of_a_real_run(demo_pilot, tmp_path):
     study, pilot = demo_pilot
     # One replicate keeps the suite fast: 8 chunks, 108 campaigns, run for real.
     small = dataclasses.replace(study, replicates=1)
@@ -313,3 +311,23 @@ def test_the_plan_names_the_edge_its_pilots_best_setting_sits_on(tiny_capped):
     assert "[strategy.pseudo-posterior]" in out
     text = (folder / "plan.md").read_text(encoding="utf-8")
     assert "Edge of the study" in text and "decay = [" in text
+
+
+def test_the_recovery_rule_names_the_pilot_cell_that_decides_p(demo_pilot):
+    from scipy.stats import binomtest
+
+    study, pilot = demo_pilot
+    r = pl.replicates_needed(study, pilot, pl.PlanOptions(pilot_replicates=2, resamples=50))
+    m = re.search(
+        r"pilot recovery (\d+)/(\d+) for .* interval ([\d.]+) to ([\d.]+), whose end toward "
+        r"0\.5 is ([\d.]+)",
+        r.recovery_words,
+    )
+    k, n = int(m.group(1)), int(m.group(2))
+    # Reference library: scipy.stats.binomtest(...).proportion_ci(method="wilson"), the
+    # Wilson score interval (Wilson 1927, JASA 22).
+    ci = binomtest(k, n).proportion_ci(confidence_level=0.95, method="wilson")
+    assert (float(m.group(3)), float(m.group(4))) == (round(ci.low, 2), round(ci.high, 2))
+    toward = ci.low if ci.low > 0.5 else ci.high if ci.high < 0.5 else 0.5
+    assert float(m.group(5)) == pytest.approx(toward, abs=5e-3)
+    assert r.p == pytest.approx(toward, abs=1e-9)  # the cell named is the one used

@@ -184,7 +184,7 @@ def reasons(plan: Plan) -> list[str]:
         "p = 0.5, the worst case: the pilot cannot tell"
         if r.worst_case
         else f"p = {r.p:.3g}, the end nearest 0.5 of the pilot's Wilson intervals"
-    )
+    ) + (f"; {r.recovery_words}" if r.recovery_words else "")
     wilson = f", {r.campaigns} after the Wilson check" if r.campaigns != r.normal_campaigns else ""
     lines = [
         f"(a) recovery interval ±{o.half_width:g} at {_pct(o.confidence)} ({why}): "
@@ -370,6 +370,8 @@ def _interval_words(plan: Plan) -> str:
             f"p = {r.p:.3g}: no pilot Wilson interval contains 0.5, and this is the end nearest "
             "0.5 of any setting's interval (the widest interval to come)."
         )
+    if r.recovery_words:
+        p += f" Deciding cell: {r.recovery_words}."
     at = float(sample_size.wilson_half_width(r.p, r.campaigns, o.confidence))
     if r.campaigns != r.normal_campaigns:
         check = (

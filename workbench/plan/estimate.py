@@ -47,6 +47,7 @@ class Replicates:
     cap: int
     difference: float = 5.0
     difference_words: str = "given"
+    recovery_words: str = ""
 
     @property
     def power(self) -> int | None:
@@ -87,6 +88,7 @@ def replicates_needed(study: Study, pilot: Pilot, options: PlanOptions) -> Repli
     k = pilot.reached.sum(axis=(1, 3))
     n = np.isfinite(pilot.evaluations).sum(axis=(1, 3))
     p, worst = sample_size.recovery_guess(k.ravel(), n.ravel(), options.confidence)
+    deciding = _deciding_cell(study, pilot, k, n, options.confidence)
     normal_n, campaigns = sample_size.campaigns_for_interval(
         p, options.half_width, options.confidence
     )
@@ -129,6 +131,28 @@ def replicates_needed(study: Study, pilot: Pilot, options: PlanOptions) -> Repli
         cap=options.cap,
         difference=difference,
         difference_words=difference_words,
+        recovery_words=deciding,
+    )
+
+
+def _deciding_cell(study: Study, pilot: Pilot, k: np.ndarray, n: np.ndarray, confidence: float):
+    """The pilot cell (setting × distortion) whose recovery interval decides p: the one whose
+    Wilson interval (Wilson 1927) reaches nearest 0.5, in words with its successes."""
+    from ..analysis import wilson_interval
+
+    keep = n > 0
+    if not keep.any():
+        return "the pilot has no campaigns to estimate recovery from"
+    low, high = wilson_interval(np.where(keep, k, 0), np.where(keep, n, 1), confidence)
+    toward = np.where(low > 0.5, low, np.where(high < 0.5, high, 0.5))
+    gap = np.where(keep, np.abs(toward - 0.5), np.inf)
+    i, d = np.unravel_index(int(np.argmin(gap)), gap.shape)
+    setting = pilot.design.settings[i].label
+    return (
+        f"pilot recovery {int(k[i, d])}/{int(n[i, d])} for {setting} at distortion "
+        f"{study.distortions[d].name}, Wilson {confidence:.0%} interval "
+        f"{float(low[i, d]):.2f} to {float(high[i, d]):.2f}, whose end toward 0.5 is "
+        f"{float(toward[i, d]):.3g}"
     )
 
 
