@@ -108,3 +108,81 @@ def test_a_decoy_misplacement_without_a_decoy_stops_the_run_with_one_line(tmp_pa
         f"workbench: {path}: 'distortion.shifted.misplace' must be a landscape with a local "
         "optimum apart from its global ones (use 'worst' instead); got 'branin'"
     ]
+
+
+@pytest.mark.parametrize(
+    ("argv", "words"),
+    [
+        (["run"], "the following arguments are required: study"),
+        (
+            ["simulate", "--landscape", "branin", "--strategy", "random", "--budget", "x"],
+            "--budget",
+        ),
+        (["frobnicate"], "invalid choice: 'frobnicate'"),
+        (["check", "s.toml", "--no-such-option"], "unrecognized arguments: --no-such-option"),
+    ],
+)
+def test_a_usage_error_is_one_line_pointing_to_help(argv, words, capsys):
+    with pytest.raises(SystemExit) as stop:
+        main(argv)
+    err = capsys.readouterr().err
+    assert stop.value.code == 2
+    assert err.count("\n") == 1 and "usage:" not in err
+    assert err.startswith("workbench: error: ") and words in err and "--help" in err
+
+
+@pytest.mark.parametrize("argv", [["recommend", "results/demo"], ["--debug", "recommend"]])
+def test_the_old_recommend_command_is_refused_naming_decide(argv, capsys):
+    with pytest.raises(SystemExit) as stop:
+        main(argv)
+    assert stop.value.code == 2
+    assert capsys.readouterr().err == "workbench: the command 'recommend' is now 'decide'\n"
+
+
+SPACE_STUDY = """
+title = "renamed"
+budget = 10
+replicates = 2
+[space.x1]
+lower = 0
+upper = 1
+[space.x2]
+lower = 0
+upper = 1
+[[landscape]]
+function = "f.py:f"
+[strategy.prior-weighted]
+decay = ["hyperbolic:5"]
+"""
+
+
+@pytest.mark.parametrize(
+    ("edit", "key"),
+    [
+        (lambda s: s.replace("function = ", "objective = "), "landscape[0].objective"),
+        (lambda s: s + '[truth]\nobjective = "f.py:f"\n', "truth.objective"),
+    ],
+)
+def test_the_old_objective_key_is_refused_naming_function(edit, key, tmp_path, capsys):
+    (tmp_path / "f.py").write_text("def f(x1, x2):\n    return (x1 - 0.3) ** 2 + x2\n")
+    path = tmp_path / "s.toml"
+    path.write_text(edit(textwrap.dedent(SPACE_STUDY)))
+    code, _, err = _run(["check", str(path)], capsys)
+    assert code == 2
+    expected = "must be written 'function' (the key's new name); got 'objective'"
+    assert err == f"workbench: {path}: '{key}' {expected}\n"
+    # the new key is read: the same study with 'function' is checked and timed
+    path.write_text(textwrap.dedent(SPACE_STUDY))
+    code, out, _ = _run(["check", str(path), "--jobs", "1"], capsys)
+    assert code == 0 and "function-f:" in out
+
+
+@pytest.mark.parametrize("command", ["check", "plan", "run"])
+def test_jobs_below_one_is_refused_in_one_line(command, tmp_path, capsys):
+    path = tmp_path / "s.toml"
+    path.write_text(textwrap.dedent(GOOD))
+    out = [] if command == "check" else ["--out", str(tmp_path / "o")]
+    code, _, err = _run([command, str(path), "--jobs", "0", *out], capsys)
+    assert code == 2
+    assert err == "workbench: command line: '--jobs' must be an integer in [1, inf); got 0\n"
+    assert not (tmp_path / "o").exists()

@@ -100,7 +100,7 @@ CHECK_CASES = [
      r"/dev/urandom: 'data' must be a CSV file \(a regular file\)"),
     ("underscore in a number", _edit(FITTED, _fitted("d.csv")),
      {"d.csv": CSV_HEAD + "2_00,50,1.0\n" + CSV_ROWS}, [],
-     r"'row 1, column 'temperature'' must be a number such as 12, -0\.5 or 1e3; got '2_00'"),
+     r"'line 2, column 'temperature'' must be a number such as 12, -0\.5 or 1e3; got '2_00'"),
     ("nan response", _edit(FITTED, _fitted("d.csv")),
      {"d.csv": CSV_HEAD + "200,50,nan\n" + CSV_ROWS}, [], r"column 'crumb'' must be a number"),
     ("infinite response", _edit(FITTED, _fitted("d.csv")),

@@ -123,14 +123,14 @@ def test_a_study_without_truth_is_refused_with_one_line(tmp_path, capsys):
 @pytest.mark.parametrize(
     ("rows", "message"),
     [
-        (["1,1,2.0", "1,1,3.0", "2,1,1.0"], "data rows 1 and 2 measure the same configuration"),
+        (["1,1,2.0", "1,1,3.0", "2,1,1.0"], "lines 2 and 3 measure the same configuration"),
         (["1,1,2.0", "2,1,2.0"], "every response has the same value"),
-        (["1,1,2.0", "2,x,1.0"], "row 2, column 'layers'"),
-        (["1,1,2.0", "9,1,1.0"], "row 2, column 'speed'"),
-        (["1,1,2.0", "2,1,"], "row 2, column 'defects'"),
+        (["1,1,2.0", "2,x,1.0"], "line 3, column 'layers'"),
+        (["1,1,2.0", "9,1,1.0"], "line 3, column 'speed'"),
+        (["1,1,2.0", "2,1,"], "line 3, column 'defects'"),
     ],
 )
-def test_a_malformed_truth_table_is_one_line_naming_file_and_row(tmp_path, capsys, rows, message):
+def test_a_malformed_truth_table_is_one_line_naming_file_and_line(tmp_path, capsys, rows, message):
     (tmp_path / "line.csv").write_text("speed,layers,defects\n" + "\n".join(rows) + "\n")
     study = tmp_path / "line.toml"
     study.write_text(textwrap.dedent(STUDY))

@@ -6,7 +6,6 @@ and what was given, and exit code 2. ``--debug`` shows the traceback instead.
 
 from __future__ import annotations
 
-import argparse
 import json
 import logging
 import os
@@ -15,9 +14,10 @@ import time
 import warnings
 from pathlib import Path
 
-from .engine.strategies import DEFAULT_QUANTILE
-from .evidence.commands import cmd_audit, cmd_monitor
-from .validation import InputError, check_number
+from .cli_args import build_parser
+from .cli_progress import STATUS, CampaignBar, status
+from .evidence.commands import cmd_audit, cmd_monitor  # noqa: F401 (run by name in main)
+from .validation import InputError, check_number, raw
 
 __all__ = ["main"]
 
@@ -34,16 +34,27 @@ def _out_dir(args, study_name: str) -> Path:
 def cmd_landscapes(args) -> int:
     from .world import landscapes as ls
 
-    rows = [ls.get(name).describe() for name in ls.catalogue()]
+    rows = []
+    for name in ls.catalogue():
+        lowest, highest = ls.dimensions(name)
+        rows.append(ls.get(name).describe() | {"dimensions": [lowest, highest]})
+        rows[-1]["accepts_dim"] = lowest != highest
     if args.json:
         print(json.dumps(rows, indent=2))
         return 0
-    print(f"{'name':<18} {'dim':>3}  {'minimum':>12}  domain / minimisers")
+    print(f"{'name':<18} {'dim':>9}  {'minimum':>12}  domain / minimisers")
     for r in rows:
         domain = " x ".join(f"[{lo:g}, {hi:g}]" for lo, hi in r["domain"])
-        print(f"{r['name']:<18} {r['dimension']:>3}  {r['minimum']:>12.6g}  {domain}")
+        dim = "{}-{} *".format(*r["dimensions"]) if r["accepts_dim"] else str(r["dimension"])
+        print(f"{r['name']:<18} {dim:>9}  {r['minimum']:>12.6g}  {domain}")
         for m in r["minimisers"]:
-            print(f"{'':<37}at ({', '.join(f'{v:.6g}' for v in m)})")
+            print(f"{'':<43}at ({', '.join(f'{v:.6g}' for v in m)})")
+    generic = [r for r in rows if r["accepts_dim"]]
+    if generic:
+        print(
+            f"* accepts dim (`dim = N` in a [[landscape]] table, `simulate --dim N`); shown "
+            f"at dim = {generic[0]['dimension']}"
+        )
     return 0
 
 
@@ -56,7 +67,7 @@ def cmd_belief(args) -> int:
         raise InputError(
             "space",
             "a [space] section (the belief command describes a belief on a space)",
-            None,
+            raw("a study without one"),
             args.study,
         )
     from .analysis.recommendation import short_number  # after the checks: it loads xarray
@@ -134,30 +145,44 @@ def _simulation_study(args):
     return study, settings
 
 
+def _simulated(chunk, arrays, target: float) -> list[dict]:
+    """The rows of ``simulate`` for one finished chunk: one per replicate."""
+    from .analysis.metrics import evaluations_to_target
+    from .study.grid import split
+
+    rows = []
+    for replicate, result in split(chunk, arrays):
+        regret = result["regret"][0]
+        nr = result["normalized_regret"][0]
+        ett, reached = evaluations_to_target(nr, target)
+        rows.append(
+            {
+                "replicate": replicate,
+                "final_regret": float(regret[-1]),
+                "final_normalized_regret": float(nr[-1]),
+                "evaluations_to_target": int(ett) if reached else None,
+                "mode_value_regret": float(result["mode_value"][0] - result["minimum"][0]),
+            }
+        )
+    return rows
+
+
 def cmd_simulate(args) -> int:
     import numpy as np
 
     study, settings = _simulation_study(args)
     # After the options are checked: these load the engine, joblib and xarray.
-    from .analysis.metrics import evaluations_to_target
-    from .study.grid import chunks, split
+    from .study.grid import chunks
     from .study.runner import execute
 
-    rows = []
-    for chunk, arrays, _ in execute(study, chunks(study), jobs=args.jobs):
-        for replicate, result in split(chunk, arrays):
-            regret = result["regret"][0]
-            nr = result["normalized_regret"][0]
-            ett, reached = evaluations_to_target(nr, study.target)
-            rows.append(
-                {
-                    "replicate": replicate,
-                    "final_regret": float(regret[-1]),
-                    "final_normalized_regret": float(nr[-1]),
-                    "evaluations_to_target": int(ett) if reached else None,
-                    "mode_value_regret": float(result["mode_value"][0] - result["minimum"][0]),
-                }
-            )
+    rows, todo = [], chunks(study)
+    total, done = sum(c.campaigns for c in todo), 0
+    with CampaignBar() as bar:
+        bar.update(done, total)
+        for chunk, arrays, _ in execute(study, todo, jobs=args.jobs):
+            done += chunk.campaigns
+            bar.update(done, total)
+            rows.extend(_simulated(chunk, arrays, study.target))
     rows.sort(key=lambda r: r["replicate"])
     if args.json:
         print(json.dumps({"settings": settings, "replicates": rows}, indent=2))
@@ -185,36 +210,21 @@ def cmd_simulate(args) -> int:
 # --------------------------------------------------------------------------- studies
 
 
-def _progress(quiet: bool):
-    from tqdm import tqdm
-
-    if quiet or not sys.stderr.isatty():
-        return None, None
-    bar = tqdm(total=0, unit="campaign", desc="campaigns", dynamic_ncols=True)
-
-    def update(done: int, total: int) -> None:
-        bar.total = total
-        bar.n = done
-        bar.refresh()
-
-    return bar, update
-
-
 def cmd_check(args) -> int:
     from .plan import check_lines
     from .study.resemblance import resemblance_table, table_lines
     from .study.spec import load
 
     s = load(args.study)
-    # The user's objectives first: one call each at the belief's mode, in a child process.
-    timed = [
-        (e.label, e.spec.probe(s.belief.mode())) for e in s.landscapes if e.kind == "objective"
-    ]
+    # The user's functions first: one call each at the belief's mode, in a child process.
+    timed = [(e.label, e.spec.probe(s.belief.mode())) for e in s.landscapes if e.kind == "function"]
     lines = check_lines(s, args.jobs)  # the plan's pilot, smaller, and the plan's estimate
     print(f"study '{s.name}': {s.title}")
     for label, seconds in timed:
-        print(f"objective {label}: {seconds * 1e3:.1f} ms per call at the belief's mode")
+        print(f"{label}: {seconds * 1e3:.1f} ms per call at the belief's mode")
     print("\n".join(lines))
+    if s.without_belief:
+        print(f"without a belief (uniform over the range): {', '.join(s.without_belief)}")
     table = resemblance_table(s)
     if table is not None:
         print("\n".join(table_lines(table)))
@@ -224,14 +234,15 @@ def cmd_check(args) -> int:
 def _run(study, out: Path, args) -> object:
     from .study.runner import run_study
 
-    bar, update = _progress(args.quiet)
-    try:
+    with CampaignBar(args.quiet) as bar:
         return run_study(
-            study, out, jobs=args.jobs, scheduler=args.scheduler, fresh=args.fresh, progress=update
+            study,
+            out,
+            jobs=args.jobs,
+            scheduler=args.scheduler,
+            fresh=args.fresh,
+            progress=bar.update,
         )
-    finally:
-        if bar is not None:
-            bar.close()
 
 
 def _warn(summary) -> None:
@@ -372,7 +383,7 @@ def _print_recommendation(rec) -> None:
     print("\n".join(rec.lines()))
 
 
-def cmd_recommend(args) -> int:
+def cmd_decide(args) -> int:
     from .analysis import landscape_kinds, recommend, transfer
     from .analysis.recommendation import short_number
 
@@ -455,174 +466,6 @@ def cmd_report(args) -> int:
     return 0
 
 
-# --------------------------------------------------------------------------- parser
-
-
-def build_parser() -> argparse.ArgumentParser:
-    parser = argparse.ArgumentParser(
-        prog="workbench",
-        description="Stress-test a belief about where the optimum lies, on simulated campaigns.",
-    )
-    parser.add_argument("--debug", action="store_true", help="show tracebacks")
-    sub = parser.add_subparsers(dest="command", required=True, metavar="COMMAND")
-
-    p = sub.add_parser("landscapes", help="list the test landscapes and their published optima")
-    p.add_argument("--json", action="store_true", help="print a JSON list")
-    p.set_defaults(func=cmd_landscapes)
-
-    p = sub.add_parser("belief", help="describe a study's belief and draw its marginals")
-    p.add_argument("study", help="study file (TOML)")
-    p.add_argument("--out", help="output folder (default results/<study-name>/)")
-    p.set_defaults(func=cmd_belief)
-
-    p = sub.add_parser("simulate", help="run one grid cell from the command line")
-    p.add_argument("--landscape", required=True)
-    p.add_argument("--dim", type=int, default=None, help="dimension of a generic landscape")
-    p.add_argument("--strategy", required=True)
-    p.add_argument("--budget", type=int, default=30)
-    p.add_argument("--replicates", type=int, default=4)
-    p.add_argument("--seed", type=int, default=0)
-    p.add_argument("--jobs", type=int, default=None, help="parallel workers (default: all cores)")
-    p.add_argument("--belief-spread", type=float, default=0.1, help="sd as a fraction of the range")
-    p.add_argument("--shift", type=float, default=0.0, help="move the belief by this distance")
-    p.add_argument("--scale", type=float, default=1.0, help="multiply the belief's spread")
-    p.add_argument("--misplace", default=None, help="centre the belief on 'worst' or 'decoy'")
-    p.add_argument("--decay", default="hyperbolic:10", help="family:value")
-    p.add_argument("--quantile", type=float, default=DEFAULT_QUANTILE, help="threshold quantile γ")
-    p.add_argument("--exploration", type=float, default=0.0, help="share of uniform proposals")
-    p.add_argument("--initial", default="belief", help="belief|sobol|lhs[:N]")
-    p.add_argument("--target", type=float, default=0.05, help="normalized regret to reach")
-    p.add_argument("--noise", type=float, default=0.0, help="noise sd as a fraction of the gap")
-    p.add_argument("--placement", choices=("random", "native"), default="random")
-    p.add_argument("--random-multiple", type=int, default=1, help="random: k draws per evaluation")
-    p.add_argument("--json", action="store_true")
-    p.set_defaults(func=cmd_simulate)
-
-    p = sub.add_parser("check", help="validate a study and estimate its cost")
-    p.add_argument("study")
-    p.add_argument("--jobs", type=int, default=None)
-    p.set_defaults(func=cmd_check)
-
-    p = sub.add_parser("plan", help="write the study plan: replicates and why, cost, analysis")
-    p.add_argument("study")
-    p.add_argument("--out", help="output folder (default results/<study-name>/)")
-    for option, helptext in (
-        ("--half-width", "half-width of the recovery interval (default 0.1)"),
-        ("--power", "power to tell apart two settings (default 0.8)"),
-        (
-            "--difference",
-            "difference in evaluations to target to detect (default: the gap "
-            "between the pilot's two best settings)",
-        ),
-        ("--confidence", "confidence level; the test's level is 1 - confidence (default 0.95)"),
-        ("--pilot-replicates", "replicates per pilot cell (default 4)"),
-        ("--cap", "most replicates to plan for (default 64)"),
-        ("--workers", "Dask workers for the cluster estimate (default 4)"),
-        ("--jobs", "parallel workers here (default: all cores)"),
-    ):
-        p.add_argument(option, default=None, help=helptext)
-    p.set_defaults(func=cmd_plan)
-
-    for name, func, helptext in (
-        ("run", cmd_run, "run a study's grid (resumes where it stopped)"),
-        ("demo", cmd_demo, "run the built-in demo study"),
-        ("transfer", cmd_transfer, "run the study on its [truth] too: does the answer hold?"),
-    ):
-        p = sub.add_parser(name, help=helptext)
-        if name != "demo":
-            p.add_argument("study")
-        if name == "transfer":
-            p.add_argument("--json", action="store_true", help="print one JSON object")
-            p.add_argument("--confidence", type=float, default=0.95, help="interval level")
-            p.add_argument("--draws", type=int, default=1000, help="bootstrap draws")
-            p.add_argument("--seed", type=int, default=0, help="bootstrap seed")
-        p.add_argument("--out", help="output folder (default results/<study-name>/)")
-        p.add_argument(
-            "--jobs", type=int, default=None, help="parallel workers (default: all cores)"
-        )
-        p.add_argument("--scheduler", default=None, help="Dask scheduler address")
-        p.add_argument("--fresh", action="store_true", help="discard earlier results in --out")
-        p.add_argument("--quiet", action="store_true", help="no progress bar")
-        p.set_defaults(func=func)
-
-    for name, func, helptext, data, datahelp, grid_required in (
-        (
-            "audit",
-            cmd_audit,
-            "check the belief against earlier evaluations (CSV)",
-            "--data",
-            "CSV of earlier evaluations",
-            False,
-        ),
-        (
-            "monitor",
-            cmd_monitor,
-            "read a live campaign against the grid: distortions, advice",
-            "--observations",
-            "CSV of the campaign's evaluations",
-            True,
-        ),
-    ):
-        p = sub.add_parser(name, help=helptext)
-        p.add_argument("study")
-        p.add_argument(data, required=True, help=datahelp)
-        p.add_argument(
-            "--grid", required=grid_required, default=None, help="this study's results folder"
-        )
-        p.add_argument("--response", default=None, help="response column (default: the study's)")
-        p.add_argument("--goal", default=None, help="minimise or maximise (default: the study's)")
-        p.add_argument(
-            "--out", default=None, help=f"output folder (default results/<study>/{name})"
-        )
-        p.add_argument("--json", action="store_true", help="print one JSON object")
-        if name == "audit":
-            p.add_argument("--top", type=float, default=None, help="share of the data that is good")
-        else:
-            p.add_argument("--setting", default=None, help="the campaign's (default: recommended)")
-        p.set_defaults(func=func)
-
-    for name, func, helptext in (
-        ("recommend", cmd_recommend, "pick the setting of a grid under a decision rule"),
-        ("report", cmd_report, "write the HTML report, its figures and a Markdown summary"),
-    ):
-        p = sub.add_parser(name, help=helptext)
-        p.add_argument("dir", metavar="DIR", help="results folder holding grid.nc")
-        p.add_argument(
-            "--rule", default=None, help="expected, minimax or cvar (default: the study's)"
-        )
-        p.add_argument(
-            "--weights", default=None, help="distortion weights, e.g. exact=0.5,shifted=0.5"
-        )
-        p.add_argument("--level", type=float, default=None, help="cvar: worst share of weight")
-        p.add_argument(
-            "--metric",
-            default=None,
-            help="evaluations_to_target, final_normalized_regret or log_regret_area",
-        )
-        p.add_argument(
-            "--landscapes",
-            default=None,
-            help="landscape weights by label or kind (e.g. textbook=0.2,fitted-history=0.8), "
-            "'resemblance' or 'equal' (default: the study's; none set: resemblance when the "
-            "study has earlier evaluations)",
-        )
-        p.add_argument(
-            "--score",
-            default=None,
-            help="raw, ranks or saving: the metric within each landscape (default: the study's)",
-        )
-        p.add_argument("--confidence", type=float, default=0.95, help="interval level")
-        p.add_argument("--draws", type=int, default=1000, help="bootstrap draws")
-        p.add_argument("--seed", type=int, default=0, help="bootstrap seed")
-        if name == "recommend":
-            p.add_argument(
-                "--strategy", default=None, help="choose among one strategy's settings only"
-            )
-            p.add_argument("--json", action="store_true", help="print one JSON object")
-        p.set_defaults(func=func)
-    return parser
-
-
 # What an interrupted command leaves for a rerun (Ctrl-C): only the grid runs save as they go.
 _RESUMES = "the finished chunks are kept in the results folder and a rerun resumes from them"
 _KEPT = {
@@ -662,7 +505,9 @@ def main(argv: list[str] | None = None) -> int:
     try:
         if isinstance(getattr(args, "jobs", None), int):  # plan reads its own options
             check_number(args.jobs, "--jobs", low=1, integer=True, where="command line")
-        return int(args.func(args) or 0)
+        # Each command is the function cmd_<name> of this module (looked up when it runs).
+        with status(STATUS.get(args.command)):
+            return int(globals()[f"cmd_{args.command}"](args) or 0)
     except InputError as err:
         if args.debug:
             raise

@@ -523,8 +523,8 @@ def grid_dir(tmp_path):
     return tmp_path
 
 
-def test_recommend_prints_one_json_object_with_the_choice(grid_dir, capsys):
-    assert main(["recommend", str(grid_dir), "--json", "--draws", "200", "--rule", "minimax"]) == 0
+def test_decide_prints_one_json_object_with_the_choice(grid_dir, capsys):
+    assert main(["decide", str(grid_dir), "--json", "--draws", "200", "--rule", "minimax"]) == 0
     out = json.loads(capsys.readouterr().out)
     for key in ("decay", "quantile", "rule", "metric", "value", "interval", "stability"):
         assert key in out
@@ -539,8 +539,8 @@ def test_recommend_prints_one_json_object_with_the_choice(grid_dir, capsys):
     assert out["runner_up"]["setting"] != out["setting"]
 
 
-def test_recommend_prints_the_choice_in_words(grid_dir, capsys):
-    assert main(["recommend", str(grid_dir), "--draws", "100"]) == 0
+def test_decide_prints_the_choice_in_words(grid_dir, capsys):
+    assert main(["decide", str(grid_dir), "--draws", "100"]) == 0
     out = capsys.readouterr().out
     assert "pseudo-posterior, decay hyperbolic:8, quantile 0.1" in out
     assert "runner-up" in out and "stability" in out
@@ -557,14 +557,14 @@ def test_recommend_prints_the_choice_in_words(grid_dir, capsys):
         ["--draws", "0"],
     ],
 )
-def test_bad_recommend_options_end_with_one_line_and_exit_2(grid_dir, capsys, options):
-    assert main(["recommend", str(grid_dir), *options]) == 2
+def test_bad_decide_options_end_with_one_line_and_exit_2(grid_dir, capsys, options):
+    assert main(["decide", str(grid_dir), *options]) == 2
     err = capsys.readouterr().err
     assert err.count("\n") == 1 and err.startswith("workbench: command line: '")
 
 
 def test_a_missing_grid_is_named_in_one_line(tmp_path, capsys):
-    assert main(["recommend", str(tmp_path / "nowhere")]) == 2
+    assert main(["decide", str(tmp_path / "nowhere")]) == 2
     err = capsys.readouterr().err
     assert err.count("\n") == 1 and str(tmp_path / "nowhere" / "grid.nc") in err
 
@@ -667,14 +667,14 @@ def test_next_levels_lie_beyond_the_edge_and_inside_the_factors_range(levels, fa
 
 
 def test_partial_weights_on_the_command_line_are_refused_in_one_line(grid_dir, capsys):
-    code = main(["recommend", str(grid_dir), "--weights", "exact=0.5,shifted=0.5"])
+    code = main(["decide", str(grid_dir), "--weights", "exact=0.5,shifted=0.5"])
     err = capsys.readouterr().err.strip()
     assert code == 2 and len(err.splitlines()) == 1
     assert "'--weights' must be a weight for every distortion" in err
     assert "missing: misplaced" in err and "exact=0.5,shifted=0.5" in err
     # written out with a 0, the same weights are taken
     full = "exact=0.5,shifted=0.5,misplaced=0"
-    assert main(["recommend", str(grid_dir), "--weights", full, "--draws", "50"]) == 0
+    assert main(["decide", str(grid_dir), "--weights", full, "--draws", "50"]) == 0
 
 
 def test_the_study_files_partial_weights_show_the_zero_they_give():

@@ -69,7 +69,7 @@ def test_monitor_prints_its_validation_with_the_advice_and_writes_its_pages(grid
     ("text", "words"),
     [
         (GOOD.replace("x1,x2,y", "x1,x3,y"), "column"),
-        (GOOD.replace("6,4,2.5", "16,4,2.5"), "row 3, column 'x1'"),
+        (GOOD.replace("6,4,2.5", "16,4,2.5"), "line 4, column 'x1'"),  # header: line 1
         ("x1,x2,y\n5,5,3.1\n", "at least 4 rows"),
     ],
 )

@@ -10,8 +10,8 @@ import workbench
 
 PACKAGE = Path(workbench.__file__).parent
 # validation, seeding, storage, gp < world < engine < study < analysis < report < plan <
-# evidence < cli; the top-level helpers (and lazy, which imports none of workbench) share the
-# lowest rank.
+# evidence < cli (with cli_args and cli_progress); the top-level helpers (and lazy, which
+# imports none of workbench) share the lowest rank.
 ORDER = {
     "validation": 0,
     "seeding": 0,
@@ -26,6 +26,8 @@ ORDER = {
     "plan": 6,
     "evidence": 7,
     "cli": 8,
+    "cli_args": 8,
+    "cli_progress": 8,
 }
 
 

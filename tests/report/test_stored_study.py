@@ -1,5 +1,5 @@
-"""After `run`, nothing parses the study: `report` and `recommend` read grid.nc alone, so a grid
-whose stored study text names an objective beside it never imports that file."""
+"""After `run`, nothing parses the study: `report` and `decide` read grid.nc alone, so a grid
+whose stored study text names a function beside it never imports that file."""
 
 import json
 import textwrap
@@ -71,16 +71,16 @@ def crafted(tmp_path_factory):
     out = folder / "out"
     assert main(["run", str(study), "--out", str(out), "--quiet", "--jobs", "1"]) == 0
     (folder / "evil.py").write_text(EVIL, encoding="utf-8")
-    evil = STUDY.replace('name = "branin"', 'objective = "evil.py:f"').replace("minimax", "cvar")
+    evil = STUDY.replace('name = "branin"', 'function = "evil.py:f"').replace("minimax", "cvar")
     with netCDF4.Dataset(out / "grid.nc", "a") as ds:
         ds.study = evil
         ds.study_path = str(study)
     return folder, out
 
 
-def test_report_and_recommend_never_import_an_objective_named_in_the_grid(crafted, capsys):
+def test_report_and_decide_never_import_a_function_named_in_the_grid(crafted, capsys):
     folder, out = crafted
-    assert main(["recommend", str(out), "--draws", "50", "--json"]) == 0
+    assert main(["decide", str(out), "--draws", "50", "--json"]) == 0
     rec = json.loads(capsys.readouterr().out)
     assert main(["report", str(out), "--draws", "50"]) == 0
     assert not (folder / "imported.marker").exists()

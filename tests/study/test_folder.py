@@ -341,7 +341,7 @@ def test_a_damaged_or_foreign_grid_is_one_line_and_exit_2(damage, words, folder,
     damage(folder / "grid.nc")
     with pytest.raises(InputError, match=words):
         open_grid(folder)
-    code, err = _cli(["recommend", str(folder)], capsys)
+    code, err = _cli(["decide", str(folder)], capsys)
     assert code == 2 and len(err.strip().splitlines()) == 1
     assert words in err and str(folder / "grid.nc") in err
 

@@ -3,7 +3,7 @@ evaluations, computed from the study, stored in the grid at run time, printed by
 shown by the report from the grid alone.
 
 The earlier evaluations are made by branin placed where the study places it (at the belief's
-mode), so the textbook branin landscape is the data's generator, and an objective that returns
+mode), so the textbook branin landscape is the data's generator, and a function that returns
 the same branin with goal = "maximise" is that generator reversed.
 """
 
@@ -58,7 +58,7 @@ STUDY = textwrap.dedent(
     name = "six-hump-camel"
 
     [[landscape]]
-    objective = "reverse.py:reversed_branin"
+    function = "reverse.py:reversed_branin"
     goal = "maximise"
     label = "reversed"
 
@@ -94,7 +94,7 @@ def _generator():
 
 @pytest.fixture(scope="session")
 def kiln(tmp_path_factory):
-    """The study folder (study, data made by the placed branin, the reversed objective), the
+    """The study folder (study, data made by the placed branin, the reversed function), the
     data, the study and its table."""
     folder = tmp_path_factory.mktemp("kiln")
     X = np.random.default_rng(11).random((ROWS, 2))
@@ -110,7 +110,7 @@ def kiln(tmp_path_factory):
 
 @pytest.fixture(scope="session")
 def grid(kiln, tmp_path_factory):
-    """A tiny run of a copy of the study; then its data file and objective are moved away."""
+    """A tiny run of a copy of the study; then its data file and function are moved away."""
     folder = tmp_path_factory.mktemp("kiln-run")
     for name in ("study.toml", "kiln.csv", "reverse.py"):
         shutil.copy(kiln[0] / name, folder / name)
@@ -165,7 +165,7 @@ def test_the_datas_generator_scores_highest_and_its_reverse_lowest(kiln):
     assert (reversed_.estimate, reversed_.low, reversed_.high) == pytest.approx((-1, -1, -1))
     others = [r.estimate for r in table.rows if r.landscape not in ("branin", "reversed")]
     assert all(-1.0 < v < 1.0 for v in others)
-    # The user's objective is the same in every replicate: one placement.
+    # The user's function is the same in every replicate: one placement.
     assert reversed_.placements == 1
     assert max(r.estimate for r in table.rows) == generator.estimate
     assert min(r.estimate for r in table.rows) == reversed_.estimate
@@ -221,7 +221,7 @@ def test_the_grid_carries_the_table_and_the_report_shows_it_without_the_data(kil
             np.asarray(stored[name]), [getattr(r, field) for r in table.rows], rtol=1e-9
         )
     assert list(stored["resemblance_measure"]) == [r.measure for r in table.rows]
-    # The data file and the objective are gone: the report reads the grid alone.
+    # The data file and the function are gone: the report reads the grid alone.
     assert main(["report", str(grid), "--draws", "50"]) == 0
     page = (grid / "report.html").read_text(encoding="utf-8")
     summary = (grid / "summary.md").read_text(encoding="utf-8")

@@ -258,3 +258,24 @@ def test_a_decoy_misplacement_without_a_decoy_names_the_distortion_key():
         _ = Cell(s, 0, 1, 0).belief
     assert info.value.key == "distortion.moved.misplace"
     assert "(use 'worst' instead); got 'branin'" in str(info.value)
+
+
+def test_a_log_scale_integer_parameter_is_read_with_a_factor_belief():
+    # the usual batch size: 16 to 512 on a log scale, believed near 64 within a factor of 4
+    text = USER.replace(
+        "[space.primer]",
+        '[space.batch]\nlower = 16\nupper = 512\ntype = "integer"\nscale = "log"\n[space.primer]',
+    ).replace("[belief.primer]", "[belief.batch]\ncentre = 64\nfactor = 4\n[belief.primer]")
+    text = text.replace('name = "shekel5"', 'name = "levy"\ndim = 5')
+    s = make_study(text)
+    batch = s.space["batch"]
+    assert batch.log and batch.integer and (batch.lower, batch.upper) == (16, 512)
+    assert s.space.format_point(s.belief.mode())["batch"] == 64
+    for bad, message in (
+        ("lower = 16", "'space.batch.lower' must be an integer in [1, inf); got 0"),
+        ("upper = 512", "'space.batch.upper' must be an integer greater than lower (16); got 8"),
+    ):
+        edited = text.replace(bad, "lower = 0" if "lower" in bad else "upper = 8")
+        with pytest.raises(InputError) as info:
+            make_study(edited)
+        assert str(info.value).endswith(message)

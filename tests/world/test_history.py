@@ -65,10 +65,12 @@ def test_the_table_becomes_cube_points_and_values_to_minimise(tmp_path):
 BAD = [
     (GOOD.replace("flour,crumb", "flour,crust"), "column 'crumb'"),
     (GOOD.replace("flour,crumb", "flour,crumb,colour").replace("\n2", ",1\n2"), "column 'colour'"),
-    (GOOD.replace("210,70,wheat", "210,seventy,wheat"), "row 2, column 'proving'"),
-    (GOOD.replace("7.9", "nan"), "row 3, column 'crumb'"),
-    (GOOD.replace("240,100", "260,100"), "row 5, column 'temperature'"),
-    (GOOD.replace("230,90,wheat", "230,90,spelt"), "row 4, column 'flour'"),
+    (GOOD.replace("210,70,wheat", "210,seventy,wheat"), "line 4, column 'proving'"),
+    # the line as an editor counts it: the comment, the header and blank lines count
+    (GOOD.replace("210,70,wheat", "\n\n210,seventy,wheat"), "line 6, column 'proving'"),
+    (GOOD.replace("7.9", "nan"), "line 5, column 'crumb'"),
+    (GOOD.replace("240,100", "260,100"), "line 7, column 'temperature'"),
+    (GOOD.replace("230,90,wheat", "230,90,spelt"), "line 6, column 'flour'"),
     ("temperature,proving,flour,crumb\n200,60,rye,6\n210,70,wheat,7\n", "'data'"),
     (
         GOOD.replace("6.1", "7")
@@ -82,7 +84,7 @@ BAD = [
 
 
 @pytest.mark.parametrize(("text", "names"), BAD)
-def test_a_bad_data_file_is_one_line_naming_file_row_and_column(text, names, tmp_path, capsys):
+def test_a_bad_data_file_is_one_line_naming_file_line_and_column(text, names, tmp_path, capsys):
     (tmp_path / "h.csv").write_text(text)
     study = tmp_path / "s.toml"
     study.write_text(textwrap.dedent(SPACE) + '[[landscape]]\ndata = "h.csv"\nresponse = "crumb"\n')
@@ -104,14 +106,14 @@ def test_a_bad_data_file_is_one_line_naming_file_row_and_column(text, names, tmp
         ("broken.py:score", "a file that imports"),
     ],
 )
-def test_a_missing_objective_file_or_function_is_one_line(reference, words, tmp_path, capsys):
+def test_a_missing_function_file_or_function_name_is_one_line(reference, words, tmp_path, capsys):
     (tmp_path / "process.py").write_text("def score(temperature, proving, flour):\n    return 1\n")
     (tmp_path / "broken.py").write_text("import a_module_that_is_not_there\n")
     study = tmp_path / "s.toml"
-    study.write_text(textwrap.dedent(SPACE) + f'[[landscape]]\nobjective = "{reference}"\n')
+    study.write_text(textwrap.dedent(SPACE) + f'[[landscape]]\nfunction = "{reference}"\n')
     out = tmp_path / "out"
     code = main(["run", str(study), "--out", str(out), "--quiet"])
     err = capsys.readouterr().err.strip()
     assert code == 2 and len(err.splitlines()) == 1
-    assert "s.toml" in err and "landscape[0].objective" in err and words in err
+    assert "s.toml" in err and "landscape[0].function" in err and words in err
     assert not out.exists()

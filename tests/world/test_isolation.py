@@ -1,4 +1,4 @@
-"""The user's objective in a child process: misbehaving functions are failed evaluations."""
+"""The user's function in a child process: misbehaving functions are failed evaluations."""
 
 import math
 import textwrap
@@ -11,7 +11,7 @@ from workbench.cli import main
 from workbench.study.spec import load
 from workbench.world.isolation import Evaluator
 
-# Each objective misbehaves only at x1 > 9.9 (a 150th of the range [-5, 10]: few restarts), else it
+# Each function misbehaves only at x1 > 9.9 (a 150th of the range [-5, 10]: few restarts), else it
 # is the paraboloid (x1 - 2)^2 + (x2 - 4)^2.
 MISBEHAVIOURS = {
     "os-exit": "import os; os._exit(1)",
@@ -24,7 +24,7 @@ MISBEHAVIOURS = {
 }
 
 
-def _objective(tmp_path, bad: str, where: str = "x1 > 9.9") -> None:
+def _user_function(tmp_path, bad: str, where: str = "x1 > 9.9") -> None:
     (tmp_path / "process.py").write_text(
         "import time\n"
         "def score(x1, x2):\n"
@@ -55,7 +55,7 @@ def _study(tmp_path, extra: str = "") -> str:
         centre = 3
         spread = 0.2
         [[landscape]]
-        objective = "process.py:score"
+        function = "process.py:score"
         {extra}
         [distortion]
         shifted = {{ shift = 0.2 }}
@@ -70,7 +70,7 @@ def _study(tmp_path, extra: str = "") -> str:
 
 @pytest.mark.parametrize("kind", sorted(MISBEHAVIOURS))
 def test_a_misbehaving_point_is_a_failed_evaluation_and_the_run_finishes(tmp_path, kind):
-    _objective(tmp_path, MISBEHAVIOURS[kind])
+    _user_function(tmp_path, MISBEHAVIOURS[kind])
     child = Evaluator(str(tmp_path / "process.py"), "score", ("x1", "x2"), 5.0)
     try:
         results = child.evaluate([{"x1": 9.95, "x2": 1.0}, {"x1": 1.0, "x2": 1.0}])
@@ -82,7 +82,7 @@ def test_a_misbehaving_point_is_a_failed_evaluation_and_the_run_finishes(tmp_pat
     # In a run the point misbehaves once (a marker file), so that a crash's restart of the
     # child is paid once: the run must still finish with a grid.
     marker = tmp_path / "misbehaved"
-    _objective(
+    _user_function(
         tmp_path,
         f"open({str(marker)!r}, 'w').close(); {MISBEHAVIOURS[kind]}",
         where=f"x1 > 9.9 and not __import__('os').path.exists({str(marker)!r})",
@@ -94,7 +94,7 @@ def test_a_misbehaving_point_is_a_failed_evaluation_and_the_run_finishes(tmp_pat
 
 
 def test_a_point_past_the_time_limit_fails_and_the_next_is_evaluated(tmp_path):
-    _objective(tmp_path, "time.sleep(30)")
+    _user_function(tmp_path, "time.sleep(30)")
     child = Evaluator(str(tmp_path / "process.py"), "score", ("x1", "x2"), 1.0)
     try:
         (slow, why), (good, _) = child.evaluate([{"x1": 9.95, "x2": 1.0}, {"x1": 2, "x2": 4}])
@@ -104,10 +104,10 @@ def test_a_point_past_the_time_limit_fails_and_the_next_is_evaluated(tmp_path):
     assert good == 0.0
 
 
-def test_a_sleeping_objective_is_cut_off_in_a_run_with_a_one_second_limit(tmp_path):
+def test_a_sleeping_function_is_cut_off_in_a_run_with_a_one_second_limit(tmp_path):
     # Sleeps at one point only (the first call anywhere makes a marker), so the run stays fast.
     marker = tmp_path / "slept"
-    _objective(
+    _user_function(
         tmp_path,
         f"open({str(marker)!r}, 'w').close(); time.sleep(30)",
         where=f"not __import__('os').path.exists({str(marker)!r})",
@@ -118,17 +118,17 @@ def test_a_sleeping_objective_is_cut_off_in_a_run_with_a_one_second_limit(tmp_pa
     assert marker.exists() and (out / "grid.nc").exists()
 
 
-def test_an_objective_failing_everywhere_stops_the_run_with_one_line(tmp_path, capsys):
-    _objective(tmp_path, "raise ValueError('the oven is cold')", where="True")
+def test_a_function_failing_everywhere_stops_the_run_with_one_line(tmp_path, capsys):
+    _user_function(tmp_path, "raise ValueError('the oven is cold')", where="True")
     out = tmp_path / "out"
     assert main(["run", _study(tmp_path), "--out", str(out), "--jobs", "1", "--quiet"]) == 2
     err = capsys.readouterr().err.strip()
     assert len(err.splitlines()) == 1
-    assert "process.py" in err and "objective-score" in err and "the oven is cold" in err
+    assert "process.py" in err and "function-score" in err and "the oven is cold" in err
     assert not (out / "grid.nc").exists()
 
 
-def test_check_names_the_parameters_a_misnamed_objective_does_not_take(tmp_path, capsys):
+def test_check_names_the_parameters_a_misnamed_function_does_not_take(tmp_path, capsys):
     (tmp_path / "process.py").write_text("def score(x1, temperature):\n    return x1\n")
     assert main(["check", _study(tmp_path)]) == 2
     captured = capsys.readouterr()
@@ -139,21 +139,21 @@ def test_check_names_the_parameters_a_misnamed_objective_does_not_take(tmp_path,
 
 
 @pytest.mark.parametrize("bad", ["import os; os._exit(1)", "return 'x'", "time.sleep(30)"])
-def test_check_reports_an_objective_failing_at_the_belief_mode(tmp_path, capsys, bad):
-    _objective(tmp_path, bad, where="True")
+def test_check_reports_a_function_failing_at_the_belief_mode(tmp_path, capsys, bad):
+    _user_function(tmp_path, bad, where="True")
     assert main(["check", _study(tmp_path, "time_limit = 1")]) == 2
     line = capsys.readouterr().err.strip()
     assert len(line.splitlines()) == 1 and "process.py" in line and "belief's mode" in line
 
 
-def test_check_times_a_well_behaved_objective(tmp_path, capsys):
-    _objective(tmp_path, "pass", where="False")
+def test_check_times_a_well_behaved_function(tmp_path, capsys):
+    _user_function(tmp_path, "pass", where="False")
     assert main(["check", _study(tmp_path)]) == 0
     assert "ms per call at the belief's mode" in capsys.readouterr().out
 
 
 def test_isolated_values_equal_direct_evaluation(tmp_path):
-    _objective(tmp_path, "pass", where="False")
+    _user_function(tmp_path, "pass", where="False")
     study = load(_study(tmp_path))
     spec = study.landscapes[0].spec
     U = np.random.default_rng(0).random((64, 2))
@@ -162,5 +162,5 @@ def test_isolated_values_equal_direct_evaluation(tmp_path):
     direct = [(a - 2) ** 2 + (b - 4) ** 2 for a, b in x]
     np.testing.assert_array_equal(spec.function()(U), direct)
     # Its minimum 0 at (2, 4) (by hand), found through the child as well.
-    land = spec.landscape("objective-score", 2, np.random.default_rng(1))
+    land = spec.landscape("function-score", 2, np.random.default_rng(1))
     assert math.isclose(land.minimum, 0.0, abs_tol=1e-6)

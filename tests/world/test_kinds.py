@@ -1,4 +1,4 @@
-"""Landscapes from the user's world (drawn, fitted, objective) as a study builds and runs them."""
+"""Landscapes from the user's world (drawn, fitted, function) as a study builds and runs them."""
 
 import math
 import textwrap
@@ -142,27 +142,27 @@ def test_a_study_mixing_every_kind_runs_resumes_and_records_optima_and_kinds(tmp
     data = "history.csv"
     response = "score"
     [[landscape]]
-    objective = "process.py:score"
+    function = "process.py:score"
     minimum = 0.0
     [[landscape]]
-    objective = "process.py:as_dict"
-    label = "dict-objective"
+    function = "process.py:as_dict"
+    label = "dict-function"
     """
     study = load(_study(tmp_path, landscapes))
     out = tmp_path / "out"
-    summary = run_study(study, out, jobs=2)  # worker processes import the objective by path
+    summary = run_study(study, out, jobs=2)  # worker processes import the function by path
     ds = xr.open_dataset(summary.grid).load()
     assert list(ds["landscape_kind"].values) == [
         "textbook",
         "drawn",
         "fitted",
-        "objective",
-        "objective",
+        "function",
+        "function",
     ]
     assert list(ds["minimum_estimated"].values) == [0, 1, 1, 0, 1]
-    # the known objective's minimum is where the function says: (2, 4), value 0
+    # the known function's minimum is where the function says: (2, 4), value 0
     np.testing.assert_allclose(
-        ds["optimum"].sel(landscape="objective-score").values, [[2, 4]] * 2, atol=1e-3
+        ds["optimum"].sel(landscape="function-score").values, [[2, 4]] * 2, atol=1e-3
     )
     assert np.all(np.isfinite(ds["optimum_cube"].values))
     # No campaign beats a computed minimum.
@@ -175,18 +175,18 @@ def test_a_study_mixing_every_kind_runs_resumes_and_records_optima_and_kinds(tmp
     assert again.resumed > 0
     xr.testing.assert_identical(xr.open_dataset(again.grid).load(), ds)
     by_kind = an.transfer(ds, an.decision_rule(ds), an.Resampling(draws=200, seed=1))
-    assert list(by_kind["kind"].values) == ["textbook", "drawn", "fitted", "objective"]
+    assert list(by_kind["kind"].values) == ["textbook", "drawn", "fitted", "function"]
     assert np.isnan(float(by_kind["cost"].sel(kind="textbook")))
 
 
-def test_failing_objective_points_are_failed_evaluations(tmp_path):
+def test_failing_function_points_are_failed_evaluations(tmp_path):
     (tmp_path / "process.py").write_text(
         "def score(x1, x2):\n"
         "    if x1 > 2:\n"
         "        raise ValueError('no')\n"
         "    return x1**2 + x2\n"
     )
-    study = load(_study(tmp_path, '[[landscape]]\nobjective = "process.py:score"'))
+    study = load(_study(tmp_path, '[[landscape]]\nfunction = "process.py:score"'))
     cell = Cell(study, 0, 0, 0)
     U = np.array([[0.1, 0.5], [0.9, 0.5]])  # x1 = −3.5 and 8.5
     values = cell.placement.value(U)

@@ -1,9 +1,16 @@
 import numpy as np
 import pytest
+import scipy.stats
 from hypothesis import given
 from hypothesis import strategies as st
 
+from workbench.engine.batch import run
+from workbench.engine.campaign import Campaign
+from workbench.seeding import campaign_streams, derive
+from workbench.study.decay import parse
 from workbench.validation import InputError
+from workbench.world import landscapes as ls
+from workbench.world.beliefs import gaussian_at
 from workbench.world.space import Categorical, Continuous, Integer, Space
 
 
@@ -68,3 +75,51 @@ def test_an_unknown_choice_is_a_plain_value_error():
     with pytest.raises(ValueError, match="one of 'rye', 'wheat'") as err:
         Categorical("flour", ("rye", "wheat")).to_unit(np.array(["spelt"]))
     assert not isinstance(err.value, InputError)
+
+
+def test_a_log_scale_integer_rounds_its_log_coordinate_and_keeps_its_bounds():
+    batch = Continuous("batch", 16, 512, log=True, integer=True)
+    assert batch.from_unit(np.array([0.0, 1.0])).tolist() == [16, 512]
+    # the geometric midpoint sqrt(16 * 512) = 90.51 rounds to 91
+    assert batch.from_unit(np.array([0.5])).tolist() == [91]
+    # Each value v owns the u that round to it: its share of a uniform u is the log-uniform
+    # probability of [v - 0.5, v + 0.5) cut to the bounds (reference: scipy.stats.loguniform).
+    u = (np.arange(400_000) + 0.5) / 400_000
+    values, counts = np.unique(batch.from_unit(u), return_counts=True)
+    assert values.tolist() == list(range(16, 513))
+    ref = scipy.stats.loguniform(16, 512)
+    expected = ref.cdf(np.minimum(values + 0.5, 512)) - ref.cdf(np.maximum(values - 0.5, 16))
+    np.testing.assert_allclose(counts / len(u), expected, atol=5e-6)
+    assert "integer" in batch.describe()
+    with pytest.raises(ValueError, match="whole numbers"):
+        Continuous("batch", 16.5, 512, log=True, integer=True)
+
+
+@given(st.lists(st.floats(0, 1), min_size=2, max_size=2))
+def test_a_log_scale_integer_snaps_to_the_coordinate_of_its_rounded_value(u):
+    space = Space(
+        (Continuous("lr", 1e-5, 1e-1, log=True), Continuous("batch", 16, 512, True, "", True))
+    )
+    once = space.snap(np.array([u]))
+    np.testing.assert_allclose(space.snap(once), once)
+    batch = space.from_unit(once)[1]
+    assert batch.dtype.kind == "i" and 16 <= batch[0] <= 512
+    assert batch[0] == space.from_unit(np.array([u]))[1][0]
+    assert space.is_discrete.tolist() == [False, True]
+
+
+def test_a_campaign_evaluates_a_log_scale_integer_only_at_whole_numbers():
+    space = Space((Continuous("x", 0, 1), Continuous("batch", 16, 512, True, "", True)))
+    placement = ls.get("branin").placed(at=[0.3, 0.6])
+    for strategy in ("pseudo-posterior", "prior-weighted"):
+        c = Campaign(
+            strategy,
+            placement,
+            space,
+            gaussian_at([0.3, 0.6], 0.15),
+            10,
+            decay=parse("hyperbolic:4"),
+        )
+        points = run(c, campaign_streams(derive(3, 1))).points
+        np.testing.assert_allclose(space.snap(points), points)
+        assert len(np.unique(space.from_unit(points)[1])) > 3  # it moves along the axis

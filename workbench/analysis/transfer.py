@@ -1,7 +1,7 @@
 """Does the answer transfer? The setting each kind of landscape alone recommends, and what the
 setting chosen on the textbook landscapes costs on the others.
 
-A landscape's kind (textbook, drawn, fitted, objective) is the grid's ``landscape_kind``
+A landscape's kind (textbook, drawn, fitted, function) is the grid's ``landscape_kind``
 (textbook when the grid has none). For each kind present, the rule picks a setting using only
 that kind's landscapes. On every kind but textbook, the cost of the textbook choice is the
 rule's score of that choice minus the score of the kind's own choice, both on the kind's

@@ -2,7 +2,7 @@
 
 Two grids share their belief-guided settings, distortions and decision rule: the study's
 simulated grid and a grid of the same campaigns run on the truth (a table of measured
-configurations, or the user's objective). Each grid gives every setting a score under the rule
+configurations, or the user's function). Each grid gives every setting a score under the rule
 (lower is better). The check compares the two orders:
 
 - **Spearman** and **Kendall** (τ-b) correlation between the simulated and the real scores of

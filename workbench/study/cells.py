@@ -83,12 +83,12 @@ class Cell:
     @property
     def land(self) -> ls.Landscape:
         """This replicate's landscape: a textbook function, or one built by its kind (a new
-        drawn or fitted surface per replicate; the user's objective is the same in all). A
+        drawn or fitted surface per replicate; the user's function is the same in all). A
         drawn surface comes cut so that its minimum sits where the placement puts it."""
         e = self.entry
         if e.kind == "textbook":
             return ls.get(e.name, e.dim)
-        replicate = 0 if e.kind == "objective" else self.replicate
+        replicate = 0 if e.kind == "function" else self.replicate
         at = self._at if e.placed_at_belief else None
         return _built(e.spec, e.label, e.dim, self.study.seed, replicate, at)
 
@@ -109,7 +109,7 @@ class Cell:
     def placement(self):
         land = self.land
         if self.entry.kind != "textbook":
-            # Fitted, table and objective: the truth is where the data or function put it; a
+            # Fitted, table and function: the truth is where the data or function put it; a
             # drawn surface already comes cut around its placement.
             return land.placed()
         return land.placed(at=self._at)
@@ -162,7 +162,7 @@ class Cell:
 
 @lru_cache(maxsize=64)
 def _built(spec, label: str, dim: int, seed: int, replicate: int, at) -> ls.Landscape:
-    """The landscape of a drawn, fitted or objective entry for one replicate (cached: every
+    """The landscape of a drawn, fitted or function entry for one replicate (cached: every
     distortion of a replicate shares it), from its own stream."""
     rng = generator(derive(seed, label, "surface", replicate))
     if at is not None:

@@ -16,7 +16,7 @@ Per cell: ``mode_value`` (the landscape's value at the belief's mode, the expert
 ``severity_distance`` and ``severity_mass`` over (landscape, distortion, replicate); per
 placement ``minimum`` and ``gap`` over (landscape, replicate), and where the (first) global
 minimiser lies, ``optimum`` (user units) and ``optimum_cube``, over (landscape, replicate,
-coordinate). Per landscape: ``landscape_kind`` (textbook, drawn, fitted, objective),
+coordinate). Per landscape: ``landscape_kind`` (textbook, drawn, fitted, function),
 ``landscape_noise`` and ``minimum_estimated`` (1 where the minimum comes from a search rather
 than a publication or the user).
 

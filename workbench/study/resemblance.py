@@ -5,7 +5,7 @@ The earlier evaluations are those of the first landscape that reads them (a fitt
 landscape: cube points ``X``, values to minimise ``y``, their ``source``). Each landscape is
 scored by what it is:
 
-- placed landscapes (textbook, drawn, likedata) and the user's table or objective: the rank
+- placed landscapes (textbook, drawn, likedata) and the user's table or function: the rank
   agreement (Spearman) of the landscape's values at the data's configurations with the
   measured responses, the median over the first replicate placements (:data:`PLACEMENTS`;
   :data:`BUILT_PLACEMENTS` for surfaces built per replicate, each of which costs a minimum
@@ -61,7 +61,7 @@ DESIGN_POINTS = 64
 # Kinds that read the earlier evaluations, and the kinds built anew per replicate.
 _READERS = ("fitted", "likedata")
 _BUILT = ("drawn", "likedata")
-_ONE_PLACEMENT = ("table", "objective")
+_ONE_PLACEMENT = ("table", "function")
 # Bootstrap draws of the rank intervals, and their level.
 DRAWS = 1000
 LEVEL = 0.95
@@ -152,7 +152,7 @@ def _placed_row(
     entry = study.landscapes[index]
     placements = _placements(study, index, limit)
     values = np.array([p.value(data.X) for p in placements])
-    # A configuration where any placement fails (a table without it, an objective that
+    # A configuration where any placement fails (a table without it, a function that
     # raised) is left out; fewer than 3 left: no ranking to speak of.
     keep = np.isfinite(values).all(axis=0)
     estimate = low = high = math.nan

@@ -417,7 +417,7 @@ def _work(
 
 
 def _groups(study: Study, todo: list[Chunk]) -> list[list[Chunk]]:
-    """The tasks: on a landscape built per replicate (drawn, fitted, objective), the chunks of
+    """The tasks: on a landscape built per replicate (drawn, fitted, function), the chunks of
     one block of replicates, whatever their distortion, so that one worker builds each
     replicate's surface and searches its minimum once for all of them
     (:mod:`workbench.study.cells` keeps it); a textbook landscape's chunks one by one, which
@@ -463,7 +463,7 @@ def execute(
     study: Study, todo: list[Chunk], *, jobs: int | None = None, scheduler: str | None = None
 ) -> Iterator[tuple[Chunk, dict, float]]:
     """Run ``todo`` in parallel; yield (chunk, arrays, seconds) as each chunk finishes (on a
-    drawn, fitted or objective landscape, the chunks of one block finish together)."""
+    drawn, fitted or function landscape, the chunks of one block finish together)."""
     with _backend(scheduler):
         yield from _parallel(study, todo, jobs, scheduler is not None)
 

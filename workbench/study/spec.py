@@ -151,13 +151,22 @@ class Study:
     @property
     def digest(self) -> str:
         """SHA-256 of the study text and of the files its landscapes read: a changed study,
-        data file or objective is a different grid."""
+        data file or function is a different grid."""
         h = hashlib.sha256(self.text.encode("utf-8"))
         for entry in self.landscapes:
             h.update(entry.label.encode())
             if entry.spec is not None and getattr(entry.spec, "digest", ""):
                 h.update(entry.spec.digest.encode())
         return h.hexdigest()
+
+    @property
+    def without_belief(self) -> tuple[str, ...]:
+        """The space's parameters that have no ``[belief.<name>]`` table: the belief is
+        uniform over their range."""
+        if self.space is None:
+            return ()
+        given = tomllib.loads(self.text).get("belief", {})
+        return () if "points" in given else tuple(n for n in self.space.names if n not in given)
 
     def truth_study(self) -> Study:
         """The same campaigns on the truth: its one landscape, its replicates, no truth."""
@@ -443,7 +452,7 @@ def _parse(
 
 def _truth(table, space, base) -> tuple[LandscapeEntry | None, int]:
     """The ``[truth]`` table: a landscape entry that is the real response (a ``table`` of
-    measured configurations or the user's ``objective``), and the replicates of its grid."""
+    measured configurations or the user's ``function``), and the replicates of its grid."""
     if table is None:
         return None, TRUTH_REPLICATES
     table = dict(check_table(table, "truth"))
@@ -464,7 +473,7 @@ def _truth(table, space, base) -> tuple[LandscapeEntry | None, int]:
         ) from None
     if entry.placed_at_belief:
         raise InputError(
-            "truth", "a 'table' or an 'objective' (the real response)", raw(f"a {entry.kind}")
+            "truth", "a 'table' or a 'function' (the real response)", raw(f"a {entry.kind}")
         )
     return replace(entry, label="truth"), replicates
 

@@ -80,7 +80,7 @@ class LandscapeEntry:
     @property
     def placed_at_belief(self) -> bool:
         """Whether the truth is moved to the belief's mode: textbook functions and surfaces
-        drawn per replicate are; fitted surfaces, tables and the user's objective are not
+        drawn per replicate are; fitted surfaces, tables and the user's function are not
         (there the data or the function say where the optimum is). The kind says."""
         return self.spec is None or self.spec.placed_at_belief
 
@@ -114,9 +114,15 @@ def space_table(table) -> Space:
         unit = spec.get("unit", "")
         if not isinstance(unit, str):
             raise InputError(f"{key}.unit", "a string", unit)
-        if kind == "integer":
-            if scale == "log":
-                raise InputError(f"{key}.scale", "'linear' for an integer parameter", scale)
+        if kind == "integer" and scale == "log":
+            # A log-scale integer (a batch size): the log coordinate, rounded (see space.py).
+            check_string(name, "name")
+            lower = check_number(spec["lower"], f"{key}.lower", low=1, integer=True)
+            upper = check_number(spec["upper"], f"{key}.upper", integer=True)
+            if lower >= upper:
+                raise InputError(f"{key}.upper", f"an integer greater than lower ({lower})", upper)
+            params.append(Continuous(name, lower, upper, True, unit, integer=True))
+        elif kind == "integer":
             check_string(name, "name")
             lower = check_number(spec["lower"], f"{key}.lower", integer=True)
             upper = check_number(spec["upper"], f"{key}.upper", integer=True)
@@ -167,7 +173,7 @@ _KIND_KEYS = {
     "fitted": ("data", "response", "goal", "data_noise", "features", "warp", "noise", "label"),
     "likedata": ("drawn_like", "response", "goal", "features", "noise", "label"),
     "table": ("table", "response", "goal", "lookup", "noise", "label"),
-    "objective": ("objective", "goal", "minimum", "maximum", "time_limit", "noise", "label"),
+    "function": ("function", "goal", "minimum", "maximum", "time_limit", "noise", "label"),
 }
 # The key that names each kind of landscape.
 _KIND_OF = {
@@ -176,7 +182,7 @@ _KIND_OF = {
     "data": "fitted",
     "drawn_like": "likedata",
     "table": "table",
-    "objective": "objective",
+    "function": "function",
 }
 _NAMING_KEYS = ", ".join(f"'{k}'" for k in _KIND_OF)
 
@@ -189,6 +195,10 @@ def landscape_tables(entries, space: Space | None, base: Path) -> tuple[Landscap
     for i, entry in enumerate(entries):
         key = f"landscape[{i}]"
         entry = check_table(entry, key)
+        if "objective" in entry:  # the old name of the key: refused by name
+            raise InputError(
+                f"{key}.objective", "written 'function' (the key's new name)", raw("'objective'")
+            )
         kinds = [k for k in _KIND_OF if k in entry]
         if len(kinds) != 1:
             raise InputError(key, f"exactly one of {_NAMING_KEYS}", raw(", ".join(kinds) or "none"))
@@ -329,6 +339,7 @@ def _table(entry, key, space, noise, base) -> LandscapeEntry:
             digest=history.digest,
             response=history.response,
             goal=history.goal,
+            lines=history.lines,
         )
     except ValueError as err:
         raise InputError(
@@ -340,10 +351,10 @@ def _table(entry, key, space, noise, base) -> LandscapeEntry:
     return LandscapeEntry("table", space.dim, noise, f"table-{Path(file).stem}", "table", spec)
 
 
-def _objective(entry, key, space, noise, base) -> LandscapeEntry:
+def _user_function(entry, key, space, noise, base) -> LandscapeEntry:
 
     goal = _goal(entry, key)
-    path, name = kinds.find_function(entry["objective"], base, None, f"{key}.objective")
+    path, name = kinds.find_function(entry["function"], base, None, f"{key}.function")
     wrong = "maximum" if goal == "minimise" else "minimum"
     if wrong in entry:
         raise InputError(f"{key}.{wrong}", f"absent when goal = {goal!r}", entry[wrong])
@@ -359,10 +370,10 @@ def _objective(entry, key, space, noise, base) -> LandscapeEntry:
         low=0.0,
         closed="neither",
     )
-    spec = kinds.Objective(
+    spec = kinds.UserFunction(
         path, name, space, goal, best, digest=kinds.file_digest(path), time_limit=float(limit)
     )
-    return LandscapeEntry("objective", space.dim, noise, f"objective-{name}", "objective", spec)
+    return LandscapeEntry("function", space.dim, noise, f"function-{name}", "function", spec)
 
 
 # How each kind of landscape entry is parsed.
@@ -372,7 +383,7 @@ _PARSERS = {
     "fitted": _fitted,
     "likedata": _likedata,
     "table": _table,
-    "objective": _objective,
+    "function": _user_function,
 }
 
 

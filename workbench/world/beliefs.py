@@ -650,7 +650,8 @@ def _user_value(parameter: Parameter, u: float):
     value = parameter.from_unit(np.array([u]))[0]
     if isinstance(parameter, Categorical):
         return parameter.choices[int(value)]
-    return int(value) if isinstance(parameter, Integer) else float(value)
+    whole = isinstance(parameter, Integer) or getattr(parameter, "integer", False)
+    return int(value) if whole else float(value)
 
 
 def _top_choices(parameter: Categorical, marginal, mass: float) -> tuple[str, ...]:

@@ -5,7 +5,7 @@ one response column, and nothing else; lines starting with ``#`` are comments (s
 the data come from, or that they are invented). Every cell is checked: a missing or unknown
 column, a cell that is not a number (or is NaN), a value outside the parameter's bounds, an
 unknown categorical level, too few rows or a constant response give one line naming the file,
-the row and the column, and nothing is read.
+the line of the file (1 = the header) and the column, and nothing is read.
 
 The table becomes cube points and values in the minimising orientation (``goal = "maximise"``
 negates the response), ready for the GP. :func:`read_table` reads any table of parameter
@@ -29,7 +29,7 @@ from ..seeding import derive, generator
 from ..storage import read_input
 
 # InputError here on purpose: read_history reads the user's own CSV file, so it is a reader at
-# the edge (it names the file, row and column), not a constructor of cube-level values.
+# the edge (it names the file, line and column), not a constructor of cube-level values.
 from ..validation import InputError, closest, raw
 from .space import Categorical, Integer, Space
 
@@ -67,7 +67,8 @@ class History:
 
     ``X`` cube points (n, d); ``y`` values to minimise (n,); ``response`` the column's name and
     ``goal`` its direction; ``path`` the file; ``digest`` a hash of its bytes (so a grid can say
-    which data it was built on).
+    which data it was built on); ``lines`` each row's line in the file (1 = the header), for
+    messages.
     """
 
     X: np.ndarray = field(repr=False)
@@ -76,6 +77,7 @@ class History:
     goal: str
     path: str
     digest: str
+    lines: tuple[int, ...] = field(default=(), repr=False)
 
     def __hash__(self) -> int:
         return hash((self.path, self.digest, self.response, self.goal))
@@ -102,7 +104,8 @@ class History:
             return self
         rng = generator(derive(0, "fitting rows", self.digest))
         keep = np.sort(rng.choice(self.rows, size=limit, replace=False))
-        return replace(self, X=self.X[keep], y=self.y[keep])
+        lines = tuple(self.lines[i] for i in keep) if self.lines else ()
+        return replace(self, X=self.X[keep], y=self.y[keep], lines=lines)
 
 
 def _excerpt(text: str) -> str:
@@ -138,7 +141,7 @@ def _cell(param, text: str, where: str, key: str) -> float:
             raise InputError(key, f"one of {', '.join(param.choices)}", raw(_excerpt(text)), where)
         return float(param.to_unit(np.array([text]))[0])
     value = _number(text, where, key)
-    if isinstance(param, Integer):
+    if isinstance(param, Integer) or param.integer:
         if value != int(value):
             raise InputError(key, "a whole number", raw(_excerpt(text)), where)
     if not param.lower <= value <= param.upper:
@@ -151,12 +154,14 @@ def _cell(param, text: str, where: str, key: str) -> float:
 @dataclass(frozen=True)
 class Table:
     """A checked CSV table: ``X`` the parameter columns as cube points (n, d), ``columns`` each
-    named numeric column (n,), ``path`` the file and ``digest`` a hash of its bytes."""
+    named numeric column (n,), ``path`` the file, ``digest`` a hash of its bytes and ``lines``
+    each row's line in the file (1 = the header; comments and blank lines count)."""
 
     X: np.ndarray = field(repr=False)
     columns: dict[str, np.ndarray] = field(repr=False)
     path: str
     digest: str
+    lines: tuple[int, ...] = field(default=(), repr=False)
 
     @property
     def rows(self) -> int:
@@ -175,8 +180,9 @@ def read_table(
     categorical levels by name), the numeric ``columns``, and nothing else; lines starting with
     ``#`` are comments.
 
-    Every cell is checked; a wrong one raises :class:`InputError` naming the file, the row
-    (1 = first data row) and the column, and nothing is read. At least ``min_rows`` rows
+    Every cell is checked; a wrong one raises :class:`InputError` naming the file, the line
+    (as an editor counts: 1 = the first line, usually the header) and the column, and nothing
+    is read. At least ``min_rows`` rows
     (``rows_meaning`` says why, in the message) must be there.
     """
     path = Path(path)
@@ -186,9 +192,12 @@ def read_table(
         text = raw_bytes.decode("utf-8-sig")
     except UnicodeDecodeError:
         raise InputError("data", "a UTF-8 text file", raw("undecodable bytes"), where) from None
-    lines = [
-        line for line in text.splitlines() if line.strip() and not line.lstrip().startswith("#")
+    numbered = [
+        (n, line)
+        for n, line in enumerate(text.splitlines(), start=1)
+        if line.strip() and not line.lstrip().startswith("#")
     ]
+    lines = [line for _, line in numbered]
     if not lines:
         raise InputError("data", "a header row and data rows", raw("nothing"), where)
     if len(lines) - 1 > MAX_ROWS:
@@ -225,17 +234,18 @@ def read_table(
     index = {name: header.index(name) for name in expected}
     X: list[list[float]] = []
     values: dict[str, list[float]] = {name: [] for name in columns}
-    for r, row in enumerate(reader, start=1):
+    # One record per kept line: a table's cells do not span lines.
+    for (n, _), row in zip(numbered[1:], reader, strict=False):
         if len(row) != len(header):
-            raise InputError(f"row {r}", f"{len(header)} cells", raw(f"{len(row)} cells"), where)
+            raise InputError(f"line {n}", f"{len(header)} cells", raw(f"{len(row)} cells"), where)
         X.append(
             [
-                _cell(p, row[index[p.name]], where, f"row {r}, column '{p.name}'")
+                _cell(p, row[index[p.name]], where, f"line {n}, column '{p.name}'")
                 for p in space.parameters
             ]
         )
         for name in columns:
-            values[name].append(_number(row[index[name]], where, f"row {r}, column '{name}'"))
+            values[name].append(_number(row[index[name]], where, f"line {n}, column '{name}'"))
     if len(X) < min_rows:
         raise InputError(
             "data", f"at least {min_rows} rows ({rows_meaning})", raw(f"{len(X)} rows"), where
@@ -245,6 +255,7 @@ def read_table(
         columns={name: np.array(v, dtype=float) for name, v in values.items()},
         path=where,
         digest=hashlib.sha256(raw_bytes).hexdigest()[:16],
+        lines=tuple(n for n, _ in numbered[1 : len(X) + 1]),
     )
 
 
@@ -276,6 +287,7 @@ def read_history(
         goal=goal,
         path=table.path,
         digest=table.digest,
+        lines=table.lines,
     )
 
 

@@ -1,6 +1,6 @@
-"""The user's objective evaluated in a child process of its own, under a time limit.
+"""The user's function evaluated in a child process of its own, under a time limit.
 
-An objective is the user's code: it may raise anything (``SystemExit`` and
+A function is the user's code: it may raise anything (``SystemExit`` and
 ``KeyboardInterrupt`` included), end its process (``os._exit``, a segmentation fault) or never
 return. Each of these is one failed evaluation, never the end of a run, so the function runs in
 a long-lived child process per calling process (a worker of the run, or ``check``):
@@ -45,7 +45,7 @@ from pathlib import Path
 
 __all__ = ["DEFAULT_TIME_LIMIT", "Evaluator", "Signature", "evaluator"]
 
-# Seconds one evaluation of the user's objective may take before it counts as failed.
+# Seconds one evaluation of the user's function may take before it counts as failed.
 DEFAULT_TIME_LIMIT = 10.0
 # How often a child looks whether its caller is alive (seconds).
 _WATCH = 0.5
@@ -124,7 +124,7 @@ def _watch(caller: int) -> None:
             time.sleep(_WATCH)
         os._exit(1)
 
-    threading.Thread(target=watch, name="workbench-objective-watch", daemon=True).start()
+    threading.Thread(target=watch, name="workbench-function-watch", daemon=True).start()
 
 
 def _write(stream, message) -> None:
@@ -154,7 +154,7 @@ def _serve(path: str, name: str, names: tuple[str, ...], caller: int) -> None:
     import importlib.util
 
     try:
-        spec = importlib.util.spec_from_file_location("workbench_objective", path)
+        spec = importlib.util.spec_from_file_location("workbench_function", path)
         module = importlib.util.module_from_spec(spec)
         spec.loader.exec_module(module)
         function = getattr(module, name)
@@ -202,7 +202,7 @@ def _reader(stream, answers: queue.Queue) -> None:
 
 
 class Evaluator:
-    """The objective ``name`` of the file ``path`` in a child process, each evaluation within
+    """The function ``name`` of the file ``path`` in a child process, each evaluation within
     ``time_limit`` seconds; ``names`` the space's parameter names.
 
     :meth:`evaluate` returns one ``(value, message)`` per point: a float and None, or None and
@@ -312,7 +312,7 @@ def _cached(path: str, name: str, names: tuple[str, ...], time_limit: float, _mt
 
 
 def evaluator(path: str, name: str, names: tuple[str, ...], time_limit: float) -> Evaluator:
-    """This process's evaluator of the objective (one child per process and objective; a
+    """This process's evaluator of the function (one child per process and function; a
     changed file gets a new one)."""
     return _cached(path, name, tuple(names), float(time_limit), Path(path).stat().st_mtime_ns)
 

@@ -1,4 +1,4 @@
-"""Landscapes from the user's world, beside the textbook ones: drawn, fitted and objective.
+"""Landscapes from the user's world, beside the textbook ones: drawn, fitted and function.
 
 Each kind builds, per replicate, a :class:`~workbench.world.landscapes.Landscape` whose native
 domain is the unit cube of the study's space, so placement, regret and severity work as for
@@ -16,7 +16,7 @@ the textbook functions:
 - **likedata** (:mod:`.likeness`): GP-prior surfaces drawn like earlier evaluations, their
   hyper-parameters from the posterior given the data, warped like the data; cut around their
   placement as drawn surfaces are.
-- **objective**: the user's own function of the parameters in user units, imported from a
+- **function**: the user's own function of the parameters in user units, imported from a
   file by path (in every worker process); an exception or a non-finite value is a failed
   evaluation. Its minimum is given, or estimated by the same search (and marked estimated).
 """
@@ -47,14 +47,14 @@ __all__ = [
     "KINDS",
     "Drawn",
     "Fitted",
-    "Objective",
-    "ObjectiveError",
+    "FunctionError",
+    "UserFunction",
     "file_digest",
     "find_function",
 ]
 
-KINDS = ("textbook", "drawn", "fitted", "objective", "likedata", "table")
-# What the minimum search of an objective sees where the function fails: large, finite.
+KINDS = ("textbook", "drawn", "fitted", "function", "likedata", "table")
+# What the minimum search of a user's function sees where it fails: large, finite.
 _FAILED = np.finfo(float).max / 4
 
 
@@ -215,7 +215,7 @@ def _fit(X: tuple, y: tuple, noise_sd: float | None) -> gp.GP:
     return gp.fit(X, y, rng=np.random.default_rng(0), restarts=4, bounds=bounds)
 
 
-# --------------------------------------------------------------------------- objective
+# --------------------------------------------------------------------------- function
 
 
 def _module(path: str):
@@ -225,7 +225,7 @@ def _module(path: str):
 
 @cache
 def _import(path: str, _mtime: int):
-    name = "workbench_objective_" + str(abs(hash(path)))
+    name = "workbench_function_" + str(abs(hash(path)))
     spec = importlib.util.spec_from_file_location(name, path)
     if spec is None or spec.loader is None:
         raise ImportError(f"cannot import {path}")
@@ -269,20 +269,20 @@ def _evaluations(
     return values, [why for _, why in results]
 
 
-def _objective_values(
+def _function_values(
     U: np.ndarray, path: str, name: str, space: Space, sign: float, time_limit: float
 ) -> np.ndarray:
     """The user's function at cube points U, NaN where an evaluation failed."""
     return _evaluations(U, path, name, space, sign, time_limit)[0]
 
 
-class ObjectiveError(InputError):
-    """The user's objective cannot serve as a landscape (one line: file, function, why); it
+class FunctionError(InputError):
+    """The user's function cannot serve as a landscape (one line: file, function, why); it
     crosses process boundaries, pickled by its fields as every :class:`InputError`."""
 
 
 @dataclass(frozen=True)
-class Objective:
+class UserFunction:
     """The user's function ``name`` in the file ``path`` over ``space``; ``goal`` its
     direction; ``minimum`` (in the minimising orientation) when known; ``time_limit`` the
     seconds one evaluation may take (default :data:`.isolation.DEFAULT_TIME_LIMIT`, 10 s)
@@ -295,7 +295,7 @@ class Objective:
     minimum: float | None = None
     digest: str = ""
     time_limit: float = isolation.DEFAULT_TIME_LIMIT
-    kind: str = field(default="objective", init=False)
+    kind: str = field(default="function", init=False)
     placed_at_belief: bool = field(default=False, init=False)
 
     @property
@@ -310,7 +310,7 @@ class Objective:
         from functools import partial
 
         return partial(
-            _objective_values,
+            _function_values,
             path=self.path,
             name=self.name,
             space=self.space,
@@ -318,12 +318,12 @@ class Objective:
             time_limit=self.time_limit,
         )
 
-    def _error(self, expected: str, got: str) -> ObjectiveError:
-        return ObjectiveError(self.name, expected, raw(got), Path(self.path).name)
+    def _error(self, expected: str, got: str) -> FunctionError:
+        return FunctionError(self.name, expected, raw(got), Path(self.path).name)
 
     def probe(self, u: np.ndarray) -> float:
         """Call the function once at cube point ``u`` in a child of its own; its seconds per
-        call, or :class:`ObjectiveError` naming what went wrong (a signature that does not
+        call, or :class:`FunctionError` naming what went wrong (a signature that does not
         take the space's parameter names, an exception, a crash, a time-out, a non-number)."""
         names = tuple(self.space.names)
         child = isolation.Evaluator(self.path, self.name, names, self.time_limit)

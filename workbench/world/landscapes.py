@@ -621,7 +621,7 @@ class Placement:
     @cached_property
     def reference(self) -> float:
         """Median of the finite values over the fixed scrambled Sobol set ``_REFERENCE_POINTS``."""
-        # nanmedian: a user objective may fail at some points of the set.
+        # nanmedian: a user function may fail at some points of the set.
         return float(np.nanmedian(self._reference_set[1]))
 
     @property

@@ -4,6 +4,10 @@ Every parameter owns one coordinate ``u`` in ``[0, 1]``:
 
 - continuous, linear scale: ``u = (x - lower) / (upper - lower)``;
 - continuous, log scale: the same on ``log(x)``, so equal steps in ``u`` are equal ratios in ``x``;
+- integer on a log scale (a batch size from 16 to 512): the log-scale coordinate above, and the
+  user value ``x(u)`` rounded to the nearest integer (the bounds are integers, so rounding keeps
+  them); the coordinate snaps to ``u(round(x(u)))``, so each integer owns the stretch of ``u``
+  that rounds to it (the bounds half as long as their neighbours' stretches);
 - integer with ``k = upper - lower + 1`` values: value ``lower + i`` owns the bin
   ``[i/k, (i+1)/k)`` and is encoded at the bin centre ``(i + 0.5)/k``;
 - categorical with ``k`` choices: choice ``i`` owns the same bin as above, encoded at its centre.
@@ -47,13 +51,16 @@ def _bound(value: Any, name: str, which: str, integer: bool = False) -> float | 
 
 @dataclass(frozen=True)
 class Continuous:
-    """A real parameter on ``[lower, upper]``, on a linear or log scale."""
+    """A real parameter on ``[lower, upper]``, on a linear or log scale; with ``integer`` its
+    user values are whole numbers: ``x(u)`` rounded to the nearest one (for an integer on a log
+    scale; a linear integer is :class:`Integer`)."""
 
     name: str
     lower: float
     upper: float
     log: bool = False
     unit: str = ""
+    integer: bool = False
 
     def __post_init__(self):
         name = _name(self.name)
@@ -63,6 +70,8 @@ class Continuous:
             raise ValueError(f"{name}: upper must be greater than lower ({lower:g}); got {upper:g}")
         if self.log and lower <= 0:
             raise ValueError(f"{name}: lower must be positive on a log scale; got {lower:g}")
+        if self.integer and not (float(lower).is_integer() and float(upper).is_integer()):
+            raise ValueError(f"{name}: an integer parameter's bounds must be whole numbers")
         object.__setattr__(self, "lower", float(lower))
         object.__setattr__(self, "upper", float(upper))
 
@@ -80,14 +89,22 @@ class Continuous:
     def from_unit(self, u: np.ndarray) -> np.ndarray:
         u = np.clip(np.asarray(u, dtype=float), 0.0, 1.0)
         if self.log:
-            return np.exp(np.log(self.lower) + u * (np.log(self.upper) - np.log(self.lower)))
-        return self.lower + u * (self.upper - self.lower)
+            x = np.exp(np.log(self.lower) + u * (np.log(self.upper) - np.log(self.lower)))
+        else:
+            x = self.lower + u * (self.upper - self.lower)
+        if self.integer:
+            # Round half up, then clip: exp(log(upper)) may land a hair above upper.
+            return np.clip(np.floor(x + 0.5), self.lower, self.upper).astype(int)
+        return x
 
     def snap(self, u: np.ndarray) -> np.ndarray:
+        if self.integer:
+            return self.to_unit(self.from_unit(u))
         return np.clip(np.asarray(u, dtype=float), 0.0, 1.0)
 
     def describe(self) -> str:
         scale = "log" if self.log else "linear"
+        scale += ", integer" if self.integer else ""
         return f"{self.lower:g} to {self.upper:g} {self.unit}".rstrip() + f" ({scale})"
 
 
@@ -218,7 +235,9 @@ class Space:
 
     @property
     def is_discrete(self) -> np.ndarray:
-        return self.levels > 0
+        """Coordinates that snap (bins, or an integer on a log scale): flat almost everywhere."""
+        rounded = [isinstance(p, Continuous) and p.integer for p in self.parameters]
+        return (self.levels > 0) | np.array(rounded, dtype=bool)
 
     def __getitem__(self, name: str) -> Parameter:
         for p in self.parameters:
@@ -243,7 +262,7 @@ class Space:
 
     @cached_property
     def _continuous(self) -> bool:
-        return not any(p.levels for p in self.parameters)
+        return not self.is_discrete.any()
 
     def snap(self, U: np.ndarray) -> np.ndarray:
         """Move discrete coordinates to their bin centres and clip everything into the cube."""

@@ -97,8 +97,9 @@ class MeasuredTable:
     """Measured configurations as a landscape kind (``table``): cube points ``X``, values to
     minimise ``y``, the space's ``levels`` (0 for a continuous parameter) and the ``lookup``.
 
-    Raises ``ValueError`` naming the first pair of data rows (1 = the first) that measure the
-    same configuration, and when every response is the same.
+    Raises ``ValueError`` naming the first pair of data rows that measure the same
+    configuration (by their ``lines`` in the file when given, else 1 = the first data row), and
+    when every response is the same.
     """
 
     X: tuple[tuple[float, ...], ...]
@@ -109,6 +110,7 @@ class MeasuredTable:
     digest: str = ""
     response: str = ""
     goal: str = "minimise"
+    lines: tuple[int, ...] = field(default=(), repr=False, compare=False)
     kind: str = field(default="table", init=False)
     placed_at_belief: bool = field(default=False, init=False)
 
@@ -120,6 +122,9 @@ class MeasuredTable:
         same = np.flatnonzero((keys[1:] == keys[:-1]).all(axis=1))
         if same.size:
             a, b = sorted(f._sorted_rows[[same[0], same[0] + 1]])
+            if self.lines:
+                a, b = self.lines[a], self.lines[b]
+                raise ValueError(f"lines {a} and {b} measure the same configuration")
             raise ValueError(f"data rows {a + 1} and {b + 1} measure the same configuration")
         if np.ptp(np.asarray(self.y)) == 0:
             raise ValueError("every response has the same value")
