@@ -75,8 +75,9 @@ def test_check_prints_counts_and_an_estimate(capsys):
     out = capsys.readouterr().out
     # 4 landscapes × 4 distortions × 32 replicates × (12 guided + belief-sampling)
     # + 4 landscapes × 32 replicates × (no-belief + random) = 6912 campaigns of 20 evaluations.
-    assert "campaigns: 6912" in out and "evaluations in total: 138240" in out
-    assert "estimated wall time on 2 worker(s)" in out
+    assert "campaigns: 6912 (216 cells x 32 replicates)" in out
+    assert "evaluations in total: 138240" in out
+    assert "estimated wall time: about" in out and "on 2 process(es)" in out
 
 
 def test_the_landscape_table_names_the_landscapes(capsys):

@@ -98,14 +98,13 @@ def _write_belief_figure(s, path: Path) -> Path:
     matplotlib.use("Agg")
     import matplotlib.pyplot as plt
 
-    from .report.figures import belief_marginals
-    from .report.markup import mpl_text
+    from .report.figures import belief_marginals, figure_title
     from .storage import atomic_path
 
-    fig, axes = plt.subplots(1, s.space.dim, figsize=(4.2 * s.space.dim, 3.4), squeeze=False)
+    size = (4.2 * s.space.dim, 3.6)
+    fig, axes = plt.subplots(1, s.space.dim, figsize=size, squeeze=False, layout="constrained")
     belief_marginals(list(axes[0]), s.space, {"belief": s.belief})
-    fig.suptitle(mpl_text(f"Belief marginals: {s.title}"), fontsize="medium")
-    fig.tight_layout()
+    figure_title(fig, f"Belief marginals: {s.title}")
     with atomic_path(path) as tmp:
         fig.savefig(tmp, format="png", dpi=110)
     plt.close(fig)
@@ -212,24 +211,18 @@ def cmd_simulate(args) -> int:
 
 
 def cmd_check(args) -> int:
-    from .study.cost import duration, probe
+    from .plan import check_lines
     from .study.resemblance import resemblance_table, table_lines
     from .study.spec import load
 
     s = load(args.study)
     # The user's functions first: one call each at the belief's mode, in a child process.
     timed = [(e.label, e.spec.probe(s.belief.mode())) for e in s.landscapes if e.kind == "function"]
-    est = probe(s, jobs=args.jobs)
+    lines = check_lines(s, args.jobs)  # the plan's pilot, smaller, and the plan's estimate
     print(f"study '{s.name}': {s.title}")
     for label, seconds in timed:
         print(f"{label}: {seconds * 1e3:.1f} ms per call at the belief's mode")
-    print(f"grid cells: {est.cells} (landscapes x distortions x strategy settings)")
-    print(f"campaigns: {est.campaigns} ({s.replicates} replicates per cell, baselines included)")
-    print(f"evaluations in total: {est.evaluations}")
-    print(
-        f"estimated wall time on {est.jobs} worker(s): {duration(est.seconds)} "
-        f"(timing probe: {est.probe_campaigns} campaigns, {est.per_campaign:.3f} s each)"
-    )
+    print("\n".join(lines))
     if s.without_belief:
         print(f"without a belief (uniform over the range): {', '.join(s.without_belief)}")
     table = resemblance_table(s)
@@ -308,7 +301,7 @@ def cmd_demo(args) -> int:
 
 
 def cmd_plan(args) -> int:
-    from .plan import PlanOptions, build_plan, reasons, run_pilot, write_plan
+    from .plan import PlanOptions, build_plan, edge_lines, reasons, run_pilot, write_plan
     from .study.cost import duration, size
     from .study.spec import load
 
@@ -340,9 +333,9 @@ def cmd_plan(args) -> int:
         print(f"  warning: {plan.warning}")
         print(f"workbench: warning: {plan.warning}", file=sys.stderr)
     print(
-        f"time: {c.estimate.campaigns} campaigns, {c.estimate.evaluations} evaluations: about "
-        f"{duration(c.local)} here ({c.estimate.jobs} processes), {duration(c.cluster)} on "
-        f"{c.workers} Dask workers; disk about {size(c.disk_bytes)}"
+        f"time: {c.estimate.campaigns} campaigns, {c.estimate.evaluations} evaluations: "
+        f"{c.time_words()}; {duration(c.cluster)} on {c.workers} Dask workers; disk about "
+        f"{size(c.disk_bytes)}"
     )
     old, new = plan.edit
     if r.chosen == study.replicates:
@@ -351,6 +344,7 @@ def cmd_plan(args) -> int:
         print(f"add this line at the top of {study.path}: {new}")
     else:
         print(f"first, in {study.path}: change '{old.strip()}' to '{new.strip()}'")
+    print("\n".join(edge_lines(plan)))
     print(f"command: {plan.command}")
     print(f"plan: {md}, {page}")
     return 0

@@ -152,7 +152,7 @@ def build_parser() -> argparse.ArgumentParser:
     for option, helptext in (
         ("--half-width", "half-width of the recovery interval (default: 0.1)"),
         ("--power", "power to tell apart two settings (default: 0.8)"),
-        ("--difference", "difference in evaluations to target to detect (default: 5)"),
+        ("--difference", "evaluations to target to tell apart (default: from the pilot)"),
         ("--confidence", "confidence level; the test's level is 1 - confidence (default: 0.95)"),
         ("--pilot-replicates", "replicates per pilot cell (default: 4)"),
         ("--cap", "most replicates to plan for (default: 64)"),

@@ -7,6 +7,8 @@ import numpy as np
 import pytest
 import scipy.stats
 import xarray as xr
+from hypothesis import given, settings
+from hypothesis import strategies as st
 
 from workbench import analysis as an
 from workbench.analysis import metrics
@@ -378,7 +380,8 @@ def test_weights_on_one_distortion_pick_that_distortions_best():
     }
     for name, setting in best.items():
         for rule in an.RULES:
-            chosen = an.recommend(ds, an.decision_rule(ds, rule, f"{name}=1"), FAST)
+            only = ",".join(f"{d}={int(d == name)}" for d in DISTORTIONS)
+            chosen = an.recommend(ds, an.decision_rule(ds, rule, only), FAST)
             assert chosen.setting == setting, (name, rule)
     # the three balance out under equal weights, and are the three best settings
     rec = an.recommend(ds, an.decision_rule(ds, "expected", {}), FAST)
@@ -564,3 +567,130 @@ def test_a_missing_grid_is_named_in_one_line(tmp_path, capsys):
     assert main(["decide", str(tmp_path / "nowhere")]) == 2
     err = capsys.readouterr().err
     assert err.count("\n") == 1 and str(tmp_path / "nowhere" / "grid.nc") in err
+
+
+# --------------------------------------------------------------------------- edge of the study
+
+
+def test_a_choice_at_the_edge_of_the_levels_studied_is_named_with_the_next_levels():
+    ds = _dominated_grid()
+    rec = an.recommend(ds, an.decision_rule(ds), FAST)
+    # hyperbolic:8 is the slowest decay studied (2, 8); quantile 0.1 the lowest (0.1, 0.5).
+    edges = {e.factor: e for e in rec.edges}
+    assert set(edges) == {"decay", "quantile"}
+    assert (edges["decay"].side, edges["decay"].beyond) == (
+        "highest",
+        ("hyperbolic:16", "hyperbolic:32"),
+    )
+    assert (edges["quantile"].side, edges["quantile"].beyond) == ("lowest", ("0.025", "0.05"))
+    lines = "\n".join(rec.lines())
+    assert "slowest decay studied" in lines and "the lowest quantile studied" in lines
+    snippet = an.edge_snippet(rec.edges)
+    assert snippet.splitlines() == [
+        "[strategy.pseudo-posterior]",
+        'decay = ["hyperbolic:2", "hyperbolic:8", "hyperbolic:16", "hyperbolic:32"]',
+        "quantile = [0.025, 0.05, 0.1, 0.5]",
+    ]
+    out = rec.to_dict()
+    assert [e["factor"] for e in out["edge_of_study"]] == ["decay", "quantile"]
+    assert out["edge_snippet"] == snippet
+
+
+def test_the_edge_snippet_is_a_strategy_table_the_study_parser_accepts():
+    rec = an.recommend(_dominated_grid(), None, FAST)
+    table = (
+        "[strategy.pseudo-posterior]\n"
+        'decay = ["hyperbolic:2", "hyperbolic:8"]\n'
+        "quantile = [0.1, 0.5]"
+    )
+    text = STUDY.replace(table, an.edge_snippet(rec.edges))
+    assert text != STUDY
+    study = parse_text(text)
+    pp = next(s for s in study.strategies if s.name == "pseudo-posterior")
+    assert [str(d) for d in pp.decay] == [
+        "hyperbolic:2",
+        "hyperbolic:8",
+        "hyperbolic:16",
+        "hyperbolic:32",
+    ]
+    assert pp.quantile == (0.025, 0.05, 0.1, 0.5)
+
+
+def test_a_choice_inside_the_levels_studied_has_no_edge():
+    studied = [
+        {"strategy": "pseudo-posterior", "decay": f"hyperbolic:{b}", "quantile": q}
+        for b in (2, 6, 20)
+        for q in (0.1, 0.25, 0.5)
+    ]
+    inside = {"strategy": "pseudo-posterior", "decay": "hyperbolic:6", "quantile": 0.25}
+    assert an.study_edges(studied, inside) == ()
+    # another strategy's levels and another decay family do not count
+    other = [{"strategy": "prior-weighted", "decay": "hyperbolic:1", "quantile": None}]
+    family = [{"strategy": "pseudo-posterior", "decay": "exponential:1", "quantile": 0.25}]
+    assert an.study_edges([*studied, *other, *family], inside) == ()
+
+
+@given(
+    levels=st.lists(
+        st.floats(0.01, 0.99).map(lambda v: round(v, 2)), min_size=2, max_size=5, unique=True
+    ),
+    family=st.sampled_from(["hyperbolic", "exponential", "step", "linear"]),
+    pick_low=st.booleans(),
+)
+@settings(max_examples=60, deadline=None)
+def test_next_levels_lie_beyond_the_edge_and_inside_the_factors_range(levels, family, pick_low):
+    values = [round(v * 40) + 1 if family == "step" else v * 40 for v in levels]
+    values = sorted(set(values))
+    studied = [
+        {"strategy": "pseudo-posterior", "decay": f"{family}:{v:g}", "quantile": q}
+        for v in values
+        for q in levels
+    ]
+    choice = {
+        "strategy": "pseudo-posterior",
+        "decay": f"{family}:{(values[0] if pick_low else values[-1]):g}",
+        "quantile": min(levels) if pick_low else max(levels),
+    }
+    for e in an.study_edges(studied, choice):
+        beyond = [float(v.rpartition(":")[2]) for v in e.beyond]
+        level = float(e.level.rpartition(":")[2])
+        assert all((b < level) if e.side == "lowest" else (b > level) for b in beyond)
+        if e.factor == "quantile":
+            assert all(0 < b < 1 for b in beyond)
+        elif family == "step":
+            assert all(b >= 1 and b == int(b) for b in beyond)
+        else:
+            assert all(b > 0 for b in beyond)
+
+
+# --------------------------------------------------------------------------- what the rule says
+
+
+def test_partial_weights_on_the_command_line_are_refused_in_one_line(grid_dir, capsys):
+    code = main(["decide", str(grid_dir), "--weights", "exact=0.5,shifted=0.5"])
+    err = capsys.readouterr().err.strip()
+    assert code == 2 and len(err.splitlines()) == 1
+    assert "'--weights' must be a weight for every distortion" in err
+    assert "missing: misplaced" in err and "exact=0.5,shifted=0.5" in err
+    # written out with a 0, the same weights are taken
+    full = "exact=0.5,shifted=0.5,misplaced=0"
+    assert main(["decide", str(grid_dir), "--weights", full, "--draws", "50"]) == 0
+
+
+def test_the_study_files_partial_weights_show_the_zero_they_give():
+    guided, baseline = random_ett(1)
+    text = STUDY + "\n[decision]\nweights = { exact = 3, misplaced = 1 }\n"
+    rule = an.decision_rule(hand_grid(guided, baseline, text))
+    assert "shifted 0" in rule.describe()
+
+
+def test_the_minimax_line_names_only_the_distortions_it_takes_the_worst_of():
+    guided, baseline = random_ett(1)
+    ds = hand_grid(guided, baseline)
+    rule = an.decision_rule(ds, "minimax", "exact=0.5,shifted=0.5,misplaced=0")
+    words = rule.describe()
+    assert "worst of the distortions exact, shifted" in words
+    assert "misplaced left out" in words
+    assert "0.5" not in words  # minimax uses which weights are positive, not their sizes
+    rec = an.recommend(ds, rule, FAST)
+    assert any(words in line for line in rec.lines())

@@ -83,7 +83,11 @@ def test_the_next_evaluation_is_read_from_the_cache_with_a_fresh_trainings_proba
     assert _monitor(small_grid, _live(small_grid, 6)) == 0
     captured = capsys.readouterr()
     second = json.loads(captured.out)
-    assert "training" not in captured.err and second["from_cache"] and second["training_seconds"] is None
+    assert (
+        "training" not in captured.err
+        and second["from_cache"]
+        and second["training_seconds"] is None
+    )
     assert [s["t"] for s in second["steps"]] == [4, 5, 6]
     assert second["steps"][:2] == first["steps"]
     # The same probabilities as a monitor trained afresh on the same campaigns.

@@ -4,6 +4,7 @@ import contextlib
 import dataclasses
 import io
 import re
+import shlex
 import textwrap
 from pathlib import Path
 
@@ -103,14 +104,16 @@ def test_pilot_campaigns_are_the_studys_first_replicates(tiny):
             np.testing.assert_array_equal(small[r]["value"][k], whole[r]["value"][j])
 
 
-def test_compute_estimate_is_within_a_factor_of_two_of_a_real_run(demo_pilot, tmp_path):
+def test_compute_estimate_is_within_a_factor_of_one_and_a_half_of_a_real_run(demo_pilot, tmp_path):
     study, pilot = demo_pilot
     # One replicate keeps the suite fast: 8 chunks, 108 campaigns, run for real.
     small = dataclasses.replace(study, replicates=1)
     estimate = pl.compute_estimate(small, pilot, 1)
     summary = run_study(small, tmp_path / "run")
     assert estimate.estimate.campaigns == summary.campaigns
-    assert 0.5 <= estimate.local / summary.seconds <= 2.0, (estimate.local, summary.seconds)
+    # The machine is shared while the suite runs: the ratio, not the seconds, is checked.
+    ratio = estimate.local / summary.seconds
+    assert 1 / 1.5 <= ratio <= 1.5, (estimate.local, summary.seconds)
     on_disk = sum(p.stat().st_size for p in (tmp_path / "run" / "chunks").glob("*.npz"))
     grid_file = (tmp_path / "run" / "grid.nc").stat().st_size
     assert 0.5 <= estimate.chunk_bytes / on_disk <= 2.0
@@ -212,3 +215,124 @@ def test_the_replicates_line_is_edited_in_place_or_added():
     assert old == "replicates = 3" and new == "replicates = 12"
     bare = parse_text(textwrap.dedent(TINY).replace("replicates = 3\n", ""), name="tiny")
     assert pl.replicates_edit(bare, 12) == (None, "replicates = 12")
+
+
+# --------------------------------------------------------------------------- one estimate
+
+
+def test_checks_counts_add_up_cells_times_replicates_make_the_campaigns():
+    study = load(DEMO)
+    guided_cells, baseline_cells = pl.cell_counts(study)
+    # 4 landscapes × 4 distortions × 12 guided settings; belief-sampling in every distortion,
+    # no-belief and random in the exact one only: 4 × (4 + 2) baseline cells.
+    assert (guided_cells, baseline_cells) == (192, 24)
+    campaigns = sum(c.campaigns for c in grid.chunks(study))
+    assert (guided_cells + baseline_cells) * study.replicates == campaigns == 6912
+
+
+def test_check_and_plan_print_the_one_estimate_of_the_pilot(demo_pilot, tiny, tmp_path, capsys):
+    study, pilot = demo_pilot
+    # Both commands take their time from a pilot through compute_estimate: given the same
+    # pilot, they print the same words.
+    with pytest.MonkeyPatch.context() as mp:
+        mp.setattr(pl, "run_pilot", lambda s, o: pilot)  # plan's
+        mp.setattr(pl.estimate, "run_pilot", lambda s, o: pilot)  # check's
+        code, checked, err = _run(["check", str(DEMO), "--jobs", "2"], capsys)
+        assert code == 0, err
+        code, planned, err = _run(
+            ["plan", str(DEMO), "--out", str(tmp_path), "--jobs", "2", "--cap", "32"], capsys
+        )
+        assert code == 0, err
+    words = pl.compute_estimate(study, pilot, study.replicates, jobs=2).time_words()
+    assert f"estimated wall time: {words}" in checked
+    chosen = int(re.search(r"^replicates: (\d+)$", planned, re.M).group(1))
+    at = pl.compute_estimate(study, pilot, chosen, jobs=2)
+    assert f"evaluations: {at.time_words()}" in planned, planned
+    low, high = pl.compute_estimate(study, pilot, 32, jobs=2).local_interval
+    assert low < high  # a range, not a point
+
+
+def test_the_estimate_is_within_a_factor_of_one_and_a_half_of_a_real_run(tiny, tmp_path):
+    study = load(tiny)
+    pilot = pl.run_pilot(study, pl.PlanOptions(pilot_replicates=2, jobs=1))
+    bigger = dataclasses.replace(study, replicates=6)
+    estimate = pl.compute_estimate(bigger, pilot, 6, jobs=1)
+    summary = run_study(bigger, tmp_path / "run", jobs=1)
+    # Timings share the machine with other work: the ratio, not the seconds, is checked.
+    ratio = estimate.local / summary.seconds
+    assert 1 / 1.5 <= ratio <= 1.5, (estimate.local, summary.seconds)
+
+
+# --------------------------------------------------------------------------- uses its pilot
+
+
+def test_the_default_difference_is_the_gap_between_the_pilots_two_best_settings(demo_pilot):
+    study, pilot = demo_pilot
+    r = pl.replicates_needed(study, pilot, pl.PlanOptions(pilot_replicates=2, resamples=50))
+    # By hand: mean evaluations to target over landscapes and replicates, per distortion,
+    # weighted by the study's [decision] weights; the two lowest settings' gap.
+    w = np.array([study.decision.weights[d.name] for d in study.distortions])
+    guided = pilot.evaluations[: len(pilot.design.guided)]
+    means = np.array([[np.mean(g[:, d]) for d in range(g.shape[1])] for g in guided]) @ (
+        w / w.sum()
+    )
+    gap = np.sort(means)[1] - np.sort(means)[0]
+    assert r.difference == pytest.approx(min(max(gap, 1.0), study.budget - 1))
+    assert "gap between the pilot's two best settings" in r.difference_words
+    given = pl.replicates_needed(
+        study, pilot, pl.PlanOptions(pilot_replicates=2, resamples=50, difference=3)
+    )
+    assert (given.difference, given.difference_words) == (3, "given by --difference")
+
+
+def test_the_plans_printed_command_works_when_followed(tiny, tmp_path, capsys):
+    study = tmp_path / "tiny.toml"
+    study.write_text(tiny.read_text(encoding="utf-8"), encoding="utf-8")
+    out = tmp_path / "out"
+    assert main(["run", str(study), "--out", str(out), "--quiet", "--jobs", "1"]) == 0
+    code, stdout, err = _run(
+        ["plan", str(study), "--out", str(out), "--cap", "2", "--pilot-replicates", "2"], capsys
+    )
+    assert code == 0, err
+    # Follow it: make the edit it asks for, then run the command it prints.
+    edit = re.search(r"^first, in .*: change '(.*)' to '(.*)'$", stdout, re.M)
+    text = study.read_text(encoding="utf-8")
+    study.write_text(text.replace(edit.group(1), edit.group(2), 1), encoding="utf-8")
+    command = re.search(r"^command: (.*)$", stdout, re.M).group(1)
+    assert command.endswith("--fresh")  # the folder holds the study before the edit
+    assert "--fresh discards those results" in (out / "plan.md").read_text(encoding="utf-8")
+    argv = shlex.split(command)
+    assert argv[0] == "workbench"
+    code, _, err = _run([*argv[1:], "--quiet"], capsys)
+    assert code == 0, err
+    assert load(study).replicates == 2
+
+
+def test_the_plan_names_the_edge_its_pilots_best_setting_sits_on(tiny_capped):
+    code, out, err, folder = tiny_capped
+    assert code == 0, err
+    # The tiny study runs hyperbolic:3 and hyperbolic:9 only: the pilot's best is an edge.
+    assert "edge of the study (pilot's best): decay hyperbolic:" in out
+    assert "[strategy.pseudo-posterior]" in out
+    text = (folder / "plan.md").read_text(encoding="utf-8")
+    assert "Edge of the study" in text and "decay = [" in text
+
+
+def test_the_recovery_rule_names_the_pilot_cell_that_decides_p(demo_pilot):
+    from scipy.stats import binomtest
+
+    study, pilot = demo_pilot
+    r = pl.replicates_needed(study, pilot, pl.PlanOptions(pilot_replicates=2, resamples=50))
+    m = re.search(
+        r"pilot recovery (\d+)/(\d+) for .* interval ([\d.]+) to ([\d.]+), whose end toward "
+        r"0\.5 is ([\d.]+)",
+        r.recovery_words,
+    )
+    k, n = int(m.group(1)), int(m.group(2))
+    # Reference library: scipy.stats.binomtest(...).proportion_ci(method="wilson"), the
+    # Wilson score interval (Wilson 1927, JASA 22).
+    ci = binomtest(k, n).proportion_ci(confidence_level=0.95, method="wilson")
+    assert (float(m.group(3)), float(m.group(4))) == (round(ci.low, 2), round(ci.high, 2))
+    toward = ci.low if ci.low > 0.5 else ci.high if ci.high < 0.5 else 0.5
+    assert float(m.group(5)) == pytest.approx(toward, abs=5e-3)
+    assert r.p == pytest.approx(toward, abs=1e-9)  # the cell named is the one used

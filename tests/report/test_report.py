@@ -171,7 +171,7 @@ def test_report_command_takes_the_decision_options(demo, tmp_path, capsys):
     assert f"report: {tmp_path / 'report-minimax.html'}" in printed
     assert not (tmp_path / "report.html").exists()
     page = (tmp_path / "report-minimax.html").read_text(encoding="utf-8")
-    assert "at the worst distortion" in page
+    assert "at the worst of the distortions" in page
     assert (tmp_path / "summary-minimax.md").exists()
     assert len(list((tmp_path / "figures-minimax").glob("*.png"))) == 4
     assert cli.main(["report", str(tmp_path / "missing")]) == 2
@@ -288,8 +288,13 @@ def test_robustness_frontier_labels_the_settings_no_other_beats(data):
     fr = an.frontier(ds, rule.metric, rs)
     fig, ax = plt.subplots()
     fg.robustness_frontier(ax, fr)
-    labels = {t.get_text() for t in ax.texts}
-    assert labels == set(fr["setting"].values[fr["efficient"].values])
+    # every point is labelled: black for those no other beats, grey for the beaten ones
+    labels = {t.get_text(): t.get_color() for t in ax.texts}
+    assert set(labels) == set(fr["setting"].values)
+    for setting, on in zip(fr["setting"].values, fr["efficient"].values, strict=True):
+        assert (labels[setting] == "black") == bool(on)
+    legend = [t.get_text() for t in ax.get_legend().get_texts()]
+    assert "beaten on both axes by another setting (grey label)" in legend
     assert "exact" in ax.get_xlabel() and "worst distortion" in ax.get_ylabel()
     plt.close(fig)
 
@@ -298,3 +303,33 @@ def test_recommendation_json_round_trips(demo):
     rec = an.recommend(an.open_grid(demo[0]))
     out = json.loads(json.dumps(rec.to_dict()))
     assert out["setting"] == rec.setting and out["stability"] == rec.stability
+
+
+def test_the_page_and_the_terminal_name_the_same_edge_of_the_study(demo, page):
+    from html import escape
+
+    printed = [
+        line.strip().split("edge of the study: ", 1)[1]
+        for line in demo[1].splitlines()
+        if line.strip().startswith("edge of the study: ")
+    ]
+    for words in printed:
+        assert escape(words) in page
+    assert ("edge of the study" in page) == bool(printed)
+
+
+def test_the_edge_rows_give_the_lines_to_put_in_the_study_file():
+    from workbench.report.text import edge_rows
+
+    studied = [
+        {"strategy": "pseudo-posterior", "decay": f"hyperbolic:{b}", "quantile": 0.25}
+        for b in (2, 6, 20)
+    ]
+    edges = an.study_edges(studied, studied[0])
+    rows = dict(edge_rows(edges))
+    assert "fastest decay studied" in rows["edge of the study"]
+    assert rows["to study beyond it"] == (
+        "in the study file's [strategy.pseudo-posterior] table, replace the decay line with: "
+        'decay = ["hyperbolic:0.5", "hyperbolic:1", "hyperbolic:2", "hyperbolic:6"]'
+    )
+    assert edge_rows(()) == []

@@ -10,6 +10,7 @@ pipeline:
 - :mod:`.grid_metrics`: the metrics of every campaign of the grid;
 - :mod:`.statistics`: Wilson, Kaplan–Meier, recovery and the paired bootstrap;
 - :mod:`.recommendation`: decision rules and the recommendation;
+- :mod:`.edges`: a choice at the edge of the levels studied, and the next levels to study;
 - :mod:`.figure_data`: what the figures plot;
 - :mod:`.effects`: the effects table;
 - :mod:`.transfer`: whether the choice holds across kinds of landscapes.
@@ -26,6 +27,7 @@ from .dataset import (
     open_grid,
     series,
 )
+from .edges import Edge, edge_lines, edge_snippet, study_edges
 from .effects import effects
 from .figure_data import frontier, regret_bands, sensitivity
 from .grid_metrics import (
@@ -57,6 +59,7 @@ __all__ = [
     "NO_BELIEF",
     "RULES",
     "SETTING_FACTORS",
+    "Edge",
     "FarOptima",
     "Recommendation",
     "Resampling",
@@ -65,6 +68,8 @@ __all__ = [
     "bootstrap",
     "campaign_metric",
     "decision_rule",
+    "edge_lines",
+    "edge_snippet",
     "effects",
     "evaluations_to_beat_mode",
     "evaluations_to_target",
@@ -86,6 +91,7 @@ __all__ = [
     "sensitivity",
     "series",
     "speedup",
+    "study_edges",
     "summarise",
     "transfer",
     "wilson_interval",

@@ -27,7 +27,9 @@ def sensitivity(
     score. ``estimate``, ``low``, ``high`` as in :func:`bootstrap`; ``best`` marks each
     panel's lowest cell and ``tied`` the cells whose paired bootstrap interval of the
     difference with that best includes 0 (they cannot be told apart from it). ``fixed`` gives
-    the exploration and initial levels when those vary (default: the first).
+    the exploration and initial levels when those vary (default: the first). A strategy
+    that does not use the quantile (prior-weighted) has one quantile column, NaN: a row per
+    decay.
     """
     rs = resampling or Resampling()
     values = guided_only(campaign_metric(ds, rule.metric))
@@ -55,13 +57,15 @@ def sensitivity(
     lo, hi = np.nanquantile(diff, [alpha, 1 - alpha], axis=0)
     tied = (lo <= 0) & (hi >= 0)
     decays = list(dict.fromkeys(str(d) for d in values["decay"].values))
-    quantiles = list(dict.fromkeys(float(q) for q in values["quantile"].values))
+    # A strategy that does not use the quantile (NaN there) has one column: key -1.
+    qkeys = [float(q) if np.isfinite(q) else -1.0 for q in values["quantile"].values]
+    quantiles = list(dict.fromkeys(qkeys))
     shape = (len(panels), len(decays), len(quantiles))
     out = {k: np.full(shape, np.nan) for k in ("estimate", "low", "high")}
     flags = {k: np.zeros(shape, bool) for k in ("tied", "best")}
     for s in range(values.sizes["setting"]):
         di = decays.index(str(values["decay"].values[s]))
-        qi = quantiles.index(float(values["quantile"].values[s]))
+        qi = quantiles.index(qkeys[s])
         for k in ("estimate", "low", "high"):
             out[k][:, di, qi] = boot[k].transpose("setting", "distortion").values[s]
         flags["tied"][:, di, qi] = tied[s]
@@ -69,7 +73,11 @@ def sensitivity(
     dims = ("panel", "decay", "quantile")
     return xr.Dataset(
         {k: (dims, v) for k, v in {**out, **flags}.items()},
-        coords={"panel": panels, "decay": decays, "quantile": quantiles},
+        coords={
+            "panel": panels,
+            "decay": decays,
+            "quantile": [q if q >= 0 else np.nan for q in quantiles],
+        },
         attrs={
             "metric": rule.metric,
             "strategy": strategy,

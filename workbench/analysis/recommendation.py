@@ -22,6 +22,7 @@ from .dataset import (
     guided_only,
     landscape_kinds,
 )
+from .edges import Edge, edge_lines, edge_snippet, study_edges
 from .grid_metrics import campaign_metric
 from .standardise import over_landscapes, standardise
 from .statistics import Resampling, bootstrap
@@ -68,11 +69,19 @@ class Rule:
         return f"landscapes weighted equally{why}; score: {score}"
 
     def describe(self) -> str:
-        """The rule in words, for reports and the command line."""
+        """The rule in words, for reports and the command line: the weights it uses (minimax
+        uses only which distortions have weight, so it names those and no numbers)."""
         w = ", ".join(f"{k} {v:.2g}" for k, v in self.weights.items())
+        if self.rule == "minimax":
+            used = [k for k, v in self.weights.items() if v > 0]
+            left = [k for k, v in self.weights.items() if v <= 0]
+            out = f" ({', '.join(left)} left out: weight 0)" if left else ""
+            return (
+                f"{METRIC_NAMES[self.metric][0]} at the worst of the distortions "
+                f"{', '.join(used)}{out}; lower is better"
+            )
         head = {
             "expected": f"expected {METRIC_NAMES[self.metric][0]} over distortions",
-            "minimax": f"{METRIC_NAMES[self.metric][0]} at the worst distortion",
             "cvar": (
                 f"mean {METRIC_NAMES[self.metric][0]} over the worst {self.level:.0%} "
                 "of the distortion weight (CVaR)"
@@ -125,20 +134,33 @@ def decision_rule(
 ) -> Rule:
     """The decision rule: given values, else the study's [decision] table (stored in the grid,
     :func:`stored_decision`), else expected evaluations to target with equal weights. Weights
-    name distortions of the grid; unnamed distortions get weight 0; they must not all be 0."""
+    name distortions of the grid and must not all be 0. Given ones (the command line's
+    ``--weights``) must name every distortion, so that none is 0 by omission; the study's
+    [decision] weights may leave some out (the study format allows it), and those get 0, which
+    :meth:`Rule.describe` shows."""
     decision = stored_decision(ds)
     names = coordinate_names(ds, "distortion")
     rule = check_choice(rule if rule is not None else decision["rule"], "--rule", RULES)
     metric = check_choice(metric if metric is not None else decision["metric"], "--metric", METRICS)
     level = level if level is not None else decision["level"]
     level = check_number(level, "--level", low=0.0, high=1.0, closed="right")
-    if isinstance(weights, str):
-        weights = parse_weights(weights, names)
-    elif weights is not None:
+    if weights:
+        given = weights
+        if isinstance(weights, str):
+            weights = parse_weights(weights, names)
         for k, v in weights.items():
             check_choice(k, "--weights", names)
             check_number(v, f"--weights {k}", low=0.0)
-    else:
+        missing = [n for n in names if n not in weights]
+        if missing:
+            # A weight left out would silently be 0: the command line asks for every one.
+            raise InputError(
+                "--weights",
+                f"a weight for every distortion of the grid ({', '.join(names)}; write 0 to "
+                f"leave one out; missing: {', '.join(missing)})",
+                given if isinstance(given, str) else raw(str(dict(given))),
+            )
+    elif weights is None:
         weights = dict(decision["weights"])
     if not weights:
         weights = dict.fromkeys(names, 1.0)
@@ -274,6 +296,7 @@ class Recommendation:
     leave_one_landscape_out: dict[str, str]
     scores: xr.Dataset = field(repr=False)
     resampling: Resampling = field(default_factory=Resampling)
+    edges: tuple[Edge, ...] = ()
 
     @property
     def setting(self) -> str:
@@ -307,7 +330,7 @@ class Recommendation:
         for landscape, choice in self.leave_one_landscape_out.items():
             same = "the same" if choice == self.setting else choice
             out.append(f"  without landscape {landscape}: {same}")
-        return out
+        return out + edge_lines(self.edges)
 
     def to_dict(self) -> dict:
         """Everything as plain JSON-ready values."""
@@ -332,6 +355,8 @@ class Recommendation:
                 k: {"setting": v, "same": v == self.setting}
                 for k, v in self.leave_one_landscape_out.items()
             },
+            edge_of_study=[e.to_dict() for e in self.edges],
+            edge_snippet=edge_snippet(self.edges) or None,
         )
         return json.loads(json.dumps(out, default=_plain))
 
@@ -419,4 +444,14 @@ def recommend(
         leave_one_landscape_out=lolo,
         scores=boot.drop_vars("distribution"),
         resampling=rs,
+        edges=study_edges(_studied(values), _factors(values, best)),
     )
+
+
+def _studied(values: xr.DataArray) -> list[dict]:
+    """The belief-guided settings of ``values`` as mappings of their factors."""
+    guided = np.flatnonzero(values["kind"].values == "guided") if "kind" in values.coords else []
+    return [
+        {k: values[k].values[i].item() for k in SETTING_FACTORS}
+        for i in (guided if len(guided) else range(values.sizes["setting"]))
+    ]

@@ -12,7 +12,6 @@ import time
 from dataclasses import asdict, replace
 from pathlib import Path
 
-from ..report.markup import mpl_text
 from ..validation import InputError, raw
 
 __all__ = ["MONITOR_EVERY", "cmd_audit", "cmd_monitor", "monitor_steps"]
@@ -137,7 +136,7 @@ def _finite_or_none(row: dict) -> dict:
 
 def cmd_audit(args) -> int:
     from .. import analysis as an
-    from ..report.figures import evidence_marginals
+    from ..report.figures import evidence_marginals, figure_title
     from ..seeding import derive, generator
     from ..study.cells import SEVERITY_RADIUS
     from ..study.resemblance import (
@@ -204,7 +203,7 @@ def cmd_audit(args) -> int:
 
     def draw(axes, fig):
         evidence_marginals(axes, study.space, study.belief, history.X, result.good, result.argmins)
-        fig.suptitle(mpl_text(f"Belief and earlier evaluations: {study.title}"), fontsize="medium")
+        figure_title(fig, f"Belief and earlier evaluations: {study.title}")
 
     md, page = write_page(
         out,
@@ -315,11 +314,11 @@ def cmd_monitor(args) -> int:
     out = Path(args.out) if args.out else Path("results") / study.name / "monitor"
 
     def draw(axes, fig):
-        from ..report.figures import distortion_probabilities
+        from ..report.figures import distortion_probabilities, figure_title
 
         distortion_probabilities(axes[0], advice.t, advice.probabilities, advice.distortions)
         heading = f"The live campaign read against the grid: {study.title}"
-        fig.suptitle(mpl_text(heading), fontsize="medium")
+        figure_title(fig, heading)
 
     title = f"Monitor of the live campaign: {study.title}"
     tables = monitor_tables(monitor, advice)

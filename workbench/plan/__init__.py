@@ -5,12 +5,38 @@ replicates (with the formulas of :mod:`.sample_size`) and compute; :func:`build_
 and :func:`write_plan` writes ``plan.md`` and ``plan.html`` (:mod:`.document`).
 """
 
-from ..study.cost import duration, size
-from .document import Plan, build_plan, reasons, replicates_edit, write_plan
-from .estimate import Compute, Replicates, compute_estimate, grid_bytes, replicates_needed
-from .pilot import Pilot, PilotDesign, PlanOptions, pilot_chunks, pilot_design, run_pilot
+from ..study.cost import cell_counts, duration, size
+from .document import (
+    Plan,
+    build_plan,
+    reasons,
+    replicates_edit,
+    write_plan,
+)
+from .estimate import (
+    Compute,
+    Replicates,
+    check_lines,
+    compute_estimate,
+    edge_lines,
+    grid_bytes,
+    pilot_difference,
+    pilot_edges,
+    pilot_means,
+    replicates_needed,
+)
+from .pilot import (
+    CHECK_PILOT,
+    Pilot,
+    PilotDesign,
+    PlanOptions,
+    pilot_chunks,
+    pilot_design,
+    run_pilot,
+)
 
 __all__ = [
+    "CHECK_PILOT",
     "Compute",
     "Pilot",
     "PilotDesign",
@@ -18,11 +44,17 @@ __all__ = [
     "PlanOptions",
     "Replicates",
     "build_plan",
+    "cell_counts",
+    "check_lines",
     "compute_estimate",
     "duration",
+    "edge_lines",
     "grid_bytes",
     "pilot_chunks",
     "pilot_design",
+    "pilot_difference",
+    "pilot_edges",
+    "pilot_means",
     "reasons",
     "replicates_edit",
     "replicates_needed",

@@ -17,15 +17,25 @@ from datetime import date
 from pathlib import Path
 
 from .. import __version__
+from ..analysis.edges import edge_snippet
 from ..engine.strategies import uses_quantile
 from ..report import page
 from ..report.markup import md_code, md_text
 from ..storage import write_text
 from ..study.cost import duration, size
 from ..study.grid import settings
+from ..study.runner import MANIFEST
 from ..study.spec import Study
 from . import sample_size
-from .estimate import Compute, Replicates, compute_estimate, replicates_needed
+from .estimate import (
+    TIME_LEVEL,
+    TIME_RESAMPLES,
+    Compute,
+    Replicates,
+    compute_estimate,
+    pilot_edges,
+    replicates_needed,
+)
 from .pilot import Pilot, PlanOptions
 
 PLAN_MD = "plan.md"
@@ -79,6 +89,7 @@ class Plan:
     edit: tuple[str | None, str]
     written: str
     sections: tuple[Section, ...] = field(default=())
+    edges: tuple = ()
 
     @property
     def warning(self) -> str | None:
@@ -120,6 +131,10 @@ def build_plan(
     command = f"workbench run {shlex.quote(study.path)} --out {shlex.quote(str(out))}"
     if options.jobs:
         command += f" --jobs {options.jobs}"
+    # A folder holding results of the study before the edit refuses the edited study unless
+    # the run starts over there.
+    if reps.chosen != study.replicates and (out / MANIFEST).exists():
+        command += " --fresh"
     plan = Plan(
         study=study,
         options=options,
@@ -130,6 +145,7 @@ def build_plan(
         command=command,
         edit=replicates_edit(study, reps.chosen),
         written=written or date.today().isoformat(),
+        edges=pilot_edges(study, pilot),
     )
     return replace(plan, sections=_sections(plan))
 
@@ -169,7 +185,7 @@ def reasons(plan: Plan) -> list[str]:
         "p = 0.5, the worst case: the pilot cannot tell"
         if r.worst_case
         else f"p = {r.p:.3g}, the end nearest 0.5 of the pilot's Wilson intervals"
-    )
+    ) + (f"; {r.recovery_words}" if r.recovery_words else "")
     wilson = f", {r.campaigns} after the Wilson check" if r.campaigns != r.normal_campaigns else ""
     lines = [
         f"(a) recovery interval ±{o.half_width:g} at {_pct(o.confidence)} ({why}): "
@@ -188,10 +204,11 @@ def reasons(plan: Plan) -> list[str]:
             else f"more than {s.replicates} replicates (power {s.achieved:.2f} there)"
         )
         lines.append(
-            f"(b) power {o.power:g} to tell apart settings {o.difference:g} evaluations apart "
+            f"(b) power {o.power:g} to tell apart settings {r.difference:.3g} evaluations apart "
             f"(paired Wilcoxon signed-rank, two-sided, α = {o.alpha:.3g}, {s.resamples} "
             f"resampled studies of the pilot's centred paired differences): {count}"
         )
+        lines.append(f"    difference {r.difference:.3g}: {r.difference_words}")
     lines.append(
         f"chosen: {r.chosen} replicates, the larger of the two ({plan.replicates.driver})"
         + (f", capped at --cap {r.cap}" if r.capped else "")
@@ -354,6 +371,8 @@ def _interval_words(plan: Plan) -> str:
             f"p = {r.p:.3g}: no pilot Wilson interval contains 0.5, and this is the end nearest "
             "0.5 of any setting's interval (the widest interval to come)."
         )
+    if r.recovery_words:
+        p += f" Deciding cell: {r.recovery_words}."
     at = float(sample_size.wilson_half_width(r.p, r.campaigns, o.confidence))
     if r.campaigns != r.normal_campaigns:
         check = (
@@ -383,8 +402,9 @@ def _power_words(plan: Plan) -> str:
     )
     return (
         f"(b) Power {o.power:g} to tell apart two settings whose evaluations to target differ "
-        f"by {o.difference:g} evaluations, paired by replicate, estimated by resampling the "
-        "pilot. The paired differences of evaluations to target between pilot settings "
+        f"by {r.difference:.3g} evaluations ({r.difference_words}), paired by replicate, "
+        "estimated by resampling the pilot. The paired differences of evaluations to target "
+        "between pilot settings "
         f"({len(r.comparisons)} comparisons: {'; '.join(r.comparisons)}), in every landscape "
         "and distortion, are centred on their median over the pilot's replicates and scaled "
         f"by √(k/(k − 1)) for the spread centring takes away (k = {o.pilot_replicates}); the "
@@ -426,7 +446,7 @@ def _replicates_section(plan: Plan) -> Section:
             (
                 (f"(a) recovery interval ±{o.half_width:g}", r.interval),
                 (
-                    f"(b) power {o.power:g} for a difference of {o.difference:g}",
+                    f"(b) power {o.power:g} for a difference of {r.difference:.3g}",
                     "–" if r.search is None else r.search.replicates,
                 ),
                 ("chosen: the larger" + (f", capped at {r.cap}" if r.capped else ""), r.chosen),
@@ -448,7 +468,11 @@ def _compute_section(plan: Plan) -> Section:
         ("evaluations", e.evaluations),
         ("chunks", c.chunks),
         ("CPU time", duration(c.cpu)),
-        (f"wall time here ({e.jobs} process(es))", duration(c.local)),
+        (
+            f"wall time here ({e.jobs} process(es))",
+            f"{duration(c.local)} ({duration(c.local_interval[0])} to "
+            f"{duration(c.local_interval[1])})",
+        ),
         (f"wall time on {c.workers} Dask workers", duration(c.cluster)),
         ("chunk files", size(c.chunk_bytes)),
         ("grid.nc", size(c.grid_bytes)),
@@ -463,7 +487,10 @@ def _compute_section(plan: Plan) -> Section:
                 "pilot's measured seconds per campaign of that strategy in that landscape and "
                 f"distortion ({e.per_campaign:.3f} s per campaign on average); wall time is "
                 f"max(CPU time / {e.jobs}, longest chunk {c.longest:.1f} s) plus the pilot's "
-                f"start-up time ({c.startup:.1f} s). Dask workers are taken as fast as one "
+                f"start-up time ({c.startup:.1f} s). The range beside it is the same "
+                "estimate with the pilot's cells (distortions within each landscape, and "
+                f"replicates) resampled with replacement ({TIME_RESAMPLES} times; central "
+                f"{TIME_LEVEL:.0%}). Dask workers are taken as fast as one "
                 "core of this machine, with the same chunks. The timings are this machine's "
                 "while the pilot ran: other work running then, or during the study, scales "
                 "them."
@@ -526,10 +553,30 @@ def _run_section(plan: Plan) -> Section:
             f"Write the replicate count into the study's replicates key first: in {s.path}, "
             f"change '{old.strip()}' to '{new.strip()}'."
         )
+    blocks = []
+    if plan.command.endswith("--fresh"):
+        blocks.append(
+            _p(
+                f"{plan.out} holds results of the study before this edit; the edited study is "
+                "a different grid, so the command starts over there (--fresh discards those "
+                "results; give another --out to keep them)."
+            )
+        )
+    if plan.edges:
+        blocks.append(
+            _p(
+                "Edge of the study: the pilot's best setting sits at the edge of the levels "
+                "studied; "
+                + "; ".join(e.words for e in plan.edges)
+                + ". To study beyond it, set in the study file:"
+            )
+        )
+        blocks.append(Block("code", edge_snippet(plan.edges)))
     return Section(
         "7. Running the study",
         (
             _p(edit),
+            *blocks,
             Block("code", plan.command),
             _p(
                 f"Results land in {plan.out}: chunks/ (one file per chunk), manifest.json, and "

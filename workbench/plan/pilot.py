@@ -18,6 +18,8 @@ from ..study.spec import Study
 from ..validation import check_number
 
 WHERE = "command line"
+# Pilot replicates `check` runs for its time estimate (the plan's default is larger).
+CHECK_PILOT = 2
 # Resampled studies per candidate replicate count in the power search.
 RESAMPLES = 1000
 # The per-setting arrays of a chunk (the rest are one value per chunk), as run_chunk stacks them.
@@ -29,14 +31,15 @@ class PlanOptions:
     """What the plan aims for; every value is checked with the one validation helper.
 
     ``half_width`` of the recovery interval, ``power`` to tell apart two settings whose
-    evaluations to target differ by ``difference`` evaluations, at ``confidence`` (the test's
+    evaluations to target differ by ``difference`` evaluations (None: derived from the pilot,
+    :func:`workbench.plan.estimate.pilot_difference`), at ``confidence`` (the test's
     level is 1 − confidence); ``pilot_replicates`` per pilot cell; ``cap`` on the replicates;
     ``workers`` Dask workers for the cluster estimate; ``jobs`` local workers (None: all cores).
     """
 
     half_width: float = 0.1
     power: float = 0.8
-    difference: float = 5.0
+    difference: float | None = None
     confidence: float = 0.95
     pilot_replicates: int = 4
     cap: int = 64
@@ -47,7 +50,8 @@ class PlanOptions:
     def __post_init__(self):
         check_number(self.half_width, "--half-width", low=0, high=0.5, closed="right", where=WHERE)
         check_number(self.power, "--power", low=0, high=1, closed="neither", where=WHERE)
-        check_number(self.difference, "--difference", low=0, closed="right", where=WHERE)
+        if self.difference is not None:
+            check_number(self.difference, "--difference", low=0, closed="right", where=WHERE)
         check_number(self.confidence, "--confidence", low=0, high=1, closed="neither", where=WHERE)
         check_number(self.pilot_replicates, "--pilot-replicates", low=2, integer=True, where=WHERE)
         check_number(self.cap, "--cap", low=1, integer=True, where=WHERE)
@@ -64,6 +68,8 @@ class PlanOptions:
 
     def check(self, study: Study) -> None:
         """The checks that need the study: a difference the budget can show."""
+        if self.difference is None:
+            return
         check_number(
             self.difference,
             "--difference",

@@ -13,7 +13,7 @@ import xarray as xr
 
 from .. import analysis as an
 from ..analysis.transfer_check import TransferCheck, transfer_from_grids
-from ..engine.strategies import uses_quantile
+from ..engine.strategies import uses_belief, uses_quantile
 from .page import Group
 
 REPORT = "report.html"
@@ -111,6 +111,8 @@ class Content:
     truth: TransferCheck | None = None
     truth_grid: xr.Dataset | None = None
     resemblance: xr.Dataset | None = None
+    # One sensitivity Dataset per belief-guided strategy (the quantile's user first).
+    sensitivities: tuple[xr.Dataset, ...] = ()
 
 
 RESEMBLANCE_VARIABLES = (
@@ -155,6 +157,10 @@ def compute_content(
         pp = rec if rec.choice["strategy"] == name else an.recommend(ds, rule, rs, strategy=name)
         fixed = {k: rec.choice[k] for k in ("exploration", "initial")}
         sens = an.sensitivity(ds, rule, rs, name, fixed)
+    guided = [str(s) for s in ds["strategy"].values if uses_belief(str(s))]
+    fixed = {k: rec.choice[k] for k in ("exploration", "initial")}
+    every = [sens] if sens is not None else []
+    every += [an.sensitivity(ds, rule, rs, s, fixed) for s in guided if s not in with_quantile[:1]]
     return Content(
         ds=ds,
         rule=rule,
@@ -183,4 +189,5 @@ def compute_content(
         truth=transfer_from_grids(ds, truth, rule, rs) if truth is not None else None,
         truth_grid=truth,
         resemblance=resemblance_of(ds),
+        sensitivities=tuple(every),
     )

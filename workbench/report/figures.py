@@ -16,9 +16,12 @@ from ..world.space import Space
 from .markup import mpl_text
 
 __all__ = [
+    "MAX_TICKS",
     "belief_marginals",
     "distortion_probabilities",
     "evidence_marginals",
+    "figure_title",
+    "integer_ticks",
     "marginal_panels",
     "regret_curves",
     "robustness_frontier",
@@ -26,6 +29,9 @@ __all__ = [
 ]
 
 _STYLES = ("-", "--", "-.", ":")
+# The recommended setting and the runner-up: far apart in colour (dark navy and an orange
+# from the Okabe–Ito palette, told apart by colour-blind readers) and in line style.
+_ROLE_STYLES = {"recommended": ("#00224e", "-"), "runner-up": ("#d55e00", "--")}
 
 
 def _colours(n: int):
@@ -36,14 +42,75 @@ def _colours(n: int):
     return [cmap(x) for x in np.linspace(0.0, 0.75, max(n, 1))]
 
 
+# Most major ticks on an axis: enough to read a value off, few enough that labels never touch.
+MAX_TICKS = 6
+
+
+def _plain_number(v: float, _=None) -> str:
+    """A tick label: plain digits from 0.001 to 99,999, else powers of ten as 1e-05."""
+    if v == 0:
+        return "0"
+    if 1e-3 <= abs(v) < 1e5:
+        return f"{v:.4g}"
+    return f"{v:.0e}".replace("e-0", "e-").replace("e+0", "e")
+
+
 def _log_axis(ax) -> None:
-    """A log x axis labelled with plain numbers at 1, 2, 5 × 10^k."""
+    """A log x axis with at most :data:`MAX_TICKS` labelled ticks: 1, 2, 5 × 10^k over less
+    than two decades, whole decades (every few when they are many) over more (matplotlib's
+    ``LogLocator``)."""
     from matplotlib import ticker
 
     ax.set_xscale("log")
-    ax.xaxis.set_major_locator(ticker.LogLocator(subs=(1.0, 2.0, 5.0)))
-    ax.xaxis.set_major_formatter(ticker.FuncFormatter(lambda v, _: f"{v:g}"))
+    low, high = sorted(v for v in ax.get_xlim() if v > 0) or (1.0, 10.0)
+    decades = np.log10(high / low) if high > low else 1.0
+    subs = (1.0, 2.0, 5.0) if decades < 2 else (1.0,)
+    ax.xaxis.set_major_locator(ticker.LogLocator(subs=subs, numticks=MAX_TICKS))
+    ax.xaxis.set_major_formatter(ticker.FuncFormatter(_plain_number))
+    ax.xaxis.set_minor_locator(ticker.LogLocator(subs="auto", numticks=12))
     ax.xaxis.set_minor_formatter(ticker.NullFormatter())
+
+
+def _level_axis(ax, labels: Sequence[str]) -> None:
+    """Level positions 0 … k − 1 labelled with their levels: every level when there are few,
+    else at most :data:`MAX_TICKS` whole-number positions (``MaxNLocator(integer=True)``), so
+    that an integer parameter of hundreds of levels reads like a number line."""
+    from matplotlib import ticker
+
+    labels = [mpl_text(v) for v in labels]
+    if len(labels) <= 8:
+        ax.set_xticks(range(len(labels)), labels)
+        return
+    try:  # an integer parameter: ticks at round values of the parameter, not of the index
+        first, last = int(labels[0]), int(labels[-1])
+    except ValueError:
+        ax.xaxis.set_major_locator(ticker.MaxNLocator(nbins=MAX_TICKS, integer=True))
+    else:
+        values = ticker.MaxNLocator(nbins=MAX_TICKS, integer=True).tick_values(first, last)
+        ax.xaxis.set_major_locator(
+            ticker.FixedLocator([v - first for v in values if first <= v <= last])
+        )
+    ax.xaxis.set_major_formatter(
+        ticker.FuncFormatter(lambda v, _: labels[round(v)] if 0 <= round(v) < len(labels) else "")
+    )
+
+
+def integer_ticks(axis) -> None:
+    """Whole-number ticks only (counts, evaluations), at most :data:`MAX_TICKS` + 2."""
+    from matplotlib import ticker
+
+    axis.set_major_locator(ticker.MaxNLocator(nbins=MAX_TICKS + 2, integer=True))
+
+
+def figure_title(fig, text: str, fontsize: float = 11.0) -> None:
+    """A figure's title, wrapped to the figure's width so that no line runs off its edges
+    (about 0.55 em per character, common practice for proportional fonts); with a constrained
+    layout the panels make room for every line."""
+    import textwrap
+
+    width = fig.get_figwidth() * 72 / (0.55 * fontsize)
+    lines = textwrap.wrap(str(text), max(int(width * 0.95), 20))
+    fig.suptitle(mpl_text("\n".join(lines)), fontsize=fontsize)
 
 
 def belief_marginals(
@@ -70,8 +137,20 @@ def marginal_panels(axes: Sequence, curves: Sequence[MarginalCurve]) -> None:
         colours = _colours(len(c.densities))
         if c.discrete:
             n = len(c.densities)
+            many = len(c.labels) > 8
             width = 0.8 / max(n, 1)
             for k, (label, probs) in enumerate(c.densities.items()):
+                if many:  # hundreds of levels: a step line per belief, not a smear of bars
+                    ax.step(
+                        c.x,
+                        probs,
+                        _STYLES[k % 4],
+                        where="mid",
+                        color=colours[k],
+                        label=mpl_text(label),
+                        linewidth=1.4,
+                    )
+                    continue
                 ax.bar(
                     c.x + (k - (n - 1) / 2) * width,
                     probs,
@@ -81,8 +160,7 @@ def marginal_panels(axes: Sequence, curves: Sequence[MarginalCurve]) -> None:
                     edgecolor="black",
                     linewidth=0.4,
                 )
-            labels = [mpl_text(v) for v in c.labels]
-            ax.set_xticks(c.x, labels, rotation=30 if len(c.labels) > 6 else 0)
+            _level_axis(ax, c.labels)
             ax.set_ylabel("probability")
             if c.optimum is not None:
                 ax.axvline(c.optimum, color="black", linewidth=1.2)
@@ -92,6 +170,10 @@ def marginal_panels(axes: Sequence, curves: Sequence[MarginalCurve]) -> None:
                 ax.plot(c.x, density, style, color=colours[k], label=mpl_text(label), linewidth=1.6)
             if c.log:
                 _log_axis(ax)
+            else:
+                from matplotlib import ticker
+
+                ax.xaxis.set_major_locator(ticker.MaxNLocator(nbins=MAX_TICKS))
             ax.set_ylabel("density (per unit of range)")
             if c.optimum is not None:
                 ax.axvline(c.optimum, color="black", linewidth=1.2, label="optimum")
@@ -113,33 +195,39 @@ def _short_number(v: float) -> str:
 
 
 def sensitivity_heatmap(axes: Sequence, data, metric_label: str, panel_titles=None) -> None:
-    """One heatmap per panel of ``data`` (an :func:`workbench.analysis.sensitivity` Dataset):
-    the metric over decay (rows) × quantile (columns), each cell annotated with its value and
-    interval; hatched cells cannot be told apart from the panel's best (outlined in black).
+    """Heatmaps of ``data``: an :func:`workbench.analysis.sensitivity` Dataset, or a sequence
+    of them (one per belief-guided strategy), drawn panel by panel into ``axes`` in order
+    (strategy by strategy). Each panel is the metric over decay (rows) × quantile (columns;
+    one column "not used" for a strategy without a quantile), each cell annotated with its
+    value and interval; the outlined cell is the panel's lowest and hatched cells cannot be
+    told apart from it.
 
-    Colours are per panel (cividis, darker is lower) so that differences within a panel show;
-    the annotated numbers compare across panels.
+    One colour scale for the whole figure (one norm, one colour bar, cividis, darker is
+    lower), so that panels compare by colour as by number.
     """
     import matplotlib
+    from matplotlib.colors import Normalize
     from matplotlib.patches import Patch, Rectangle
 
+    sets = [data] if hasattr(data, "data_vars") else list(data)
     cmap = matplotlib.colormaps["cividis"]
-    decays = [str(d) for d in data["decay"].values]
-    quantiles = [float(q) for q in data["quantile"].values]
-    panels = [str(p) for p in data["panel"].values]
+    finite = np.concatenate([d["estimate"].values[np.isfinite(d["estimate"].values)] for d in sets])
+    vmin, vmax = (finite.min(), finite.max()) if finite.size else (0.0, 1.0)
+    flat = vmax - vmin < 1e-12
+    if flat:
+        vmin, vmax = vmin - 0.5, vmax + 0.5
+    norm = Normalize(vmin, vmax)
     titles = panel_titles or {}
-    for ax, panel in zip(axes, panels, strict=True):
-        est = data["estimate"].sel(panel=panel).values
-        lo = data["low"].sel(panel=panel).values
-        hi = data["high"].sel(panel=panel).values
-        tied = data["tied"].sel(panel=panel).values
-        best = data["best"].sel(panel=panel).values
-        finite = est[np.isfinite(est)]
-        vmin, vmax = (finite.min(), finite.max()) if finite.size else (0.0, 1.0)
-        flat = vmax - vmin < 1e-12
-        if flat:
-            vmin, vmax = vmin - 0.5, vmax + 0.5
-        image = ax.imshow(est, cmap=cmap, vmin=vmin, vmax=vmax, aspect="auto", origin="upper")
+    slots = [(d, str(p)) for d in sets for p in d["panel"].values]
+    for ax, (d, panel) in zip(axes, slots, strict=True):
+        decays = [str(v) for v in d["decay"].values]
+        quantiles = [float(q) for q in d["quantile"].values]
+        est = d["estimate"].sel(panel=panel).values
+        lo = d["low"].sel(panel=panel).values
+        hi = d["high"].sel(panel=panel).values
+        tied = d["tied"].sel(panel=panel).values
+        best = d["best"].sel(panel=panel).values
+        image = ax.imshow(est, cmap=cmap, norm=norm, aspect="auto", origin="upper")
         for i in range(len(decays)):
             for j in range(len(quantiles)):
                 if not np.isfinite(est[i, j]):
@@ -190,15 +278,21 @@ def sensitivity_heatmap(axes: Sequence, data, metric_label: str, panel_titles=No
                             (j - 0.47, i - 0.47), 0.94, 0.94, fill=False, edgecolor="black", lw=2.5
                         )
                     )
-        ax.set_xticks(range(len(quantiles)), [f"{q:g}" for q in quantiles])
-        ax.set_yticks(range(len(decays)), [mpl_text(d) for d in decays])
+        columns = [f"{q:g}" if np.isfinite(q) else "not used" for q in quantiles]
+        ax.set_xticks(range(len(quantiles)), columns)
+        ax.set_yticks(range(len(decays)), [mpl_text(v) for v in decays])
         ax.set_xlabel("threshold quantile γ")
         ax.set_ylabel("decay schedule")
-        ax.set_title(mpl_text(titles.get(panel, panel)), fontsize="medium")
-        bar = ax.figure.colorbar(image, ax=ax, fraction=0.046, pad=0.04)
-        if flat:  # one value everywhere: a single tick says so
-            bar.set_ticks([vmin + 0.5])
-        bar.set_label(mpl_text(metric_label), fontsize="small")
+        strategy = d.attrs.get("strategy", "")
+        head = titles.get(panel, panel)
+        ax.set_title(mpl_text(f"{strategy}\n{head}" if strategy else head), fontsize="medium")
+    figure = axes[0].figure
+    bar = figure.colorbar(
+        matplotlib.cm.ScalarMappable(norm=norm, cmap=cmap), ax=list(axes), shrink=0.8, pad=0.02
+    )
+    if flat:  # one value everywhere: a single tick says so
+        bar.set_ticks([vmin + 0.5])
+    bar.set_label(mpl_text(f"{metric_label} (one scale for every panel)"), fontsize="small")
     handles = [
         Patch(facecolor="white", edgecolor="black", linewidth=2.5, label="lowest in the panel"),
         Patch(
@@ -208,7 +302,7 @@ def sensitivity_heatmap(axes: Sequence, data, metric_label: str, panel_titles=No
             label="cannot be told apart from the lowest",
         ),
     ]
-    axes[0].figure.legend(
+    figure.legend(
         handles=handles, loc="outside lower center", ncol=2, frameon=False, fontsize="small"
     )
 
@@ -225,7 +319,13 @@ def regret_curves(
 
     roles = roles or {}
     settings = [str(s) for s in bands["setting"].values]
-    colours = _colours(len(settings))
+    others = [s for s in settings if s not in roles]
+    colours, styles = {}, {}
+    for k, s in enumerate(others):  # the rest: cividis, dotted and dash-dotted
+        colours[s] = _colours(len(others) + 1)[k + 1]
+        styles[s] = (":", "-.", (0, (5, 1, 1, 1, 1, 1)))[k % 3]
+    for s, role in roles.items():  # the two that matter: their own colour and line
+        colours[s], styles[s] = _ROLE_STYLES.get(role, (_colours(1)[0], "-"))
     markers = ("o", "s", "^", "D", "v", "P", "X")
     t = bands["evaluation"].values
     every = max(1, len(t) // 8)
@@ -236,12 +336,12 @@ def regret_curves(
             lo = np.maximum(one["low"].values, LOG_FLOOR)
             hi = np.maximum(one["high"].values, LOG_FLOOR)
             label = f"{s} ({roles[s]})" if s in roles else s
-            ax.fill_between(t, lo, hi, color=colours[k], alpha=0.18, linewidth=0)
+            ax.fill_between(t, lo, hi, color=colours[s], alpha=0.18, linewidth=0)
             ax.plot(
                 t,
                 mid,
-                _STYLES[k % len(_STYLES)],
-                color=colours[k],
+                linestyle=styles[s],
+                color=colours[s],
                 marker=markers[k % len(markers)],
                 markevery=(k % every, every),
                 markersize=4,
@@ -259,6 +359,7 @@ def regret_curves(
                 fontsize="x-small",
             )
         ax.set_yscale("log")
+        integer_ticks(ax.xaxis)
         ax.set_title(mpl_text(f"distortion: {distortion}"), fontsize="medium")
         ax.set_xlabel("evaluations spent (initial design included)")
         ax.set_ylabel("median normalized regret")
@@ -275,7 +376,8 @@ def robustness_frontier(
     """Each belief-guided setting at (benefit when the belief is exact, cost at its worst
     distortion), both against no belief, with bootstrap intervals as error bars (an
     :func:`workbench.analysis.frontier` Dataset). Settings no other beats on both axes are
-    filled and labelled; better is to the right and down."""
+    filled and labelled in black, the others open and labelled in grey; better is to the right
+    and down."""
     roles = roles or {}
     settings = [str(s) for s in data["setting"].values]
     b = data["estimate"].sel(axis="benefit").values
@@ -301,23 +403,32 @@ def robustness_frontier(
             capsize=2,
             zorder=3 if on else 2,
         )
-    placed: list[tuple[float, float]] = []
-    span = max(np.ptp(c), 1.0)
-    for k in np.flatnonzero(efficient):
+    # Every point is labelled: the ones no other beats in black, the beaten ones in grey. Each
+    # label is raised until its drawn box clears the labels before it.
+    from matplotlib.text import Text
+
+    ax.autoscale_view()
+    renderer = ax.figure.canvas.get_renderer()
+    boxes = []
+    for k in [*np.flatnonzero(efficient), *np.flatnonzero(~efficient)]:
+        on = bool(efficient[k])
         label = settings[k] + (f" ({roles[settings[k]]})" if settings[k] in roles else "")
-        dy = 8
-        for px, py in placed:
-            if abs(px - b[k]) < 0.1 * max(np.ptp(b), 1.0) and abs(py - c[k]) < 0.08 * span:
-                dy += 12
-        placed.append((b[k], c[k]))
-        ax.annotate(
+        note = ax.annotate(
             mpl_text(label),
             (b[k], c[k]),
-            xytext=(6, dy),
+            xytext=(6, 8),
             textcoords="offset points",
-            fontsize="small",
+            fontsize="small" if on else "x-small",
+            color="black" if on else "0.45",
             arrowprops={"arrowstyle": "-", "color": "0.5", "linewidth": 0.6},
         )
+        # the text's own box (an annotation's box includes its leader line)
+        for step in range(1, 16):
+            box = Text.get_window_extent(note, renderer)
+            if not any(box.overlaps(other) for other in boxes):
+                break
+            note.xyann = (6, 8 + 11 * step)
+        boxes.append(Text.get_window_extent(note, renderer))
     from matplotlib.lines import Line2D
 
     ax.legend(
@@ -330,7 +441,7 @@ def robustness_frontier(
                 color="0.55",
                 markerfacecolor="white",
                 linestyle="",
-                label="beaten by another setting",
+                label="beaten on both axes by another setting (grey label)",
             ),
         ],
         loc="upper left",
@@ -396,6 +507,7 @@ def distortion_probabilities(ax, t, probabilities, distortions) -> None:
             label=mpl_text(name),
             linewidth=1.6,
         )
+    integer_ticks(ax.xaxis)
     ax.set_xlabel("evaluations so far")
     ax.set_ylabel("probability of the distortion")
     ax.set_ylim(0, 1)

@@ -23,10 +23,13 @@ def _png(fig) -> bytes:
 
 
 def _grid_axes(n: int, ncols: int, width: float, height: float, bottom: float = 0.0):
+    """A figure of ``n`` panels on a grid of at most ``ncols`` columns, as few rows as that
+    allows and the columns spread evenly over them (5 panels on 3 columns: 3 + 2); the slots
+    left over are removed, not left blank."""
     import matplotlib.pyplot as plt
 
-    ncols = max(1, min(ncols, n))
-    nrows = math.ceil(n / ncols)
+    nrows = math.ceil(n / max(1, min(ncols, n)))
+    ncols = math.ceil(n / nrows)
     fig, axes = plt.subplots(
         nrows,
         ncols,
@@ -36,7 +39,7 @@ def _grid_axes(n: int, ncols: int, width: float, height: float, bottom: float = 
     )
     flat = list(axes.ravel())
     for ax in flat[n:]:
-        ax.set_visible(False)
+        ax.remove()
     return fig, flat[:n]
 
 
@@ -45,6 +48,8 @@ def report_figures(c: Content) -> list[tuple[str, str, str, bytes]]:
     import matplotlib
 
     matplotlib.use("Agg")
+    import matplotlib.pyplot as plt
+
     from . import figures as fg
 
     out = []
@@ -54,25 +59,34 @@ def report_figures(c: Content) -> list[tuple[str, str, str, bytes]]:
     if c.rec.runner_up is not None:
         roles[c.rec.runner_up["setting"]] = "runner-up"
 
-    if c.sensitivity is not None:
-        s = c.sensitivity
-        panels = [str(p) for p in s["panel"].values]
+    sets = list(c.sensitivities) or ([c.sensitivity] if c.sensitivity is not None else [])
+    if sets:
+        panels = [str(p) for p in sets[0]["panel"].values]
         titles = {p: f"distortion: {p}" for p in panels[:-1]}
         titles[panels[-1]] = f"under the rule ({c.rule.rule})"
-        fig, axes = _grid_axes(len(panels), 3, 5.0, 3.4, bottom=0.5)
-        fg.sensitivity_heatmap(axes, s, metric_name, titles)
+        # One row of panels per belief-guided strategy, one column per distortion and rule.
+        fig, axes = plt.subplots(
+            len(sets),
+            len(panels),
+            figsize=(3.6 * len(panels) + 1.0, 3.4 * len(sets) + 0.6),
+            squeeze=False,
+            layout="constrained",
+        )
+        fg.sensitivity_heatmap(list(axes.ravel()), sets, metric_name, titles)
         title = f"Sensitivity of {metric_name} to decay and quantile"
-        fig.suptitle(f"{title} (pseudo-posterior)", fontsize="large")
+        fig.suptitle(title, fontsize="large")
+        names = ", ".join(str(d.attrs["strategy"]) for d in sets)
         out.append(
             (
                 "sensitivity",
                 title,
-                f"Mean {metric_name} ({unit}; lower is better) of the pseudo-posterior strategy "
-                f"for each decay schedule and threshold quantile, one panel per distortion and "
-                f"one for the decision rule. Brackets: {level} bootstrap interval over "
-                f"replicates. The outlined cell is the lowest of its panel; hatched cells "
-                f"cannot be told apart from it (the paired {level} interval of their "
-                f"difference with it includes 0).",
+                f"Mean {metric_name} ({unit}; lower is better) of each belief-guided strategy "
+                f"({names}; one row each) for each decay schedule and threshold quantile "
+                f"(a strategy that does not use the quantile has one column, 'not used'), one "
+                f"panel per distortion and one for the decision rule, on one colour scale. "
+                f"Brackets: {level} bootstrap interval over replicates. The outlined cell is "
+                f"the lowest of its panel; hatched cells cannot be told apart from it (the "
+                f"paired {level} interval of their difference with it includes 0).",
                 _png(fig),
             )
         )
@@ -93,8 +107,6 @@ def report_figures(c: Content) -> list[tuple[str, str, str, bytes]]:
     )
 
     if c.frontier is not None:
-        import matplotlib.pyplot as plt
-
         fig, ax = plt.subplots(figsize=(8.5, 5.6), layout="constrained")
         fg.robustness_frontier(ax, c.frontier, unit, roles)
         ax.set_title("Robustness frontier", fontsize="large")
@@ -105,7 +117,8 @@ def report_figures(c: Content) -> list[tuple[str, str, str, bytes]]:
                 f"Each belief-guided setting: what it saves against no belief when the belief "
                 f"is exact (x) and what it costs against no belief at its worst distortion (y), "
                 f"in {unit} of {metric_name}, with {level} paired bootstrap intervals. Filled "
-                f"and labelled: settings that no other setting beats on both axes.",
+                "and labelled in black: settings that no other setting beats on both axes; "
+                "open, with grey labels: settings another beats on both.",
                 _png(fig),
             )
         )
@@ -119,7 +132,7 @@ def report_figures(c: Content) -> list[tuple[str, str, str, bytes]]:
 def _stored_curves(ds) -> list[tuple[str, list]]:
     """(landscape label, marginal curves) of every landscape whose beliefs the grid stores
     (written at run time; a grid without them gives none)."""
-    from ..world.marginals import MarginalCurve
+    from ..world.marginals import GRID_POINTS, MarginalCurve
 
     if "belief_parameters" not in ds.attrs or "belief_density" not in ds:
         return []
@@ -130,7 +143,7 @@ def _stored_curves(ds) -> list[tuple[str, list]]:
             continue
         curves = []
         for j, p in enumerate(parameters):
-            n = len(p["labels"]) or ds.sizes["belief_grid"]
+            n = len(p["labels"]) or min(GRID_POINTS, ds.sizes["belief_grid"])
             x = ds["belief_x"].values[li, j, :n]
             densities = {
                 name: ds["belief_density"].values[li, d, j, :n]
@@ -174,7 +187,7 @@ def _belief_figure(c: Content):
     for row, (label, curves) in enumerate(stored):
         fg.marginal_panels(list(axes[row][: dims[row]]), curves)
         for ax in axes[row][dims[row] :]:
-            ax.set_visible(False)
+            ax.remove()
         axes[row][0].set_title(mpl_text(f"landscape {label}"), loc="left")
     fig.suptitle("Belief marginals", fontsize="large")
     return (

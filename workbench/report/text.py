@@ -92,6 +92,24 @@ def risk_paragraph(c: Content) -> str:
     return text
 
 
+def edge_rows(edges) -> list[tuple[str, str]]:
+    """The answer's rows for a choice at the edge of the levels studied
+    (:func:`workbench.analysis.study_edges`): what sits on the edge, and the lines to put in
+    the study file to study beyond it."""
+    if not edges:
+        return []
+    rows = [("edge of the study", e.words) for e in edges]
+    head, *keys = an.edge_snippet(edges).splitlines()
+    rows.append(
+        (
+            "to study beyond it",
+            f"in the study file's {head} table, replace "
+            + " and ".join(f"the {k.split(' =')[0]} line with: {k}" for k in keys),
+        )
+    )
+    return rows
+
+
 def answer_rows(c: Content) -> list[tuple[str, str]]:
     r = c.rec
     metric_name, unit = an.METRIC_NAMES[c.rule.metric]
@@ -119,6 +137,7 @@ def answer_rows(c: Content) -> list[tuple[str, str]]:
             f"same setting",
         )
     )
+    rows += edge_rows(r.edges)
     if r.leave_one_landscape_out:
         items = [
             f"without {name}: {'the same' if choice == r.setting else choice}"

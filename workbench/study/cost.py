@@ -1,60 +1,63 @@
-"""Cost of a study: counts of cells, campaigns and evaluations, and a wall-time estimate from a
-short timing probe run for real on this machine."""
+"""Cost of a study: counts of cells, campaigns and evaluations; the time comes from the plan's
+pilot (:mod:`workbench.plan.estimate`), the one estimate ``check`` and ``plan`` print."""
 
 from __future__ import annotations
 
-import os
-import time
 from dataclasses import dataclass
 
-from .cells import Cell
 from .spec import Study
 
-__all__ = ["Estimate", "duration", "probe", "size"]
+__all__ = ["Estimate", "cell_counts", "duration", "size"]
 
 
 @dataclass(frozen=True)
 class Estimate:
+    """A study's counts and its time at ``per_campaign`` seconds per campaign (the pilot's
+    measurement, :func:`workbench.plan.compute_estimate`, the one estimate that ``check`` and
+    ``plan`` print). ``cells`` = ``guided_cells`` + ``baseline_cells``, and
+    ``campaigns`` = ``cells`` × replicates."""
+
     cells: int
     campaigns: int
     evaluations: int
     probe_campaigns: int
     per_campaign: float
     jobs: int
+    guided_cells: int = 0
+    baseline_cells: int = 0
 
     @property
     def seconds(self) -> float:
-        """Estimated wall time: campaigns × seconds per campaign / workers."""
+        """CPU seconds spread over the workers: campaigns × seconds per campaign / workers."""
         return self.campaigns * self.per_campaign / self.jobs
 
+    def count_lines(self, replicates: int) -> list[str]:
+        """The counts as ``check`` prints them, each adding up to the next."""
+        return [
+            f"grid cells: {self.cells} ({self.guided_cells} belief-guided: landscapes x "
+            f"distortions x settings; {self.baseline_cells} baseline: a baseline that ignores "
+            "the belief runs in the exact distortion only)",
+            f"campaigns: {self.campaigns} ({self.cells} cells x {replicates} replicates)",
+            f"evaluations in total: {self.evaluations} ({self.campaigns} campaigns x "
+            f"{self.evaluations // max(self.campaigns, 1)} evaluations)",
+        ]
 
-def probe(study: Study, jobs: int | None = None) -> Estimate:
-    """Time the study's first chunk for real (one lock-step batch: every setting of the first
-    landscape and distortion over the first block of replicates) and take its seconds per
-    campaign; the grid runs every chunk the same way."""
-    from .grid import chunks, run_chunk, settings
 
-    every = chunks(study)
-    guided, baseline = settings(study)
-    campaigns = sum(c.campaigns for c in every)
-    first = every[0]
-    for r in first.replicates:
-        # Placement work is shared by a chunk's distortions, so keep it out of the timing.
-        cell = Cell(study, first.landscape, first.distortion, r)
-        cell.placement  # noqa: B018
-        cell.severity  # noqa: B018
-    start = time.perf_counter()
-    run_chunk(study, first)
-    per = (time.perf_counter() - start) / max(first.campaigns, 1)
-    n_cells = len(study.landscapes) * len(study.distortions) * (len(guided) + len(baseline))
-    return Estimate(
-        cells=n_cells,
-        campaigns=campaigns,
-        evaluations=campaigns * study.budget,
-        probe_campaigns=first.campaigns,
-        per_campaign=per,
-        jobs=jobs or os.cpu_count() or 1,
-    )
+def cell_counts(study: Study) -> tuple[int, int]:
+    """(belief-guided cells, baseline cells) the study runs: a cell is a landscape, a
+    distortion and a setting; baselines that ignore the belief run in the exact distortion
+    only (:func:`workbench.study.grid.chunks`)."""
+    from .grid import chunks, settings
+
+    guided, _ = settings(study)
+    labels = {s.label for s in guided}
+    cells = {
+        (c.landscape, c.distortion, s.label, s.label in labels)
+        for c in chunks(study)
+        for s in c.settings
+    }
+    n_guided = sum(1 for *_, g in cells if g)
+    return n_guided, len(cells) - n_guided
 
 
 def duration(seconds: float) -> str:

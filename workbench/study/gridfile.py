@@ -217,7 +217,10 @@ def decision_attributes(decision: Decision) -> dict:
 def _write_beliefs(ds, study: Study) -> None:
     """The belief marginals of replicate 0 of the first landscapes (exact and distorted), as the
     report draws them."""
-    ds.createDimension("belief_grid", GRID_POINTS)
+    # Continuous marginals take GRID_POINTS points; a discrete one a point per level, which
+    # for an integer parameter may be more (batch sizes 16 to 512: 497).
+    levels = [p.levels for p in (study.space.parameters if study.space is not None else ())]
+    ds.createDimension("belief_grid", max([GRID_POINTS, *(n for n in levels if n)]))
     x = ds.createVariable(
         "belief_x", "f8", ("landscape", "coordinate", "belief_grid"), fill_value=np.nan
     )

@@ -64,7 +64,8 @@ def marginal_curves(
             )
             x = np.arange(p.levels, dtype=float)
             dens = {k: np.exp(b.marginal(j).logpdf(centres)) / p.levels for k, b in beliefs.items()}
-            at = None if optimum is None else float(int(p.from_unit(optimum[j])))
+            # the optimum's level, as a position on the x axis (level indices)
+            at = None if optimum is None else float(min(int(optimum[j] * p.levels), p.levels - 1))
         else:
             labels = ()
             x = np.asarray(p.from_unit(u), dtype=float)
