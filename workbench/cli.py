@@ -297,8 +297,7 @@ def cmd_demo(args) -> int:
 
 
 def cmd_plan(args) -> int:
-    from .plan import PlanOptions, build_plan, reasons, run_pilot, write_plan
-    from .study.cost import duration, size
+    from .plan.options import PlanOptions
     from .study.spec import load
 
     options = PlanOptions.from_text(
@@ -313,6 +312,9 @@ def cmd_plan(args) -> int:
     )
     study = load(args.study)
     out = _out_dir(args, study.name)
+    from .plan import build_plan, reasons, run_pilot, write_plan  # after the checks: the engine
+    from .study.cost import duration, size
+
     pilot = run_pilot(study, options)
     plan = build_plan(study, pilot, options, out)
     md, page = write_plan(plan)
@@ -350,11 +352,13 @@ def cmd_plan(args) -> int:
 
 def _decision(args):
     """The grid of DIR and the decision rule and resampling the options ask for."""
-    from .analysis import Resampling, decision_rule, open_grid
+    from .analysis.dataset import open_grid
 
     where = "command line"
     try:
         ds = open_grid(args.dir)
+        from .analysis import Resampling, decision_rule  # after the grid's check: xarray, SciPy
+
         rule = decision_rule(
             ds, args.rule, args.weights, args.level, args.metric, _landscapes(args), args.score
         )
@@ -379,10 +383,10 @@ def _print_recommendation(rec) -> None:
 
 
 def cmd_recommend(args) -> int:
+    ds, rule, resampling = _decision(args)
     from .analysis import landscape_kinds, recommend, transfer
     from .analysis.recommendation import short_number
 
-    ds, rule, resampling = _decision(args)
     rec = recommend(ds, rule, resampling, strategy=args.strategy)
     kinds = set(landscape_kinds(ds))
     by_kind = transfer(ds, rule, resampling) if len(kinds) > 1 and not args.strategy else None
@@ -412,14 +416,15 @@ def cmd_recommend(args) -> int:
 
 def cmd_transfer(args) -> int:
     """Run the study's grid and its truth grid (both resume), then compare their orders."""
-    from .analysis import Resampling, open_grid
-    from .analysis.transfer_check import TRANSFER_FILE, transfer_from_grids
-    from .analysis.transfer_check import TRUTH_FOLDER as TRUTH
     from .storage import write_text
     from .study.cost import duration
     from .study.spec import load
 
     study = load(args.study)
+    from .analysis import Resampling, open_grid  # after the study's check: xarray, SciPy
+    from .analysis.transfer_check import TRANSFER_FILE, transfer_from_grids
+    from .analysis.transfer_check import TRUTH_FOLDER as TRUTH
+
     truth = study.truth_study()
     out = _out_dir(args, study.name)
     try:
@@ -450,9 +455,9 @@ def cmd_transfer(args) -> int:
 
 
 def cmd_report(args) -> int:
-    from .report.document import write_report
-
     ds, rule, resampling = _decision(args)
+    from .report.document import write_report  # after the checks: matplotlib
+
     files, rec = write_report(args.dir, rule, resampling, ds=ds)
     print(f"report: {files.html}")
     print(f"summary: {files.summary}")

@@ -429,9 +429,9 @@ def test_a_second_run_on_a_busy_folder_is_refused_naming_the_holder(studies, tmp
         # The lock is taken before the manifest is written: wait for both, so that the
         # refused runs below could only have changed a manifest that is already there.
         _wait_for(
-            lambda: lock.exists()
-            and lock.read_text().strip() == str(proc.pid)
-            and manifest.exists(),
+            lambda: (
+                lock.exists() and lock.read_text().strip() == str(proc.pid) and manifest.exists()
+            ),
             proc,
         )
         for fresh in ([], ["--fresh"]):

@@ -223,13 +223,14 @@ MONITOR_EVERY = 4
 def cmd_monitor(args) -> int:
     from .. import analysis as an
     from ..engine.strategies import DEFAULT_QUANTILE
-    from . import cache
-    from . import monitor as mo
     from .pages import CAUTIONS, monitor_lines, write_page
 
     # Every argument is checked before the training, which is the only slow part.
     study = _study_with_space(args.study)
     ds = _study_grid(study, args.grid)
+    from . import cache  # after the files' checks: xarray, scikit-learn
+    from . import monitor as mo
+
     steps = monitor_steps(study)
     setting = args.setting or an.recommend(ds).setting
     strategy = mo.check_setting(ds, setting, "--setting", "command line")

@@ -3,12 +3,35 @@
 :func:`run_pilot` (:mod:`.pilot`) runs a small pilot for real; :mod:`.estimate` turns it into
 replicates (with the formulas of :mod:`.sample_size`) and compute; :func:`build_plan` is pure
 and :func:`write_plan` writes ``plan.md`` and ``plan.html`` (:mod:`.document`).
+The names are imported at their first use, so that ``workbench plan`` checks its options and
+its study before the engine loads.
 """
 
-from ..study.cost import duration, size
-from .document import Plan, build_plan, reasons, replicates_edit, write_plan
-from .estimate import Compute, Replicates, compute_estimate, grid_bytes, replicates_needed
-from .pilot import Pilot, PilotDesign, PlanOptions, pilot_chunks, pilot_design, run_pilot
+from __future__ import annotations
+
+import importlib
+from typing import Any
+
+_WHERE = {
+    "duration": "..study.cost",
+    "size": "..study.cost",
+    "Plan": ".document",
+    "build_plan": ".document",
+    "reasons": ".document",
+    "replicates_edit": ".document",
+    "write_plan": ".document",
+    "Compute": ".estimate",
+    "Replicates": ".estimate",
+    "compute_estimate": ".estimate",
+    "grid_bytes": ".estimate",
+    "replicates_needed": ".estimate",
+    "Pilot": ".pilot",
+    "PilotDesign": ".pilot",
+    "pilot_chunks": ".pilot",
+    "pilot_design": ".pilot",
+    "run_pilot": ".pilot",
+    "PlanOptions": ".options",
+}
 
 __all__ = [
     "Compute",
@@ -30,3 +53,16 @@ __all__ = [
     "size",
     "write_plan",
 ]
+
+
+def __getattr__(name: str) -> Any:
+    """A public name, imported from its module at its first read (PEP 562)."""
+    if name not in _WHERE:
+        raise AttributeError(f"module {__name__!r} has no attribute {name!r}")
+    value = getattr(importlib.import_module(_WHERE[name], __name__), name)
+    globals()[name] = value
+    return value
+
+
+def __dir__() -> list[str]:
+    return sorted({*globals(), *__all__})

@@ -25,7 +25,8 @@ from ..study.grid import settings
 from ..study.spec import Study
 from . import sample_size
 from .estimate import Compute, Replicates, compute_estimate, replicates_needed
-from .pilot import Pilot, PlanOptions
+from .options import PlanOptions
+from .pilot import Pilot
 
 PLAN_MD = "plan.md"
 PLAN_HTML = "plan.html"

@@ -13,7 +13,8 @@ from ..study.cost import Estimate
 from ..study.grid import chunks, settings
 from ..study.spec import Study
 from . import sample_size
-from .pilot import Pilot, PilotDesign, PlanOptions, parallel_processes
+from .options import PlanOptions, parallel_processes
+from .pilot import Pilot, PilotDesign
 
 
 @dataclass(frozen=True)
