@@ -145,6 +145,7 @@ def cmd_audit(args) -> int:
         table_lines,
     )
     from ..validation import check_number
+    from ..world.history import fitting_source
     from . import audit as au
     from .pages import CAUTIONS, audit_lines, write_page
 
@@ -176,8 +177,8 @@ def cmd_audit(args) -> int:
     # The study's earlier evaluations, or, when it reads none, the ones audited.
     data = earlier_evaluations(study)
     if data is None:
-        source = f"{history.rows} evaluations in {Path(args.data).name}"
-        data = Evaluations(history.X, history.y, source)
+        fit = history.fitting_rows()  # the resemblance's GP sees what the audit's saw
+        data = Evaluations(fit.X, fit.y, fitting_source(history, fit))
     table = resemblance_table(study, data=data)
     if args.json:
         out = au.to_dict(result, study.space)

@@ -72,8 +72,9 @@ def audit_lines(a: Audit, space: Space, data: str) -> list[str]:
     ]
     if a.rows > MAX_FIT_ROWS:
         lines.append(
-            f"the data's GP saw {MAX_FIT_ROWS} of the {a.rows} rows, drawn with a fixed seed "
-            f"(the limit on a GP fit); the good evaluations are taken from all rows"
+            f"the data's GP saw {MAX_FIT_ROWS} of the {a.rows} rows (the best by response and "
+            f"the rest spread by max-min distance: a GP is exact up to {MAX_FIT_ROWS} rows); "
+            f"the good evaluations are taken from all rows"
         )
     if a.distortion is not None:
         d, m = a.distortion_distances[a.distortion]

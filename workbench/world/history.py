@@ -25,7 +25,6 @@ from pathlib import Path
 
 import numpy as np
 
-from ..seeding import derive, generator
 from ..storage import read_input
 
 # InputError here on purpose: read_history reads the user's own CSV file, so it is a reader at
@@ -34,6 +33,7 @@ from ..validation import InputError, closest, raw
 from .space import Categorical, Integer, Space
 
 __all__ = [
+    "BEST_SHARE",
     "GOALS",
     "MAX_FILE_BYTES",
     "MAX_FIT_ROWS",
@@ -42,6 +42,7 @@ __all__ = [
     "Table",
     "fitting_fields",
     "fitting_source",
+    "fitting_subset",
     "read_history",
     "read_table",
 ]
@@ -50,10 +51,14 @@ GOALS = ("minimise", "maximise")
 # Size limits of a CSV table, checked as it is read: its bytes and its data rows.
 MAX_FILE_BYTES = 50 * 2**20
 MAX_ROWS = 100_000
-# A GP fitted to the data (fitted and likedata landscapes, the audit) sees at most this many
-# rows, chosen with a fixed seed (:meth:`History.fitting_rows`): its cost grows as n³ and its
-# memory as n², and a few hundred evaluations pin a smooth response down.
+# A GP fitted to the data (fitted and likedata landscapes, the audit, resemblance) is exact up
+# to this many rows; above it, it sees this many chosen by a rule (:func:`fitting_subset`): its
+# cost grows as n³ and its memory as n², and a few hundred evaluations pin a smooth response
+# down.
 MAX_FIT_ROWS = 500
+# The share of a subset taken as the best rows by response (where the optimum is decided); the
+# rest fill the space.
+BEST_SHARE = 0.25
 # A number as a CSV cell writes it: digits, an optional point and exponent (no '1_000', 'nan',
 # 'inf', hex or non-ASCII digits, all of which float() accepts).
 _NUMBER = re.compile(r"[+-]?([0-9]+(\.[0-9]*)?|\.[0-9]+)([eE][+-]?[0-9]+)?")
@@ -95,14 +100,48 @@ class History:
         return -self.y if self.goal == "maximise" else self.y.copy()
 
     def fitting_rows(self, limit: int = MAX_FIT_ROWS) -> History:
-        """At most ``limit`` rows for a GP fit: all of them, or ``limit`` drawn without
-        replacement by a fixed seed (so every process picks the same), in file order. The
-        ``digest`` stays the file's."""
+        """At most ``limit`` rows for a GP fit: all of them, or those :func:`fitting_subset`
+        chooses, in file order. The ``digest`` stays the file's."""
         if self.rows <= limit:
             return self
-        rng = generator(derive(0, "fitting rows", self.digest))
-        keep = np.sort(rng.choice(self.rows, size=limit, replace=False))
+        keep = fitting_subset(self.X, self.y, limit)
         return replace(self, X=self.X[keep], y=self.y[keep])
+
+
+def fitting_subset(
+    X: np.ndarray, y: np.ndarray, limit: int = MAX_FIT_ROWS, best: float = BEST_SHARE
+) -> np.ndarray:
+    """The rows a GP is fitted to, as sorted indices: every row when there are at most
+    ``limit``; otherwise the ``k = ⌈best · limit⌉`` rows of lowest ``y`` (ties by file order)
+    and ``limit − k`` of the others chosen greedily by max-min distance: each next row is the
+    one farthest (Euclidean, on the cube) from every row chosen so far, ties to the first.
+
+    The best rows keep the model exact where the optimum is decided; the max-min rows bound the
+    distance from any row to a chosen one (the fill distance), which bounds how far the
+    posterior mean strays from the exact one elsewhere. Deterministic: no seed, the same in
+    every process.
+    """
+    X = np.asarray(X, dtype=float)
+    y = np.asarray(y, dtype=float)
+    n = len(y)
+    if n <= limit:
+        return np.arange(n)
+    k = min(limit, max(1, math.ceil(best * limit)))
+    order = np.argsort(y, kind="stable")
+    chosen, rest = list(order[:k]), order[k:]
+    points = X[rest]
+    # Squared distance from each remaining row to its nearest chosen row, in blocks of rows.
+    nearest = np.full(len(rest), np.inf)
+    for start in range(0, k, 256):
+        block = X[order[start : min(k, start + 256)]]
+        d = np.sum((points[:, None, :] - block[None, :, :]) ** 2, axis=-1)
+        nearest = np.minimum(nearest, d.min(axis=1))
+    for _ in range(limit - k):
+        j = int(np.argmax(nearest))
+        chosen.append(rest[j])
+        nearest = np.minimum(nearest, np.sum((points - points[j]) ** 2, axis=1))
+        nearest[j] = -1.0
+    return np.sort(np.array(chosen))
 
 
 def _excerpt(text: str) -> str:
@@ -284,9 +323,11 @@ def fitting_source(history: History, fit: History) -> str:
     name = Path(history.path).name
     if fit.rows == history.rows:
         return f"{history.rows} evaluations in {name}"
+    best = math.ceil(BEST_SHARE * fit.rows)
     return (
-        f"{fit.rows} of the {history.rows} evaluations in {name} (a subsample drawn with a "
-        f"fixed seed: a GP is fitted to at most {MAX_FIT_ROWS} rows)"
+        f"{fit.rows} of the {history.rows} evaluations in {name} (a GP is exact up to "
+        f"{MAX_FIT_ROWS} rows; above, it sees the {best} best and {fit.rows - best} spread by "
+        f"max-min distance)"
     )
 
 
