@@ -252,3 +252,25 @@ def test_a_drawn_surface_is_one_task_per_block_and_a_failure_keeps_its_finished_
     # The drawn landscape's exact chunk finished before its task failed: it is on disk.
     assert "L001-D000-R0000-0001.npz" in kept and len(kept) == 3
     assert not (tmp_path / "out" / "grid.nc").exists()
+
+
+def test_the_largest_chunks_go_out_first_so_no_worker_finishes_alone():
+    import dataclasses
+    from pathlib import Path
+
+    from workbench.study import runner
+    from workbench.study.cost import chunk_cost
+
+    reference = Path(__file__).resolve().parents[2] / "studies" / "reference.toml"
+    study = dataclasses.replace(load(reference), replicates=12)  # blocks of 8 and of 4
+    tasks = runner._groups(study, grid.chunks(study))
+    costs = [sum(chunk_cost(study, c) for c in g) for g in tasks]
+    assert costs == sorted(costs, reverse=True)
+    assert sorted(c.key for g in tasks for c in g) == sorted(c.key for c in grid.chunks(study))
+    # Hartmann 6-D's full blocks first (the highest dimension), the 4-replicate blocks of the
+    # 2-D Branin last; the exact distortion's chunk, which also runs the belief-free
+    # baselines, leads its landscape and block.
+    first, last = tasks[0][0], tasks[-1][0]
+    assert study.landscapes[first.landscape].name == "hartmann6" and len(first.replicates) == 8
+    assert first.distortion == 0
+    assert study.landscapes[last.landscape].name == "branin" and len(last.replicates) == 4

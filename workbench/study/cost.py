@@ -7,10 +7,11 @@ import os
 import time
 from dataclasses import dataclass
 
+from ..engine.strategies import uses_model
 from .cells import Cell
 from .spec import Study
 
-__all__ = ["Estimate", "duration", "probe", "size"]
+__all__ = ["Estimate", "chunk_cost", "duration", "probe", "size"]
 
 
 @dataclass(frozen=True)
@@ -55,6 +56,24 @@ def probe(study: Study, jobs: int | None = None) -> Estimate:
         per_campaign=per,
         jobs=jobs or os.cpu_count() or 1,
     )
+
+
+def chunk_cost(study: Study, chunk) -> float:
+    """A chunk's compute relative to the others' (only ratios mean anything), by which the
+    runner hands out the largest first.
+
+    A model-based campaign refits and searches its GP at every evaluation; the step with n
+    evaluations in d dimensions costs about n²·(d + 2) (kernel matrices over the data and the
+    candidates, gradients over d length scales and two variances), so a campaign of budget B
+    costs Σ n²(d + 2) ≈ B³(d + 2)/3. A campaign without a model costs B·(d + 2). A chunk costs
+    its replicates times the sum over its settings.
+    """
+    budget, dim = study.budget, study.landscapes[chunk.landscape].dim
+    per = [
+        budget**3 * (dim + 2) / 3 if uses_model(s.strategy) else budget * (dim + 2)
+        for s in chunk.settings
+    ]
+    return len(chunk.replicates) * float(sum(per))
 
 
 def duration(seconds: float) -> str:
