@@ -134,6 +134,15 @@ def _finite_or_none(row: dict) -> dict:
 
 
 def cmd_audit(args) -> int:
+    from threadpoolctl import threadpool_limits
+
+    # One BLAS thread, as a grid's workers: the audit's GP makes many small factorisations,
+    # which threads slow down many times on a busy machine.
+    with threadpool_limits(limits=1, user_api="blas"):
+        return _audit(args)
+
+
+def _audit(args) -> int:
     from .. import analysis as an
     from ..report.figures import evidence_marginals
     from ..seeding import derive, generator

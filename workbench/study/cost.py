@@ -36,8 +36,15 @@ def probe(study: Study, jobs: int | None = None) -> Estimate:
     """Time the study's first chunk for real (one lock-step batch: every setting of the first
     landscape and distortion over the first block of replicates) and take its seconds per
     campaign; the grid runs every chunk the same way."""
+    from threadpoolctl import threadpool_limits
+
     from .grid import chunks, run_chunk, settings
 
+    with threadpool_limits(limits=1, user_api="blas"):  # as the runner's workers
+        return _probe(study, jobs, chunks, run_chunk, settings)
+
+
+def _probe(study, jobs, chunks, run_chunk, settings) -> Estimate:
     every = chunks(study)
     guided, baseline = settings(study)
     campaigns = sum(c.campaigns for c in every)

@@ -404,16 +404,22 @@ def _work(
     """Run a group's chunks in turn: what finished, and the error that stopped the rest (so
     that the chunks finished before it are still written). ``parent`` is the pid of the run's
     process, which a worker on this machine watches (None on a Dask cluster)."""
+    from threadpoolctl import threadpool_limits
+
     if parent is not None:
         _watch_parent(parent)
     out = []
-    for chunk in group:
-        start = time.perf_counter()
-        try:
-            result = run_chunk(study, chunk)
-        except Exception as err:
-            return out, err
-        out.append((chunk, result, time.perf_counter() - start))
+    # One BLAS thread, as the engine's batch has: the placements (a fitted landscape's GP,
+    # surface draws) run here too, and on a busy machine threaded BLAS makes them many times
+    # slower.
+    with threadpool_limits(limits=1, user_api="blas"):
+        for chunk in group:
+            start = time.perf_counter()
+            try:
+                result = run_chunk(study, chunk)
+            except Exception as err:
+                return out, err
+            out.append((chunk, result, time.perf_counter() - start))
     return out, None
 
 

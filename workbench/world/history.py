@@ -25,6 +25,7 @@ from pathlib import Path
 
 import numpy as np
 
+from .. import gp
 from ..storage import read_input
 
 # InputError here on purpose: read_history reads the user's own CSV file, so it is a reader at
@@ -35,11 +36,13 @@ from .space import Categorical, Integer, Space
 __all__ = [
     "BEST_SHARE",
     "GOALS",
+    "HYPER_ROWS",
     "MAX_FILE_BYTES",
     "MAX_FIT_ROWS",
     "MAX_ROWS",
     "History",
     "Table",
+    "fit_to_rows",
     "fitting_fields",
     "fitting_source",
     "fitting_subset",
@@ -51,11 +54,14 @@ GOALS = ("minimise", "maximise")
 # Size limits of a CSV table, checked as it is read: its bytes and its data rows.
 MAX_FILE_BYTES = 50 * 2**20
 MAX_ROWS = 100_000
-# A GP fitted to the data (fitted and likedata landscapes, the audit, resemblance) is exact up
-# to this many rows; above it, it sees this many chosen by a rule (:func:`fitting_subset`): its
+# A GP fitted to the data (fitted and likedata landscapes, the audit, resemblance) conditions on
+# up to this many rows; above it, on this many chosen by a rule (:func:`fitting_subset`): its
 # cost grows as n³ and its memory as n², and a few hundred evaluations pin a smooth response
 # down.
 MAX_FIT_ROWS = 500
+# A GP's hyper-parameters are fitted by maximum likelihood to at most this many of those rows
+# (:func:`fit_to_rows`): the fit takes hundreds of n × n factorisations, the conditioning one.
+HYPER_ROWS = 250
 # The share of a subset taken as the best rows by response (where the optimum is decided); the
 # rest fill the space.
 BEST_SHARE = 0.25
@@ -106,6 +112,20 @@ class History:
             return self
         keep = fitting_subset(self.X, self.y, limit)
         return replace(self, X=self.X[keep], y=self.y[keep])
+
+
+def fit_to_rows(X: np.ndarray, y: np.ndarray, **options) -> gp.GP:
+    """A GP fitted to earlier evaluations ``(X, y)`` (at most ``MAX_FIT_ROWS`` rows, as
+    :meth:`History.fitting_rows` leaves them): with at most ``HYPER_ROWS`` rows,
+    :func:`workbench.gp.fit` on all of them, exactly; with more, the hyper-parameters fitted
+    (``gp.fit(..., **options)``) to the ``HYPER_ROWS`` rows :func:`fitting_subset` chooses, and
+    the GP with them conditioned on every row (:func:`workbench.gp.posterior`)."""
+    X = np.asarray(X, dtype=float)
+    y = np.asarray(y, dtype=float)
+    keep = fitting_subset(X, y, HYPER_ROWS)
+    if len(keep) == len(y):
+        return gp.fit(X, y, **options)
+    return gp.posterior(X, y, gp.fit(X[keep], y[keep], **options).hyperparameters)
 
 
 def fitting_subset(
