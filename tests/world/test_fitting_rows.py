@@ -13,7 +13,13 @@ from sklearn.gaussian_process import GaussianProcessRegressor
 from sklearn.gaussian_process.kernels import ConstantKernel, Matern, WhiteKernel
 
 from workbench import gp
-from workbench.world.history import BEST_SHARE, MAX_FIT_ROWS, fitting_subset
+from workbench.world.history import (
+    BEST_SHARE,
+    HYPER_ROWS,
+    MAX_FIT_ROWS,
+    fit_to_rows,
+    fitting_subset,
+)
 
 ROWS = 1500
 LENGTH_SCALE = 0.3
@@ -88,3 +94,17 @@ def test_the_spread_rows_come_from_the_emptiest_places_first():
     y = np.arange(100.0)
     keep = fitting_subset(X, y, limit=4, best=0.25)
     assert 0 in keep and 99 in keep
+
+
+def test_the_fit_is_exact_up_to_its_row_limit_and_conditions_on_every_row_above(many_rows):
+    X, y = many_rows
+    few = fit_to_rows(X[:40], y[:40], rng=np.random.default_rng(0), restarts=1)
+    exact = gp.fit(X[:40], y[:40], rng=np.random.default_rng(0), restarts=1)
+    np.testing.assert_array_equal(few.hyperparameters.to_log(), exact.hyperparameters.to_log())
+    np.testing.assert_array_equal(few.alpha, exact.alpha)
+    rows = HYPER_ROWS + 60
+    model = fit_to_rows(X[:rows], y[:rows], rng=np.random.default_rng(0), restarts=1)
+    assert model.n == rows
+    keep = fitting_subset(X[:rows], y[:rows], HYPER_ROWS)
+    alone = gp.fit(X[keep], y[keep], rng=np.random.default_rng(0), restarts=1)
+    np.testing.assert_array_equal(model.hyperparameters.to_log(), alone.hyperparameters.to_log())

@@ -341,13 +341,17 @@ def read_history(
 def fitting_source(history: History, fit: History) -> str:
     """Where a GP's data came from, in words, saying when it saw a subsample of the rows."""
     name = Path(history.path).name
-    if fit.rows == history.rows:
+    if fit.rows <= HYPER_ROWS:
         return f"{history.rows} evaluations in {name}"
+    hyper = f"hyper-parameters fitted to {HYPER_ROWS} of them"
+    if fit.rows == history.rows:
+        spread = "the best by response and the rest spread by max-min distance"
+        return f"{history.rows} evaluations in {name} ({hyper}: {spread})"
     best = math.ceil(BEST_SHARE * fit.rows)
     return (
-        f"{fit.rows} of the {history.rows} evaluations in {name} (a GP is exact up to "
-        f"{MAX_FIT_ROWS} rows; above, it sees the {best} best and {fit.rows - best} spread by "
-        f"max-min distance)"
+        f"{fit.rows} of the {history.rows} evaluations in {name} (a GP conditions on at most "
+        f"{MAX_FIT_ROWS} rows: the {best} best and {fit.rows - best} spread by max-min "
+        f"distance; {hyper})"
     )
 
 
