@@ -60,8 +60,9 @@ MAX_ROWS = 100_000
 # down.
 MAX_FIT_ROWS = 500
 # A GP's hyper-parameters are fitted by maximum likelihood to at most this many of those rows
-# (:func:`fit_to_rows`): the fit takes hundreds of n × n factorisations, the conditioning one.
-HYPER_ROWS = 250
+# (:func:`fit_to_rows`): the fit takes hundreds of n × n factorisations, the conditioning one
+# (at 250 rows the fit alone took about 12 s of a busy 2-core machine; at 128, one eighth).
+HYPER_ROWS = 128
 # The share of a subset taken as the best rows by response (where the optimum is decided); the
 # rest fill the space.
 BEST_SHARE = 0.25
