@@ -297,10 +297,11 @@ def cmd_demo(args) -> int:
 
 
 def cmd_plan(args) -> int:
-    from .plan.options import PlanOptions
+    from . import plan as pl  # its names load at first use: the engine after the checks
+    from .study.cost import duration, size
     from .study.spec import load
 
-    options = PlanOptions.from_text(
+    options = pl.PlanOptions.from_text(
         half_width=args.half_width,
         power=args.power,
         difference=args.difference,
@@ -312,12 +313,9 @@ def cmd_plan(args) -> int:
     )
     study = load(args.study)
     out = _out_dir(args, study.name)
-    from .plan import build_plan, reasons, run_pilot, write_plan  # after the checks: the engine
-    from .study.cost import duration, size
-
-    pilot = run_pilot(study, options)
-    plan = build_plan(study, pilot, options, out)
-    md, page = write_plan(plan)
+    pilot = pl.run_pilot(study, options)
+    plan = pl.build_plan(study, pilot, options, out)
+    md, page = pl.write_plan(plan)
     r, c = plan.replicates, plan.compute
     print(f"study plan of '{study.name}': {study.title}")
     print(
@@ -325,7 +323,7 @@ def cmd_plan(args) -> int:
         f"landscape x distortion, {len(pilot.design.settings)} settings) in {pilot.wall:.1f} s"
     )
     print(f"replicates: {r.chosen}")
-    for line in reasons(plan):
+    for line in pl.reasons(plan):
         print(f"  {line}")
     if plan.warning:
         print(f"  warning: {plan.warning}")
@@ -352,19 +350,16 @@ def cmd_plan(args) -> int:
 
 def _decision(args):
     """The grid of DIR and the decision rule and resampling the options ask for."""
-    from .analysis.dataset import open_grid
+    from . import analysis as an  # its names load at first use: xarray after the grid's check
 
-    where = "command line"
     try:
-        ds = open_grid(args.dir)
-        from .analysis import Resampling, decision_rule  # after the grid's check: xarray, SciPy
-
-        rule = decision_rule(
+        ds = an.open_grid(args.dir)
+        rule = an.decision_rule(
             ds, args.rule, args.weights, args.level, args.metric, _landscapes(args), args.score
         )
-        resampling = Resampling(args.draws, args.confidence, args.seed)
+        resampling = an.Resampling(args.draws, args.confidence, args.seed)
     except InputError as err:
-        raise err.located(where) from None
+        raise err.located("command line") from None
     return ds, rule, resampling
 
 
