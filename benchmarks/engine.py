@@ -13,14 +13,23 @@ batch (R = replicates, :func:`workbench.engine.batch.run_batch`); the traces are
 the regret is too. Prints seconds per campaign, the ratios to the baseline, the median final
 regret of each, and a one-sided Mann–Whitney test of "ours is worse" (p < 0.05 would say it is).
 
-    python benchmarks/engine.py [--replicates R]
+Then the path around the engine: the same campaigns through ``workbench simulate --jobs 1`` in a
+fresh interpreter, with R and with 2R replicates; the difference over R is the per-campaign time
+with start-up cancelled (placement, reference gap, severity, chunk and grid work included),
+printed beside the batch's in-process time of the same run (goal: within 1.3 times).
+``--no-loop`` skips the scikit-learn loop and the one-by-one runs.
+
+    python benchmarks/engine.py [--replicates R] [--no-loop]
 """
 
 from __future__ import annotations
 
 import argparse
+import subprocess
+import sys
 import time
 import warnings
+from pathlib import Path
 
 import numpy as np
 from scipy import stats
@@ -39,6 +48,7 @@ from workbench.world.beliefs import gaussian_at
 from workbench.world.space import Space
 
 CASES = (("branin", 50), ("hartmann6", 100))
+ROOT = Path(__file__).resolve().parents[1]
 
 
 def baseline(placement, budget: int, n0: int, streams) -> float:
@@ -83,11 +93,48 @@ def ours_batch(placement, budget: int, n0: int, streams_list) -> list[float]:
     return [float(t.regret[-1]) for t in traces]
 
 
+def through_simulate(name: str, budget: int, replicates: int) -> float:
+    """Per-campaign seconds of ``workbench simulate --jobs 1``: (t(2R) − t(R)) / R."""
+
+    def wall(r: int) -> float:
+        argv = ["-m", "workbench.cli", "simulate", "--landscape", name, "--strategy", "no-belief"]
+        argv += ["--budget", str(budget), "--replicates", str(r), "--jobs", "1", "--json"]
+        start = time.perf_counter()
+        subprocess.run([sys.executable, *argv], cwd=ROOT, capture_output=True, check=True)
+        return time.perf_counter() - start
+
+    return (wall(2 * replicates) - wall(replicates)) / replicates
+
+
+def batch_seconds(name: str, budget: int, replicates: int) -> float:
+    """Per-campaign seconds of one lock-step batch of ``replicates`` campaigns, in-process."""
+    placement = landscapes.get(name).placed()
+    d = placement.minimisers.shape[1]
+    streams = [seeding.campaign_streams(seeding.derive(2026, name, r)) for r in range(replicates)]
+    start = time.perf_counter()
+    ours_batch(placement, budget, d + 1, streams)
+    return (time.perf_counter() - start) / replicates
+
+
 def main() -> None:
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     parser.add_argument("--replicates", type=int, default=8)
+    parser.add_argument("--no-loop", action="store_true")
     args = parser.parse_args()
     R = args.replicates
+    if not args.no_loop:
+        loop(R)
+    print(
+        f"\n{'landscape':<10} {'budget':>6} {f'batch R={R} s':>13} {'simulate s':>11} {'ratio':>6}"
+    )
+    for name, budget in CASES:
+        batch = batch_seconds(name, budget, R)
+        simulated = through_simulate(name, budget, R)
+        print(f"{name:<10} {budget:>6} {batch:>13.3f} {simulated:>11.3f} {simulated / batch:>6.2f}")
+
+
+def loop(R: int) -> None:
+    """The table against the scikit-learn loop (see the module docstring)."""
     print(
         f"{'landscape':<10} {'budget':>6} {'sklearn s':>10} {'R=1 s':>8} {'ratio':>7} "
         f"{f'R={R} s':>8} {'ratio':>7} {'ours regret':>12} {'sklearn regret':>15} "

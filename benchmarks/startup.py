@@ -1,7 +1,8 @@
 """Start-up benchmark: how long the command line takes before its first line of work.
 
 Runs ``workbench --help``, ``workbench landscapes``, an argument error (``workbench run`` with
-no study) and a missing study file (``workbench check missing.toml``), each REPEATS times in a
+no study) and a missing file for each command that reads one (``check``, ``plan``,
+``transfer``, ``audit``, ``monitor``, ``report``, ``decide``), each REPEATS times in a
 fresh interpreter, and ``python -c pass`` the same way as the baseline of this run and this
 machine. Prints the median wall time of each in seconds and as a ratio to the baseline.
 
@@ -18,6 +19,8 @@ import time
 from pathlib import Path
 
 ROOT = Path(__file__).resolve().parents[1]
+# The command that picks a setting of a grid (renamed from recommend to decide, issue 25).
+DECIDE = "decide"
 
 COMMANDS = {
     "python -c pass (baseline)": ["-c", "pass"],
@@ -25,6 +28,17 @@ COMMANDS = {
     "workbench landscapes": ["-m", "workbench.cli", "landscapes"],
     "workbench run (no study)": ["-m", "workbench.cli", "run"],
     "workbench check missing.toml": ["-m", "workbench.cli", "check", "missing.toml"],
+    "workbench plan missing.toml": ["-m", "workbench.cli", "plan", "missing.toml"],
+    "workbench transfer missing.toml": ["-m", "workbench.cli", "transfer", "missing.toml"],
+    "workbench audit (no data file)": [
+        *("-m", "workbench.cli", "audit", "studies/demo.toml", "--data", "missing.csv"),
+    ],
+    "workbench monitor (no grid)": [
+        *("-m", "workbench.cli", "monitor", "studies/demo.toml"),
+        *("--observations", "missing.csv", "--grid", "nowhere"),
+    ],
+    "workbench report nowhere": ["-m", "workbench.cli", "report", "nowhere"],
+    f"workbench {DECIDE} nowhere": ["-m", "workbench.cli", DECIDE, "nowhere"],
 }
 
 
@@ -46,9 +60,9 @@ def main() -> None:
     medians = {name: statistics.median(times) for name, times in medians.items()}
     baseline = medians["python -c pass (baseline)"]
     print(f"median of {repeats} wall times, python {sys.version.split()[0]}")
-    print(f"{'command':<30} {'seconds':>8} {'x baseline':>11}")
+    print(f"{'command':<36} {'seconds':>8} {'x baseline':>11}")
     for name, seconds in medians.items():
-        print(f"{name:<30} {seconds:>8.3f} {seconds / baseline:>11.1f}")
+        print(f"{name:<36} {seconds:>8.3f} {seconds / baseline:>11.1f}")
 
 
 if __name__ == "__main__":

@@ -1,6 +1,7 @@
 """Hostile input: every case is one line naming the file or option, exit code 2 and nothing
 written; user text that looks like markup stays text in every output, and figures draw it."""
 
+import math
 import re
 import textwrap
 
@@ -316,7 +317,7 @@ def test_monitor_refuses_more_observations_than_the_budget(hostile_outputs, tmp_
     assert not out.exists()
 
 
-def test_a_gp_fit_sees_at_most_the_row_cap_drawn_with_a_fixed_seed(tmp_path):
+def test_a_gp_fit_sees_at_most_the_row_cap_chosen_by_the_subset_rule(tmp_path):
     from workbench.world.kinds import Fitted
     from workbench.world.space import Continuous, Space
 
@@ -328,9 +329,12 @@ def test_a_gp_fit_sees_at_most_the_row_cap_drawn_with_a_fixed_seed(tmp_path):
     data = history.read_history(path, space, "y")
     fit = data.fitting_rows()
     assert fit.rows == history.MAX_FIT_ROWS and data.rows == n
-    # Distinct rows of the file, in file order, the same on every call (fixed seed).
+    # Distinct rows of the file, in file order, the same on every call (no seed), the best
+    # quarter of the cap among them (y = row number here: the first rows are the best).
     assert len(set(fit.y.tolist())) == fit.rows and set(fit.y) <= set(data.y)
     assert (fit.y == data.fitting_rows().y).all() and (fit.y == sorted(fit.y)).all()
+    best = math.ceil(history.BEST_SHARE * history.MAX_FIT_ROWS)
+    assert fit.y[:best].tolist() == sorted(data.y)[:best]
     spec = Fitted.from_history(data)
     assert len(spec.y) == history.MAX_FIT_ROWS
     assert f"{history.MAX_FIT_ROWS} of the {n} evaluations" in spec.source

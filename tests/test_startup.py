@@ -72,6 +72,54 @@ def test_listing_landscapes_and_argument_errors_load_no_heavy_library(argv, code
     assert _heavy(modules) == []
 
 
+# The command that picks a setting of a grid (renamed from recommend to decide, issue 25).
+DECIDE = "decide"
+DEMO = "studies/demo.toml"
+
+
+@pytest.mark.parametrize(
+    ("argv", "says"),
+    [
+        (["plan", "missing.toml"], "got no file at missing.toml"),
+        (["plan", DEMO, "--power", "2"], "'--power' must be"),
+        (["transfer", "missing.toml"], "got no file at missing.toml"),
+        (["audit", "missing.toml", "--data", "x.csv"], "got no file at missing.toml"),
+        (["audit", DEMO, "--data", "missing.csv"], "missing.csv"),
+        (["monitor", DEMO, "--observations", "x.csv", "--grid", "nowhere"], "nowhere"),
+        (["report", "nowhere"], "got no file at nowhere/grid.nc"),
+        ([DECIDE, "nowhere"], "got no file at nowhere/grid.nc"),
+    ],
+)
+def test_every_commands_missing_file_exits_2_before_the_heavy_libraries_load(argv, says):
+    # The analysis, plan and evidence commands import xarray, SciPy, matplotlib or scikit-learn
+    # only once their files and options have passed their checks.
+    modules, result = _loaded_after(
+        "import contextlib, io\n"
+        "from workbench.cli import main\n"
+        "err = io.StringIO()\n"
+        "with contextlib.redirect_stderr(err):\n"
+        f"    code = main({argv!r})\n"
+        "result = [code, err.getvalue()]\n"
+    )
+    code, stderr = result
+    assert code == 2
+    assert says in stderr
+    assert len(stderr.strip().splitlines()) == 1
+    assert _heavy(modules) == []
+
+
+def test_the_analysis_package_gives_its_functions_whichever_module_loaded_first():
+    # `transfer` and `effects` are both a module and the function it defines; the package's
+    # names are imported lazily, and must still be the functions (as the README's `an.` uses).
+    _, result = _loaded_after(
+        "import workbench.analysis.transfer, workbench.analysis.effects\n"
+        "from workbench import analysis as an\n"
+        "result = [callable(an.transfer), an.transfer.__name__, an.effects.__name__,\n"
+        "          sorted(set(an.__all__) - set(dir(an)))]\n"
+    )
+    assert result == [True, "transfer", "effects", []]
+
+
 def test_a_lazy_module_imports_at_its_first_attribute_read_and_gives_the_modules_objects():
     _, result = _loaded_after(
         "from workbench.lazy import LazyModule\n"

@@ -301,11 +301,11 @@ def cmd_demo(args) -> int:
 
 
 def cmd_plan(args) -> int:
-    from .plan import PlanOptions, build_plan, edge_lines, reasons, run_pilot, write_plan
+    from . import plan as pl  # its names load at first use: the engine after the checks
     from .study.cost import duration, size
     from .study.spec import load
 
-    options = PlanOptions.from_text(
+    options = pl.PlanOptions.from_text(
         half_width=args.half_width,
         power=args.power,
         difference=args.difference,
@@ -317,9 +317,9 @@ def cmd_plan(args) -> int:
     )
     study = load(args.study)
     out = _out_dir(args, study.name)
-    pilot = run_pilot(study, options)
-    plan = build_plan(study, pilot, options, out)
-    md, page = write_plan(plan)
+    pilot = pl.run_pilot(study, options)
+    plan = pl.build_plan(study, pilot, options, out)
+    md, page = pl.write_plan(plan)
     r, c = plan.replicates, plan.compute
     print(f"study plan of '{study.name}': {study.title}")
     print(
@@ -327,7 +327,7 @@ def cmd_plan(args) -> int:
         f"landscape x distortion, {len(pilot.design.settings)} settings) in {pilot.wall:.1f} s"
     )
     print(f"replicates: {r.chosen}")
-    for line in reasons(plan):
+    for line in pl.reasons(plan):
         print(f"  {line}")
     if plan.warning:
         print(f"  warning: {plan.warning}")
@@ -344,7 +344,7 @@ def cmd_plan(args) -> int:
         print(f"add this line at the top of {study.path}: {new}")
     else:
         print(f"first, in {study.path}: change '{old.strip()}' to '{new.strip()}'")
-    print("\n".join(edge_lines(plan)))
+    print("\n".join(pl.edge_lines(plan)))
     print(f"command: {plan.command}")
     print(f"plan: {md}, {page}")
     return 0
@@ -355,17 +355,16 @@ def cmd_plan(args) -> int:
 
 def _decision(args):
     """The grid of DIR and the decision rule and resampling the options ask for."""
-    from .analysis import Resampling, decision_rule, open_grid
+    from . import analysis as an  # its names load at first use: xarray after the grid's check
 
-    where = "command line"
     try:
-        ds = open_grid(args.dir)
-        rule = decision_rule(
+        ds = an.open_grid(args.dir)
+        rule = an.decision_rule(
             ds, args.rule, args.weights, args.level, args.metric, _landscapes(args), args.score
         )
-        resampling = Resampling(args.draws, args.confidence, args.seed)
+        resampling = an.Resampling(args.draws, args.confidence, args.seed)
     except InputError as err:
-        raise err.located(where) from None
+        raise err.located("command line") from None
     return ds, rule, resampling
 
 
@@ -384,10 +383,10 @@ def _print_recommendation(rec) -> None:
 
 
 def cmd_decide(args) -> int:
+    ds, rule, resampling = _decision(args)
     from .analysis import landscape_kinds, recommend, transfer
     from .analysis.recommendation import short_number
 
-    ds, rule, resampling = _decision(args)
     rec = recommend(ds, rule, resampling, strategy=args.strategy)
     kinds = set(landscape_kinds(ds))
     by_kind = transfer(ds, rule, resampling) if len(kinds) > 1 and not args.strategy else None
@@ -417,14 +416,15 @@ def cmd_decide(args) -> int:
 
 def cmd_transfer(args) -> int:
     """Run the study's grid and its truth grid (both resume), then compare their orders."""
-    from .analysis import Resampling, open_grid
-    from .analysis.transfer_check import TRANSFER_FILE, transfer_from_grids
-    from .analysis.transfer_check import TRUTH_FOLDER as TRUTH
     from .storage import write_text
     from .study.cost import duration
     from .study.spec import load
 
     study = load(args.study)
+    from .analysis import Resampling, open_grid  # after the study's check: xarray, SciPy
+    from .analysis.transfer_check import TRANSFER_FILE, transfer_from_grids
+    from .analysis.transfer_check import TRUTH_FOLDER as TRUTH
+
     truth = study.truth_study()
     out = _out_dir(args, study.name)
     try:
@@ -455,9 +455,9 @@ def cmd_transfer(args) -> int:
 
 
 def cmd_report(args) -> int:
-    from .report.document import write_report
-
     ds, rule, resampling = _decision(args)
+    from .report.document import write_report  # after the checks: matplotlib
+
     files, rec = write_report(args.dir, rule, resampling, ds=ds)
     print(f"report: {files.html}")
     print(f"summary: {files.summary}")

@@ -232,11 +232,12 @@ def test_a_drawn_surface_is_one_task_per_block_and_a_failure_keeps_its_finished_
     path.write_text(textwrap.dedent(SURFACE_STUDY), encoding="utf-8")
     study = load(path)
     tasks = runner._groups(study, grid.chunks(study))
-    # Textbook chunks one by one; the drawn landscape's two distortions of its one block together.
+    # Textbook chunks one by one; the drawn landscape's two distortions of its one block
+    # together, and that task, the largest, first.
     assert [[(c.landscape, c.distortion) for c in g] for g in tasks] == [
+        [(1, 0), (1, 1)],
         [(0, 0)],
         [(0, 1)],
-        [(1, 0), (1, 1)],
     ]
     original = grid.campaign_of
 
@@ -249,6 +250,29 @@ def test_a_drawn_surface_is_one_task_per_block_and_a_failure_keeps_its_finished_
     with pytest.raises(RuntimeError, match="surface lost"):
         run_study(study, tmp_path / "out", jobs=1)
     kept = sorted(p.name for p in (tmp_path / "out" / "chunks").glob("*.npz"))
-    # The drawn landscape's exact chunk finished before its task failed: it is on disk.
-    assert "L001-D000-R0000-0001.npz" in kept and len(kept) == 3
+    # The drawn landscape's exact chunk finished before its task failed: it is on disk (the
+    # textbook tasks, queued after it, never started).
+    assert kept == ["L001-D000-R0000-0001.npz"]
     assert not (tmp_path / "out" / "grid.nc").exists()
+
+
+def test_the_largest_chunks_go_out_first_so_no_worker_finishes_alone():
+    import dataclasses
+    from pathlib import Path
+
+    from workbench.study import runner
+    from workbench.study.cost import chunk_cost
+
+    reference = Path(__file__).resolve().parents[2] / "studies" / "reference.toml"
+    study = dataclasses.replace(load(reference), replicates=12)  # blocks of 8 and of 4
+    tasks = runner._groups(study, grid.chunks(study))
+    costs = [sum(chunk_cost(study, c) for c in g) for g in tasks]
+    assert costs == sorted(costs, reverse=True)
+    assert sorted(c.key for g in tasks for c in g) == sorted(c.key for c in grid.chunks(study))
+    # Hartmann 6-D's full blocks first (the highest dimension), the 4-replicate blocks of the
+    # 2-D Branin last; the exact distortion's chunk, which also runs the belief-free
+    # baselines, leads its landscape and block.
+    first, last = tasks[0][0], tasks[-1][0]
+    assert study.landscapes[first.landscape].name == "hartmann6" and len(first.replicates) == 8
+    assert first.distortion == 0
+    assert study.landscapes[last.landscape].name == "branin" and len(last.replicates) == 4

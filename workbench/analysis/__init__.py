@@ -14,44 +14,61 @@ pipeline:
 - :mod:`.figure_data`: what the figures plot;
 - :mod:`.effects`: the effects table;
 - :mod:`.transfer`: whether the choice holds across kinds of landscapes.
+
+The names are imported at their first use (``an.recommend`` imports :mod:`.recommendation`
+then), so that a command checks its arguments before xarray and SciPy load.
 """
 
-from .dataset import (
-    METRIC_NAMES,
-    METRICS,
-    NO_BELIEF,
-    RULES,
-    SETTING_FACTORS,
-    FarOptima,
-    far_optima,
-    open_grid,
-    series,
-)
-from .edges import Edge, edge_lines, edge_snippet, study_edges
-from .effects import effects
-from .figure_data import frontier, regret_bands, sensitivity
-from .grid_metrics import (
-    belief_cost,
-    campaign_metric,
-    evaluations_to_beat_mode,
-    evaluations_to_target,
-    final_normalized_regret,
-    log_regret_area,
-    normalized_regret_at,
-    speedup,
-)
-from .recommendation import Recommendation, Rule, decision_rule, parse_weights, recommend, score
-from .statistics import (
-    Resampling,
-    bootstrap,
-    kaplan_meier,
-    kaplan_meier_median,
-    median_evaluations_to_target,
-    recovery,
-    summarise,
-    wilson_interval,
-)
-from .transfer import landscape_kinds, transfer
+from __future__ import annotations
+
+import importlib
+import sys
+import types
+from typing import Any
+
+_WHERE = {
+    "METRICS": "dataset",
+    "METRIC_NAMES": "dataset",
+    "NO_BELIEF": "dataset",
+    "RULES": "dataset",
+    "SETTING_FACTORS": "dataset",
+    "open_grid": "dataset",
+    "series": "dataset",
+    "FarOptima": "dataset",
+    "far_optima": "dataset",
+    "Edge": "edges",
+    "edge_lines": "edges",
+    "edge_snippet": "edges",
+    "study_edges": "edges",
+    "effects": "effects",
+    "frontier": "figure_data",
+    "regret_bands": "figure_data",
+    "sensitivity": "figure_data",
+    "belief_cost": "grid_metrics",
+    "campaign_metric": "grid_metrics",
+    "evaluations_to_beat_mode": "grid_metrics",
+    "evaluations_to_target": "grid_metrics",
+    "final_normalized_regret": "grid_metrics",
+    "log_regret_area": "grid_metrics",
+    "normalized_regret_at": "grid_metrics",
+    "speedup": "grid_metrics",
+    "Recommendation": "recommendation",
+    "Rule": "recommendation",
+    "decision_rule": "recommendation",
+    "parse_weights": "recommendation",
+    "recommend": "recommendation",
+    "score": "recommendation",
+    "Resampling": "statistics",
+    "bootstrap": "statistics",
+    "kaplan_meier": "statistics",
+    "kaplan_meier_median": "statistics",
+    "median_evaluations_to_target": "statistics",
+    "recovery": "statistics",
+    "summarise": "statistics",
+    "wilson_interval": "statistics",
+    "landscape_kinds": "transfer",
+    "transfer": "transfer",
+}
 
 __all__ = [
     "METRICS",
@@ -96,3 +113,30 @@ __all__ = [
     "transfer",
     "wilson_interval",
 ]
+
+
+class _Package(types.ModuleType):
+    """This package, which keeps its public ``transfer`` and ``effects`` functions when their
+    modules of the same names are imported (the import system binds each submodule on its
+    package; the eager imports this package once had rebound the functions after it)."""
+
+    def __setattr__(self, name: str, value: Any) -> None:
+        if name in _WHERE and isinstance(value, types.ModuleType):
+            return
+        super().__setattr__(name, value)
+
+
+sys.modules[__name__].__class__ = _Package
+
+
+def __getattr__(name: str) -> Any:
+    """A public name, imported from its module at its first read (PEP 562)."""
+    if name not in _WHERE:
+        raise AttributeError(f"module {__name__!r} has no attribute {name!r}")
+    value = getattr(importlib.import_module(f".{_WHERE[name]}", __name__), name)
+    globals()[name] = value
+    return value
+
+
+def __dir__() -> list[str]:
+    return sorted({*globals(), *__all__})

@@ -11,12 +11,18 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass
 from pathlib import Path
+from typing import TYPE_CHECKING
 
 import numpy as np
-import xarray as xr
 
 from ..engine.strategies import reference, uses_quantile
+from ..lazy import LazyModule
 from ..validation import InputError, raw
+
+if TYPE_CHECKING:
+    import xarray as xr
+else:  # open_grid checks that the file exists before xarray loads (a second's import)
+    xr = LazyModule("xarray")
 
 GRID = "grid.nc"
 NO_BELIEF = reference()

@@ -135,6 +135,15 @@ def _finite_or_none(row: dict) -> dict:
 
 
 def cmd_audit(args) -> int:
+    from threadpoolctl import threadpool_limits
+
+    # One BLAS thread, as a grid's workers: the audit's GP makes many small factorisations,
+    # which threads slow down many times on a busy machine.
+    with threadpool_limits(limits=1, user_api="blas"):
+        return _audit(args)
+
+
+def _audit(args) -> int:
     from .. import analysis as an
     from ..report.figures import evidence_marginals, figure_title
     from ..seeding import derive, generator
@@ -146,6 +155,7 @@ def cmd_audit(args) -> int:
         table_lines,
     )
     from ..validation import check_number
+    from ..world.history import fitting_source
     from . import audit as au
     from .pages import audit_lines, audit_tables, write_page
 
@@ -181,8 +191,8 @@ def cmd_audit(args) -> int:
     # The study's earlier evaluations, or, when it reads none, the ones audited.
     data = earlier_evaluations(study)
     if data is None:
-        source = f"{history.rows} evaluations in {Path(args.data).name}"
-        data = Evaluations(history.X, history.y, source)
+        fit = history.fitting_rows()  # the resemblance's GP sees what the audit's saw
+        data = Evaluations(fit.X, fit.y, fitting_source(history, fit))
     table = resemblance_table(study, data=data)
     if args.json:
         out = au.to_dict(result, study.space)
@@ -265,13 +275,14 @@ def _training_progress(steps: int, campaigns: int):
 def cmd_monitor(args) -> int:
     from .. import analysis as an
     from ..engine.strategies import DEFAULT_QUANTILE
-    from . import cache
-    from . import monitor as mo
     from .pages import monitor_lines, monitor_tables, write_page
 
     # Every argument is checked before the training, which is the only slow part.
     study = _study_with_space(args.study)
     ds = _study_grid(study, args.grid)
+    from . import cache  # after the files' checks: xarray, scikit-learn
+    from . import monitor as mo
+
     steps = monitor_steps(study)
     setting = args.setting or an.recommend(ds).setting
     strategy = mo.check_setting(ds, setting, "--setting", "command line")

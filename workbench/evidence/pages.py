@@ -15,7 +15,7 @@ import numpy as np
 from ..report import page
 from ..report.markup import md_text
 from ..storage import atomic_path, write_text
-from ..world.history import MAX_FIT_ROWS
+from ..world.history import HYPER_ROWS, MAX_FIT_ROWS
 from ..world.space import Space
 from .audit import CONSISTENT_AT, CONTRADICTED_BELOW, FAR_FROM_DATA, Audit
 from .wording import WHY_THEY_DIFFER
@@ -83,10 +83,12 @@ def audit_lines(a: Audit, space: Space, data: str) -> list[str]:
         f"distance from the belief's mode to it: {a.distance:.2f} of the range; belief mass "
         f"within {a.radius:g} of it: {_pct(a.mass_within)}",
     ]
-    if a.rows > MAX_FIT_ROWS:
+    if a.rows > HYPER_ROWS:
+        seen = min(a.rows, MAX_FIT_ROWS)
         lines.append(
-            f"the data's GP saw {MAX_FIT_ROWS} of the {a.rows} rows, drawn with a fixed seed "
-            f"(the limit on a GP fit); the good evaluations are taken from all rows"
+            f"the data's GP conditions on {seen} of the {a.rows} rows with hyper-parameters "
+            f"fitted to {HYPER_ROWS} (above {HYPER_ROWS} rows, the best by response and the "
+            f"rest spread by max-min distance); the good evaluations are taken from all rows"
         )
     if a.distortion is not None:
         lines += [a.most_like, WHY_THEY_DIFFER]

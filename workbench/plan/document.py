@@ -36,7 +36,8 @@ from .estimate import (
     pilot_edges,
     replicates_needed,
 )
-from .pilot import Pilot, PlanOptions
+from .options import PlanOptions
+from .pilot import Pilot
 
 PLAN_MD = "plan.md"
 PLAN_HTML = "plan.html"

@@ -16,7 +16,8 @@ from ..study.cost import Estimate, cell_counts, duration
 from ..study.grid import chunks, settings
 from ..study.spec import Study
 from . import sample_size
-from .pilot import CHECK_PILOT, Pilot, PilotDesign, PlanOptions, parallel_processes, run_pilot
+from .options import PlanOptions, parallel_processes
+from .pilot import CHECK_PILOT, Pilot, PilotDesign, run_pilot
 
 
 @dataclass(frozen=True)

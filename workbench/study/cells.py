@@ -112,7 +112,7 @@ class Cell:
             # Fitted, table and function: the truth is where the data or function put it; a
             # drawn surface already comes cut around its placement.
             return land.placed()
-        return land.placed(at=self._at)
+        return _placed(self.entry.name, self.entry.dim, self._at)
 
     @cached_property
     def exact_belief(self) -> Belief:
@@ -158,6 +158,13 @@ class Cell:
     @property
     def noise_sd(self) -> float:
         return self.entry.noise * self.placement.gap
+
+
+@lru_cache(maxsize=256)
+def _placed(name: str, dim: int, at: tuple[float, ...] | None) -> ls.Placement:
+    """A textbook landscape placed at ``at`` (cached: every distortion of a replicate shares
+    its placement, so its optimum search and reference gap are computed once per process)."""
+    return ls.get(name, dim).placed(at=at)
 
 
 @lru_cache(maxsize=64)

@@ -32,9 +32,9 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from .. import gp
 from ..seeding import derive, generator
 from ..world import resemblance as rs
+from ..world.history import fit_to_rows
 from .cells import Cell
 from .spec import Study
 
@@ -220,7 +220,7 @@ def resemblance_table(
     rows = []
     with threadpool_limits(1):
         # The data's own noise, estimated once (standardised units; see likelihood_agreement).
-        noise = gp.fit(data.X, data.y, rng=np.random.default_rng(0)).hyperparameters
+        noise = fit_to_rows(data.X, data.y, rng=np.random.default_rng(0)).hyperparameters
         for index, entry in enumerate(study.landscapes):
             if entry.kind == "fitted":
                 rows.append(_fitted_row(study, index))

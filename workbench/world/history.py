@@ -25,7 +25,7 @@ from pathlib import Path
 
 import numpy as np
 
-from ..seeding import derive, generator
+from .. import gp
 from ..storage import read_input
 
 # InputError here on purpose: read_history reads the user's own CSV file, so it is a reader at
@@ -34,16 +34,20 @@ from ..validation import InputError, closest, raw
 from .space import Categorical, Integer, Space
 
 __all__ = [
+    "BEST_SHARE",
     "FAR_FROM_DATA",
     "GOALS",
+    "HYPER_ROWS",
     "MAX_FILE_BYTES",
     "MAX_FIT_ROWS",
     "MAX_ROWS",
     "History",
     "Table",
     "distance_to_data",
+    "fit_to_rows",
     "fitting_fields",
     "fitting_source",
+    "fitting_subset",
     "read_history",
     "read_table",
 ]
@@ -56,10 +60,18 @@ FAR_FROM_DATA = 0.2
 # Size limits of a CSV table, checked as it is read: its bytes and its data rows.
 MAX_FILE_BYTES = 50 * 2**20
 MAX_ROWS = 100_000
-# A GP fitted to the data (fitted and likedata landscapes, the audit) sees at most this many
-# rows, chosen with a fixed seed (:meth:`History.fitting_rows`): its cost grows as n³ and its
-# memory as n², and a few hundred evaluations pin a smooth response down.
+# A GP fitted to the data (fitted and likedata landscapes, the audit, resemblance) conditions on
+# up to this many rows; above it, on this many chosen by a rule (:func:`fitting_subset`): its
+# cost grows as n³ and its memory as n², and a few hundred evaluations pin a smooth response
+# down.
 MAX_FIT_ROWS = 500
+# A GP's hyper-parameters are fitted by maximum likelihood to at most this many of those rows
+# (:func:`fit_to_rows`): the fit takes hundreds of n × n factorisations, the conditioning one
+# (at 250 rows the fit alone took about 12 s of a busy 2-core machine; at 128, one eighth).
+HYPER_ROWS = 128
+# The share of a subset taken as the best rows by response (where the optimum is decided); the
+# rest fill the space.
+BEST_SHARE = 0.25
 # A number as a CSV cell writes it: digits, an optional point and exponent (no '1_000', 'nan',
 # 'inf', hex or non-ASCII digits, all of which float() accepts).
 _NUMBER = re.compile(r"[+-]?([0-9]+(\.[0-9]*)?|\.[0-9]+)([eE][+-]?[0-9]+)?")
@@ -103,15 +115,63 @@ class History:
         return -self.y if self.goal == "maximise" else self.y.copy()
 
     def fitting_rows(self, limit: int = MAX_FIT_ROWS) -> History:
-        """At most ``limit`` rows for a GP fit: all of them, or ``limit`` drawn without
-        replacement by a fixed seed (so every process picks the same), in file order. The
-        ``digest`` stays the file's."""
+        """At most ``limit`` rows for a GP fit: all of them, or those :func:`fitting_subset`
+        chooses, in file order. The ``digest`` stays the file's."""
         if self.rows <= limit:
             return self
-        rng = generator(derive(0, "fitting rows", self.digest))
-        keep = np.sort(rng.choice(self.rows, size=limit, replace=False))
+        keep = fitting_subset(self.X, self.y, limit)
         lines = tuple(self.lines[i] for i in keep) if self.lines else ()
         return replace(self, X=self.X[keep], y=self.y[keep], lines=lines)
+
+
+def fit_to_rows(X: np.ndarray, y: np.ndarray, **options) -> gp.GP:
+    """A GP fitted to earlier evaluations ``(X, y)`` (at most ``MAX_FIT_ROWS`` rows, as
+    :meth:`History.fitting_rows` leaves them): with at most ``HYPER_ROWS`` rows,
+    :func:`workbench.gp.fit` on all of them, exactly; with more, the hyper-parameters fitted
+    (``gp.fit(..., **options)``) to the ``HYPER_ROWS`` rows :func:`fitting_subset` chooses, and
+    the GP with them conditioned on every row (:func:`workbench.gp.posterior`)."""
+    X = np.asarray(X, dtype=float)
+    y = np.asarray(y, dtype=float)
+    keep = fitting_subset(X, y, HYPER_ROWS)
+    if len(keep) == len(y):
+        return gp.fit(X, y, **options)
+    return gp.posterior(X, y, gp.fit(X[keep], y[keep], **options).hyperparameters)
+
+
+def fitting_subset(
+    X: np.ndarray, y: np.ndarray, limit: int = MAX_FIT_ROWS, best: float = BEST_SHARE
+) -> np.ndarray:
+    """The rows a GP is fitted to, as sorted indices: every row when there are at most
+    ``limit``; otherwise the ``k = ⌈best · limit⌉`` rows of lowest ``y`` (ties by file order)
+    and ``limit − k`` of the others chosen greedily by max-min distance: each next row is the
+    one farthest (Euclidean, on the cube) from every row chosen so far, ties to the first.
+
+    The best rows keep the model exact where the optimum is decided; the max-min rows bound the
+    distance from any row to a chosen one (the fill distance), which bounds how far the
+    posterior mean strays from the exact one elsewhere. Deterministic: no seed, the same in
+    every process.
+    """
+    X = np.asarray(X, dtype=float)
+    y = np.asarray(y, dtype=float)
+    n = len(y)
+    if n <= limit:
+        return np.arange(n)
+    k = min(limit, max(1, math.ceil(best * limit)))
+    order = np.argsort(y, kind="stable")
+    chosen, rest = list(order[:k]), order[k:]
+    points = X[rest]
+    # Squared distance from each remaining row to its nearest chosen row, in blocks of rows.
+    nearest = np.full(len(rest), np.inf)
+    for start in range(0, k, 256):
+        block = X[order[start : min(k, start + 256)]]
+        d = np.sum((points[:, None, :] - block[None, :, :]) ** 2, axis=-1)
+        nearest = np.minimum(nearest, d.min(axis=1))
+    for _ in range(limit - k):
+        j = int(np.argmax(nearest))
+        chosen.append(rest[j])
+        nearest = np.minimum(nearest, np.sum((points - points[j]) ** 2, axis=1))
+        nearest[j] = -1.0
+    return np.sort(np.array(chosen))
 
 
 def _excerpt(text: str) -> str:
@@ -300,11 +360,17 @@ def read_history(
 def fitting_source(history: History, fit: History) -> str:
     """Where a GP's data came from, in words, saying when it saw a subsample of the rows."""
     name = Path(history.path).name
-    if fit.rows == history.rows:
+    if fit.rows <= HYPER_ROWS:
         return f"{history.rows} evaluations in {name}"
+    hyper = f"hyper-parameters fitted to {HYPER_ROWS} of them"
+    if fit.rows == history.rows:
+        spread = "the best by response and the rest spread by max-min distance"
+        return f"{history.rows} evaluations in {name} ({hyper}: {spread})"
+    best = math.ceil(BEST_SHARE * fit.rows)
     return (
-        f"{fit.rows} of the {history.rows} evaluations in {name} (a subsample drawn with a "
-        f"fixed seed: a GP is fitted to at most {MAX_FIT_ROWS} rows)"
+        f"{fit.rows} of the {history.rows} evaluations in {name} (a GP conditions on at most "
+        f"{MAX_FIT_ROWS} rows: the {best} best and {fit.rows - best} spread by max-min "
+        f"distance; {hyper})"
     )
 
 

@@ -38,7 +38,7 @@ from .. import gp
 # key and file the parser passes in (importing the file is this module's job, so it lives here).
 from ..validation import InputError, raw
 from . import isolation, likeness, surfaces
-from .history import fitting_fields
+from .history import fit_to_rows, fitting_fields
 from .landscapes import Landscape
 from .space import Space
 
@@ -211,7 +211,7 @@ def _fit(X: tuple, y: tuple, noise_sd: float | None) -> gp.GP:
         scale = float(np.std(y)) or 1.0
         v = max((noise_sd / scale) ** 2, gp.NOISE_VARIANCE_BOUNDS[0])
         bounds = gp.Bounds(bounds.lengthscale, bounds.signal_variance, (v, v * (1 + 1e-12)))
-    return gp.fit(X, y, rng=np.random.default_rng(0), restarts=4, bounds=bounds)
+    return fit_to_rows(X, y, rng=np.random.default_rng(0), restarts=4, bounds=bounds)
 
 
 # --------------------------------------------------------------------------- function

@@ -51,7 +51,7 @@ from numpy.typing import ArrayLike, NDArray
 from .. import gp
 from ..lazy import LazyModule
 from . import surfaces
-from .history import fitting_fields
+from .history import fitting_fields, fitting_subset
 from .landscapes import Landscape
 
 lapack = LazyModule("scipy.linalg.lapack")
@@ -73,9 +73,9 @@ __all__ = [
     "slice_sample",
 ]
 
-# Rows used for the hyper-parameter posterior; beyond it a fixed-seed random subset (the warp
-# uses every row). The posterior takes a few thousand n × n Cholesky factorisations: about
-# 10 s of one core at n = 100 in 6-D, and over a minute at n = 200.
+# Rows used for the hyper-parameter posterior; beyond it those :func:`.history.fitting_subset`
+# chooses (the warp uses every row). The posterior takes a few thousand n × n Cholesky
+# factorisations: about 10 s of one core at n = 100 in 6-D, and over a minute at n = 200.
 MAX_ROWS = 120
 
 # Prior standard deviations of log ℓ, log s², log σ², and the centre of log σ².
@@ -388,12 +388,12 @@ def hyper_posterior(
     X: ArrayLike, y: ArrayLike, rng: np.random.Generator, draws: int = DRAWS
 ) -> HyperPosterior:
     """Posterior of (ν, θ) given cube points X and values y (modelled as-is, standardised):
-    ν by Laplace evidence, θ by slice sampling. Beyond ``MAX_ROWS`` rows, a random subset."""
+    ν by Laplace evidence, θ by slice sampling. Beyond ``MAX_ROWS`` rows, the subset
+    :func:`.history.fitting_subset` chooses (the best rows and a max-min spread of the rest)."""
     X = np.atleast_2d(np.asarray(X, dtype=float))
     y = np.asarray(y, dtype=float)
-    if len(y) > MAX_ROWS:
-        keep = np.sort(rng.choice(len(y), MAX_ROWS, replace=False))
-        X, y = X[keep], y[keep]
+    keep = fitting_subset(X, y, MAX_ROWS)
+    X, y = X[keep], y[keep]
     y = (y - y.mean()) / (y.std() or 1.0)
     D = _sq_diffs(X)
     dim = X.shape[1]

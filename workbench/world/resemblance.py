@@ -26,6 +26,7 @@ import numpy as np
 from .. import gp
 from ..lazy import LazyModule
 from ..seeding import generator
+from .history import fit_to_rows
 
 lapack = LazyModule("scipy.linalg.lapack")
 stats = LazyModule("scipy.stats")
@@ -226,7 +227,7 @@ def likelihood_agreement(
 
     (Rasmussen & Williams 2006, Algorithm 2.1). The noise variance σ² is the larger of the
     landscape's fitted one and the data's: ``noise_variance`` in the data's standardised
-    units, or, if None, the one :func:`workbench.gp.fit` estimates from the data. A landscape
+    units, or, if None, the one :func:`.history.fit_to_rows` estimates from the data. A landscape
     is noise-free; without the data's noise a wiggly landscape would score well only because
     it can chase the noise. The estimate is the median of ``L_r`` over replicates; the interval
     is the central ``level`` range of ``L_r`` over the replicates (how much the placement
@@ -242,7 +243,8 @@ def likelihood_agreement(
         raise _fail("design_values", f"an (R, {points.shape[0]}) array", design_values.shape)
     z = _standardised(y)
     if noise_variance is None:
-        noise_variance = gp.fit(X, y, rng=np.random.default_rng(0)).hyperparameters.noise_variance
+        noise_variance = fit_to_rows(X, y, rng=np.random.default_rng(0)).hyperparameters
+        noise_variance = noise_variance.noise_variance
     per_replicate = []
     for values in design_values:
         h = gp.fit(points, values, rng=np.random.default_rng(0)).hyperparameters

@@ -30,6 +30,7 @@ from __future__ import annotations
 import math
 from collections.abc import Callable
 from dataclasses import dataclass, field
+from functools import lru_cache
 
 import numpy as np
 from numpy.typing import ArrayLike, NDArray
@@ -446,14 +447,25 @@ def _solve(
     """(amplitude² K + σ_n² I)^-1 residual by Cholesky, with jitter escalation if needed."""
     if noise_variance < 0:
         raise ValueError(f"noise_variance must be non-negative, got {noise_variance}")
+    scales = np.asarray(length_scale, dtype=float)
+    key = (X.tobytes(), X.shape, scales.tobytes(), scales.shape)
+    factor = _factor(key, amplitude, noise_variance, smoothness)
+    return linalg.cho_solve(factor, residual)
+
+
+@lru_cache(maxsize=8)
+def _factor(key: tuple, amplitude: float, noise_variance: float, smoothness: float):
+    """The Cholesky factor of amplitude² K + σ_n² I (jitter added if needed), kept for the next
+    draw given the same data: a fitted landscape's draws all condition on one set of rows."""
+    X = np.frombuffer(key[0]).reshape(key[1])
+    length_scale = np.frombuffer(key[2]).reshape(key[3])
     gram = matern_kernel(X, X, length_scale, smoothness, amplitude)
     gram[np.diag_indices_from(gram)] += noise_variance
     scale = float(np.mean(np.diag(gram))) if len(X) else 1.0
     jitter = 0.0
     for step in range(_JITTER_STEPS + 1):
         try:
-            factor = linalg.cho_factor(gram + jitter * np.eye(len(X)), lower=True)
-            return linalg.cho_solve(factor, residual)
+            return linalg.cho_factor(gram + jitter * np.eye(len(X)), lower=True)
         except linalg.LinAlgError:
             jitter = scale * _JITTER_START * 10.0**step
     raise linalg.LinAlgError("kernel matrix is not positive definite even with jitter")

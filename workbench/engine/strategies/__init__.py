@@ -31,6 +31,7 @@ __all__ = [
     "reference",
     "register",
     "uses_belief",
+    "uses_model",
     "uses_multiple",
     "uses_quantile",
 ]
@@ -68,6 +69,11 @@ def uses_quantile(name: str) -> bool:
 def uses_belief(name: str) -> bool:
     """Whether the strategy reads the belief (False: it runs the same under every distortion)."""
     return _class(name).uses_belief
+
+
+def uses_model(name: str) -> bool:
+    """Whether the strategy fits a GP at each step (False: its steps cost next to nothing)."""
+    return _class(name).uses_model
 
 
 def uses_multiple(name: str) -> bool:
