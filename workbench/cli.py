@@ -211,11 +211,12 @@ def cmd_simulate(args) -> int:
 
 
 def cmd_check(args) -> int:
-    from .plan import check_lines
-    from .study.resemblance import resemblance_table, table_lines
     from .study.spec import load
 
-    s = load(args.study)
+    s = load(args.study)  # the study checked before the engine and the plan load
+    from .plan import check_lines
+    from .study.resemblance import resemblance_table, table_lines
+
     # The user's functions first: one call each at the belief's mode, in a child process.
     timed = [(e.label, e.spec.probe(s.belief.mode())) for e in s.landscapes if e.kind == "function"]
     lines = check_lines(s, args.jobs)  # the plan's pilot, smaller, and the plan's estimate
