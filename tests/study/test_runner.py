@@ -183,9 +183,14 @@ def test_a_campaign_that_raises_keeps_the_finished_chunks_and_names_the_cell(
     assert not (tmp_path / "out" / "grid.nc").exists()
 
 
-def test_an_unreachable_scheduler_is_one_error_and_writes_nothing(study_file, tmp_path):
+def test_an_unreachable_scheduler_is_one_error_and_writes_nothing(
+    study_file, tmp_path, monkeypatch
+):
     pytest.importorskip("dask.distributed")
+    from workbench.study import runner
     from workbench.validation import InputError
+
+    monkeypatch.setattr(runner, "SCHEDULER_TIMEOUT", "1s")  # nothing listens on port 1
 
     out = tmp_path / "never"
     with pytest.raises(InputError, match="--scheduler"):

@@ -63,6 +63,8 @@ MANIFEST = "manifest.json"
 CHUNKS = "chunks"
 GRID = "grid.nc"
 LOCK = ".workbench.lock"
+# How long to wait for a Dask scheduler to answer before the run is refused.
+SCHEDULER_TIMEOUT = "10s"
 FORMAT = "workbench results 1"
 # What a chunk file records about itself, beside its results: one entry per replicate, so
 # that the grid's split over replicates passes it through like every other array.
@@ -487,7 +489,7 @@ def _backend(scheduler: str | None) -> Iterator[None]:
     import joblib
 
     try:
-        client = Client(scheduler, timeout="10s")
+        client = Client(scheduler, timeout=SCHEDULER_TIMEOUT)
     except OSError as err:
         raise InputError(
             "--scheduler", "a reachable Dask scheduler", raw(str(err)), "command line"
