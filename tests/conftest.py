@@ -12,3 +12,56 @@ import pytest  # noqa: E402
 @pytest.fixture
 def rng():
     return np.random.default_rng(12345)
+
+
+# --------------------------------------------------------------------------- the demo grid
+# The README's quoted recommendation is checked against the full demo grid (about a minute on
+# 2 cores). It is run in the background from the start of the session, in one process (the
+# grid's values do not depend on --jobs: tests/study/test_runner.py), while the rest of the
+# suite uses the other core; the `demo_grid_folder` fixture waits for it.
+
+_DEMO: dict = {}
+
+
+def pytest_collection_modifyitems(session, config, items):
+    if not any("demo_grid" in getattr(item, "fixturenames", ()) for item in items):
+        return
+    import subprocess
+    import tempfile
+    from pathlib import Path
+
+    root = Path(__file__).resolve().parents[1]
+    folder = Path(tempfile.mkdtemp(prefix="workbench-demo-"))
+    argv = [sys.executable, "-m", "workbench.cli", "run", str(root / "studies" / "demo.toml")]
+    argv += ["--out", str(folder / "demo"), "--jobs", "1", "--quiet"]
+    log = open(folder / "log.txt", "wb")
+    _DEMO.update(
+        folder=folder,
+        log=log,
+        process=subprocess.Popen(argv, cwd=root, stdout=log, stderr=subprocess.STDOUT),
+    )
+
+
+def pytest_sessionfinish(session, exitstatus):
+    if not _DEMO:
+        return
+    import shutil
+
+    process = _DEMO["process"]
+    if process.poll() is None:
+        process.kill()
+        process.wait()
+    _DEMO["log"].close()
+    shutil.rmtree(_DEMO["folder"], ignore_errors=True)
+
+
+@pytest.fixture(scope="session")
+def demo_grid_folder():
+    """The folder of the demo study's grid, run in the background since collection."""
+    if not _DEMO:
+        pytest.skip("the demo grid was not started (no test asked for it at collection)")
+    process = _DEMO["process"]
+    code = process.wait()
+    log = (_DEMO["folder"] / "log.txt").read_text(errors="replace")
+    assert code == 0, f"the demo run failed ({code}):\n{log}"
+    return _DEMO["folder"] / "demo"

@@ -13,8 +13,6 @@ import pytest
 
 from workbench import analysis as an
 from workbench.engine import campaign
-from workbench.study.runner import run_study
-from workbench.study.spec import load
 
 ROOT = Path(__file__).resolve().parents[1]
 README = (ROOT / "README.md").read_text(encoding="utf-8")
@@ -28,9 +26,9 @@ def _readme_tool():
 
 
 @pytest.fixture(scope="module")
-def demo_grid(tmp_path_factory):
-    summary = run_study(load(ROOT / "studies" / "demo.toml"), tmp_path_factory.mktemp("demo"))
-    return an.open_grid(summary.grid)
+def demo_grid(demo_grid_folder):
+    # Run by `workbench run studies/demo.toml` in the background (tests/conftest.py).
+    return an.open_grid(demo_grid_folder / "grid.nc")
 
 
 @pytest.mark.slow
