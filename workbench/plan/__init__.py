@@ -31,7 +31,6 @@ _WHERE = {
     "pilot_difference": ".estimate",
     "pilot_edges": ".estimate",
     "pilot_means": ".estimate",
-    "CHECK_PILOT": ".pilot",
     "Pilot": ".pilot",
     "PilotDesign": ".pilot",
     "pilot_chunks": ".pilot",
@@ -41,7 +40,6 @@ _WHERE = {
 }
 
 __all__ = [
-    "CHECK_PILOT",
     "Compute",
     "Pilot",
     "PilotDesign",

@@ -16,8 +16,6 @@ from ..study.grid import TRACE_ARRAYS, Chunk, Setting, chunks, settings, split
 from ..study.spec import Study
 from .options import PlanOptions, parallel_processes
 
-# Pilot replicates `check` runs for its time estimate (the plan's default is larger).
-CHECK_PILOT = 2
 # The per-setting arrays of a chunk (the rest are one value per chunk), as run_chunk stacks them.
 _PER_CAMPAIGN = (*TRACE_ARRAYS, "user_points")
 
