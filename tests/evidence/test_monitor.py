@@ -9,6 +9,7 @@ from dataclasses import replace
 import numpy as np
 import pytest
 import scipy.stats
+from helpers import oven
 from hypothesis import given, settings
 from hypothesis import strategies as st
 from sklearn.calibration import calibration_curve
@@ -20,7 +21,8 @@ from workbench.study.spec import load
 from workbench.world.beliefs import gaussian_at
 from workbench.world.reference import BeliefReference
 
-STUDY = """
+STUDY = (
+    """
 title = "monitor check"
 budget = 14
 replicates = {replicates}
@@ -30,20 +32,9 @@ baselines = ["no-belief"]
 [initial]
 design = "belief"
 size = 3
-[space.temperature]
-lower = 180
-upper = 260
-[space.proving]
-lower = 20
-upper = 240
-scale = "log"
-[belief.temperature]
-centre = 220
-within = 15
-[belief.proving]
-centre = 75
-factor = 2
-[[landscape]]
+"""
+    + oven()
+    + """[[landscape]]
 name = "branin"
 [[landscape]]
 name = "six-hump-camel"
@@ -53,6 +44,7 @@ misplaced = {{ misplace = "worst" }}
 [strategy.prior-weighted]
 decay = ["hyperbolic:2", "hyperbolic:20"]
 """
+)
 STEPS = (8, 10, 12, 14)
 BELIEF = gaussian_at([0.4, 0.6], 0.15)
 

@@ -3,12 +3,14 @@
 import textwrap
 
 import pytest
+from helpers import oven
 
 from workbench import cli
 
 # Two landscapes and three distortions: the weights have something to move.
-DECISION_STUDY = textwrap.dedent(
-    """
+DECISION_STUDY = (
+    textwrap.dedent(
+        """
     title = "Oven <b>decision</b> page (invented)"
     budget = 8
     replicates = 4
@@ -18,23 +20,11 @@ DECISION_STUDY = textwrap.dedent(
     [initial]
     size = 3
 
-    [space.temperature]
-    lower = 180
-    upper = 260
-
-    [space.proving]
-    lower = 20
-    upper = 240
-    scale = "log"
-
-    [belief.temperature]
-    centre = 220
-    within = 15
-
-    [belief.proving]
-    centre = 75
-    factor = 2
-
+    """
+    )
+    + oven()
+    + textwrap.dedent(
+        """
     [[landscape]]
     name = "branin"
 
@@ -55,6 +45,7 @@ DECISION_STUDY = textwrap.dedent(
     [decision]
     weights = { exact = 0.6, shifted = 0.3, misplaced = 0.1 }
     """
+    )
 )
 
 

@@ -12,6 +12,7 @@ import textwrap
 import matplotlib
 import numpy as np
 import pytest
+from helpers import oven
 
 from workbench import analysis as an
 from workbench import cli
@@ -21,8 +22,9 @@ from workbench.report.markup import md_text
 matplotlib.use("Agg")
 
 TITLE = 'Oven <script>alert(1)</script> & "crust" test'
-STUDY = textwrap.dedent(
-    """
+STUDY = (
+    textwrap.dedent(
+        """
     title = 'Oven <script>alert(1)</script> & "crust" test'
     budget = 8
     replicates = 3
@@ -32,25 +34,11 @@ STUDY = textwrap.dedent(
     [initial]
     size = 3
 
-    [space.temperature]
-    lower = 180
-    upper = 260
-    unit = "°C"
-
-    [space.proving]
-    lower = 20
-    upper = 240
-    scale = "log"
-    unit = "min"
-
-    [belief.temperature]
-    centre = 220
-    within = 15
-
-    [belief.proving]
-    centre = 75
-    factor = 2
-
+    """
+    )
+    + oven(units=True)
+    + textwrap.dedent(
+        """
     [[landscape]]
     name = "branin"
 
@@ -67,6 +55,7 @@ STUDY = textwrap.dedent(
     [decision]
     weights = { exact = 0.7, "misplaced <b>" = 0.3 }
     """
+    )
 )
 
 
