@@ -23,3 +23,20 @@ def oven(units: bool = False) -> str:
         + "\n[belief.temperature]\ncentre = 220\nwithin = 15\n"
         + "\n[belief.proving]\ncentre = 75\nfactor = 2\n\n"
     )
+
+
+# Branin's native domain (Dixon & Szegő 1978) as a study's space, with a belief at (3, 3).
+BRANIN_SPACE = """
+[space.x1]
+lower = -5
+upper = 10
+[space.x2]
+lower = 0
+upper = 15
+[belief.x1]
+centre = 3
+spread = 0.2
+[belief.x2]
+centre = 3
+spread = 0.2
+"""

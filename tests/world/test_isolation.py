@@ -6,6 +6,7 @@ import textwrap
 import numpy as np
 import pytest
 import xarray as xr
+from helpers import BRANIN_SPACE
 
 from workbench.cli import main
 from workbench.study.spec import load
@@ -42,18 +43,7 @@ def _study(tmp_path, extra: str = "") -> str:
         replicates = 1
         seed = 3
         baselines = ["random"]
-        [space.x1]
-        lower = -5
-        upper = 10
-        [space.x2]
-        lower = 0
-        upper = 15
-        [belief.x1]
-        centre = 3
-        spread = 0.2
-        [belief.x2]
-        centre = 3
-        spread = 0.2
+        {BRANIN_SPACE}
         [[landscape]]
         function = "process.py:score"
         {extra}

@@ -6,6 +6,7 @@ import textwrap
 import numpy as np
 import pytest
 import xarray as xr
+from helpers import BRANIN_SPACE
 
 from workbench import analysis as an
 from workbench.study.cells import Cell
@@ -22,22 +23,6 @@ def branin(x1, x2):
     return (x2 - b * x1**2 + c * x1 - 6) ** 2 + 10 * (1 - t) * np.cos(x1) + 10
 
 
-SPACE = """
-[space.x1]
-lower = -5
-upper = 10
-[space.x2]
-lower = 0
-upper = 15
-[belief.x1]
-centre = 3
-spread = 0.2
-[belief.x2]
-centre = 3
-spread = 0.2
-"""
-
-
 def _study(tmp_path, landscapes: str, extra: str = "", replicates: int = 2, budget: int = 8):
     text = textwrap.dedent(
         f"""
@@ -46,7 +31,7 @@ def _study(tmp_path, landscapes: str, extra: str = "", replicates: int = 2, budg
         replicates = {replicates}
         seed = 5
         baselines = ["no-belief"]
-        {SPACE}
+        {BRANIN_SPACE}
         {landscapes}
         [distortion]
         shifted = {{ shift = 0.2 }}
