@@ -104,20 +104,43 @@ def test_pilot_campaigns_are_the_studys_first_replicates(tiny):
             np.testing.assert_array_equal(small[r]["value"][k], whole[r]["value"][j])
 
 
-def test_compute_estimate_is_within_a_factor_of_one_and_a_half_of_a_real_run(demo_pilot, tmp_path):
+def test_compute_estimate_counts_the_campaigns_and_bytes_of_a_real_run(demo_pilot, tmp_path):
     study, pilot = demo_pilot
-    # One replicate keeps the suite fast: 8 chunks, 108 campaigns, run for real.
+    # One replicate keeps the suite fast: 8 chunks, 108 campaigns, run for real. Its seconds
+    # are compared with the estimate in benchmarks/estimate.py (medians of several runs), not
+    # here: a suite shares the machine.
     small = dataclasses.replace(study, replicates=1)
     estimate = pl.compute_estimate(small, pilot, 1)
     summary = run_study(small, tmp_path / "run")
     assert estimate.estimate.campaigns == summary.campaigns
-    # The machine is shared while the suite runs: the ratio, not the seconds, is checked.
-    ratio = estimate.local / summary.seconds
-    assert 1 / 1.5 <= ratio <= 1.5, (estimate.local, summary.seconds)
     on_disk = sum(p.stat().st_size for p in (tmp_path / "run" / "chunks").glob("*.npz"))
     grid_file = (tmp_path / "run" / "grid.nc").stat().st_size
     assert 0.5 <= estimate.chunk_bytes / on_disk <= 2.0
     assert 0.5 <= estimate.grid_bytes / grid_file <= 2.0
+
+
+def test_wall_time_is_the_busiest_process_or_the_longest_chunk_plus_start_up(demo_pilot):
+    study, pilot = demo_pilot
+    # A pilot whose every campaign took 10 ms, with no overhead, and whose wall time was
+    # 2 s beyond its own bound: the estimate by hand is campaigns × 10 ms over the processes
+    # (or the longest chunk, if longer) plus those 2 s of start-up.
+    even = dataclasses.replace(
+        pilot,
+        seconds=np.where(np.isfinite(pilot.seconds), 0.01, np.nan),
+        overhead=np.zeros_like(pilot.overhead),
+        jobs=1,
+    )
+    even = dataclasses.replace(even, wall=even.cpu + 2.0)
+    for jobs in (1, 2):
+        at = pl.compute_estimate(study, even, 8, jobs=jobs)
+        work = at.estimate.campaigns * 0.01
+        assert at.cpu == pytest.approx(work)
+        assert at.longest == pytest.approx(
+            max(c.campaigns for c in grid.chunks(dataclasses.replace(study, replicates=8))) * 0.01
+        )
+        assert at.local == pytest.approx(max(work / jobs, at.longest) + 2.0)
+        low, high = at.local_interval
+        assert low == pytest.approx(at.local) and high == pytest.approx(at.local)
 
 
 def test_more_replicates_cost_proportionally_more(demo_pilot):
@@ -250,17 +273,6 @@ def test_check_and_plan_print_the_one_estimate_of_the_pilot(demo_pilot, tiny, tm
     assert f"evaluations: {at.time_words()}" in planned, planned
     low, high = pl.compute_estimate(study, pilot, 32, jobs=2).local_interval
     assert low < high  # a range, not a point
-
-
-def test_the_estimate_is_within_a_factor_of_one_and_a_half_of_a_real_run(tiny, tmp_path):
-    study = load(tiny)
-    pilot = pl.run_pilot(study, pl.PlanOptions(pilot_replicates=2, jobs=1))
-    bigger = dataclasses.replace(study, replicates=6)
-    estimate = pl.compute_estimate(bigger, pilot, 6, jobs=1)
-    summary = run_study(bigger, tmp_path / "run", jobs=1)
-    # Timings share the machine with other work: the ratio, not the seconds, is checked.
-    ratio = estimate.local / summary.seconds
-    assert 1 / 1.5 <= ratio <= 1.5, (estimate.local, summary.seconds)
 
 
 # --------------------------------------------------------------------------- uses its pilot
