@@ -366,16 +366,21 @@ def _propose(states: list[_Campaign], data: list, lams: np.ndarray, stack: sg.St
     d = C.shape[2]
     # As the lone engine: one L-BFGS-B problem per campaign over its k starts (their scores
     # add up, so each start moves independently), keeping the best point seen for each start.
-    # Every evaluation scores all R·k current points as one (R, k) block, so a campaign's
-    # arithmetic is the same whatever its batch; rows not asked for are ignored.
+    # Each evaluation scores only the campaigns whose driver asks for one (about half of them,
+    # on average, once the first have stopped): every step of the score works slice by slice
+    # over campaigns, so a campaign's arithmetic is the same whatever its batch.
     current = C[:, :k].copy()
     best_points = current.copy()
     best_scores = np.full((R, k), -np.inf)
+    subsets: dict[bytes, tuple] = {}
 
     def negative(X, idx):
         current[idx] = X.reshape(len(idx), k, d)
-        v, g = _scores(states, refs, lams, stack, current, True)
-        v, g = v[idx], g[idx]
+        key = idx.tobytes()
+        if key not in subsets:  # the set asking shrinks and repeats: one sub-stack per set
+            subsets[key] = ([states[i] for i in idx], stack.take(idx))
+        members, sub = subsets[key]
+        v, g = _scores(members, refs[idx], lams[idx], sub, current[idx], True)
         v = np.where(np.isfinite(v), v, -1e300)
         better = v > best_scores[idx]
         rows, cols = np.nonzero(better)

@@ -70,7 +70,7 @@ from ..storage import atomic_path
 from ..world.history import FAR_FROM_DATA, distance_to_data
 from ..world.marginals import GRID_POINTS, marginal_curves
 from .cells import SEVERITY_RADIUS, Cell
-from .grid import Chunk, settings, split
+from .grid import Chunk, settings
 from .resemblance import resemblance_table
 from .spec import Decision, Study
 
@@ -288,9 +288,12 @@ def _point_text(space, u: np.ndarray) -> str:
     return ", ".join(parts)
 
 
-def _write_replicate(ds, study: Study, chunk: Chunk, r: int, data) -> float:
-    """Write replicate ``r`` of one chunk (its arrays as :func:`~workbench.study.grid.split`
-    gives them); returns the lowest normalized regret among its campaigns."""
+def _write_chunk(ds, study: Study, chunk: Chunk, data) -> float:
+    """Write every replicate of one chunk (its arrays as
+    :func:`~workbench.study.grid.run_chunk` gives them, stacked over (replicate, setting)),
+    each variable in one call over the chunk's consecutive replicates; returns the lowest
+    normalized regret among its campaigns. (One call per replicate and variable spent most of
+    its time in netCDF4's slicing.)"""
     guided, baseline = settings(study)
     strategies = list(dict.fromkeys(s.strategy for s in guided))
     decay_index = {d: i for i, d in enumerate(study.decay_levels)}
@@ -299,19 +302,22 @@ def _write_replicate(ds, study: Study, chunk: Chunk, r: int, data) -> float:
     initials = list(study.initial)
     bases = [b.strategy for b in baseline]
     li, d = chunk.landscape, chunk.distortion
+    reps = slice(chunk.replicates[0], chunk.replicates[-1] + 1)
+    n_rep = len(chunk.replicates)
     width = data["points"].shape[-1]
-    # The guided campaigns of one (landscape, distortion, replicate) fill one slab over
-    # (strategy, decay, quantile, exploration, initial): built here, written in one call.
+    # The guided campaigns of one (landscape, distortion) over the chunk's replicates fill one
+    # slab over (strategy, decay, quantile, exploration, initial, replicate): built here,
+    # written in one call.
     slab_shape = (len(strategies), len(decay_index), len(quantiles), len(explorations))
-    slab_shape += (len(initials), study.budget)
+    slab_shape += (len(initials), n_rep, study.budget)
     width_all = ds.dimensions["coordinate"].size
     slabs = {name: np.full(slab_shape, -1 if name == "failed" else np.nan) for name in _SERIES}
     slabs |= {name: np.full((*slab_shape, width_all), np.nan) for name in ("point", "point_cube")}
     any_guided = False
     for k, s in enumerate(chunk.settings):
-        series = {name: data[name][k] for name in _SERIES}
+        series = {name: data[name][:, k] for name in _SERIES}
         series["failed"] = series["failed"].astype("i1")
-        pts = {"point": data["user_points"][k], "point_cube": data["points"][k]}
+        pts = {"point": data["user_points"][:, k], "point_cube": data["points"][:, k]}
         if s.strategy in strategies:
             any_guided = True
             qs = (
@@ -330,11 +336,11 @@ def _write_replicate(ds, study: Study, chunk: Chunk, r: int, data) -> float:
                 for name, v in series.items():
                     slabs[name][at] = v
                 for name, v in pts.items():
-                    slabs[name][(*at, slice(None), slice(0, width))] = v
+                    slabs[name][(*at, slice(None), slice(None), slice(0, width))] = v
         else:
             targets = range(len(study.distortions)) if not st.uses_belief(s.strategy) else [d]
             for dd in targets:
-                at = (bases.index(s.strategy), li, dd, r)
+                at = (bases.index(s.strategy), li, dd, reps)
                 for name, v in series.items():
                     ds["baseline_" + name][at] = v
                 for name, v in pts.items():
@@ -344,20 +350,21 @@ def _write_replicate(ds, study: Study, chunk: Chunk, r: int, data) -> float:
         for name, slab in slabs.items():
             if name == "failed":
                 slab = slab.astype("i1")
-            ds[name][every, li, d, every, every, every, every, r] = slab
+            ds[name][every, li, d, every, every, every, every, reps] = slab
     for name in ("mode_value", "severity_distance", "severity_mass"):
-        ds[name][li, d, r] = data[name][0]
+        ds[name][li, d, reps] = data[name][:, 0]
     for name in ("minimum", "gap"):
-        ds[name][li, r] = data[name][0]
+        ds[name][li, reps] = data[name][:, 0]
     for name in ("optimum", "optimum_cube"):
         if name in data:
-            ds[name][li, r, 0 : len(data[name])] = data[name]
+            ds[name][li, reps, 0 : data[name].shape[-1]] = data[name]
     entry = study.landscapes[li]
     if entry.kind == "fitted" and "optimum_cube" in data:
-        u = np.asarray(data["optimum_cube"], dtype=float)
-        ds["optimum_data_distance"][li, r] = distance_to_data(u, np.array(entry.spec.X))[0]
+        U = np.asarray(data["optimum_cube"], dtype=float)
+        ds["optimum_data_distance"][li, reps] = distance_to_data(U, np.array(entry.spec.X))
         if study.space is not None:
-            ds["optimum_text"][li, r] = _point_text(study.space, u)
+            for r, u in zip(chunk.replicates, U, strict=True):
+                ds["optimum_text"][li, r] = _point_text(study.space, u)
     return float(np.nanmin(data["normalized_regret"]))
 
 
@@ -402,7 +409,6 @@ def assemble(
                     # Read every array once: an npz member is decompressed on each access.
                     data = {name: npz[name] for name in npz.files}
                 label = study.landscapes[chunk.landscape].label
-                for r, part in split(chunk, data):
-                    low = _write_replicate(ds, study, chunk, r, part)
-                    lowest[label] = min(lowest.get(label, np.inf), low)
+                low = _write_chunk(ds, study, chunk, data)
+                lowest[label] = min(lowest.get(label, np.inf), low)
     return lowest
