@@ -60,6 +60,7 @@ from __future__ import annotations
 
 import json
 import os
+from dataclasses import dataclass
 from pathlib import Path
 
 import numpy as np
@@ -214,9 +215,35 @@ def decision_attributes(decision: Decision) -> dict:
     }
 
 
-def _write_beliefs(ds, study: Study) -> None:
-    """The belief marginals of replicate 0 of the first landscapes (exact and distorted), as the
-    report draws them."""
+@dataclass(frozen=True)
+class Extras:
+    """What the grid file holds beside the campaigns, computed from the study alone: the
+    belief marginals of replicate 0 of the first landscapes (exact and distorted, as the
+    report draws them; None for a landscape past :data:`BELIEF_LANDSCAPES`) and the
+    resemblance table (None without earlier evaluations). The runner computes them while
+    the chunks run (:func:`grid_extras`), so that assembling waits for neither."""
+
+    curves: tuple
+    resemblance: object
+
+
+def grid_extras(study: Study) -> Extras:
+    """The :class:`Extras` of ``study`` (it builds replicate 0's placements)."""
+    curves = []
+    for li in range(len(study.landscapes)):
+        if li >= BELIEF_LANDSCAPES:
+            curves.append(None)
+            continue
+        cells = [Cell(study, li, d, 0) for d in range(len(study.distortions))]
+        beliefs = {study.distortions[c.distortion].name: c.belief for c in cells}
+        at = np.asarray(cells[0].placement.minimisers[0])
+        curves.append(tuple(marginal_curves(cells[0].space, beliefs, optimum=at)))
+    # After the beliefs: replicate 0's surfaces are built and cached by then.
+    return Extras(tuple(curves), resemblance_table(study))
+
+
+def _write_beliefs(ds, study: Study, extras: Extras) -> None:
+    """The belief marginals of :class:`Extras`."""
     # Continuous marginals take GRID_POINTS points; a discrete one a point per level, which
     # for an integer parameter may be more (batch sizes 16 to 512: 497).
     levels = [p.levels for p in (study.space.parameters if study.space is not None else ())]
@@ -234,14 +261,10 @@ def _write_beliefs(ds, study: Study) -> None:
         "belief_optimum", "f8", ("landscape", "coordinate"), fill_value=np.nan
     )
     parameters: list = []
-    for li in range(len(study.landscapes)):
-        if li >= BELIEF_LANDSCAPES:
+    for li, curves in enumerate(extras.curves):
+        if curves is None:
             parameters.append(None)
             continue
-        cells = [Cell(study, li, d, 0) for d in range(len(study.distortions))]
-        beliefs = {study.distortions[c.distortion].name: c.belief for c in cells}
-        at = np.asarray(cells[0].placement.minimisers[0])
-        curves = marginal_curves(cells[0].space, beliefs, optimum=at)
         for j, c in enumerate(curves):
             x[li, j, 0 : len(c.x)] = c.x
             for d, values in enumerate(c.densities.values()):
@@ -256,10 +279,10 @@ def _write_beliefs(ds, study: Study) -> None:
     ds.belief_parameters = json.dumps(parameters)
 
 
-def _write_resemblance(ds, study: Study) -> None:
+def _write_resemblance(ds, extras: Extras) -> None:
     """How well each landscape explains the study's earlier evaluations (nothing without
     them)."""
-    table = resemblance_table(study)
+    table = extras.resemblance
     if table is None:
         return
     columns = {
@@ -387,9 +410,11 @@ def assemble(
     path: Path,
     every: list[Chunk],
     provenance: dict | None = None,
+    extras: Extras | None = None,
 ) -> dict[str, float]:
     """Write ``path`` from the chunk files in ``chunk_dir`` (all of ``every`` must be there),
-    with :func:`run_attributes` (``provenance``: what the chunks were computed with).
+    with :func:`run_attributes` (``provenance``: what the chunks were computed with) and the
+    study's :class:`Extras` (computed here unless given).
 
     Returns the lowest normalized regret of any campaign per landscape label: below zero, a
     campaign found a value lower than the landscape's computed minimum.
@@ -401,9 +426,9 @@ def assemble(
         with netCDF4.Dataset(tmp, "w", format="NETCDF4") as ds:
             _define(ds, study)
             ds.setncatts(run_attributes(study, path, provenance))
-            _write_beliefs(ds, study)
-            # After the beliefs: replicate 0's surfaces are built and cached by then.
-            _write_resemblance(ds, study)
+            extras = grid_extras(study) if extras is None else extras
+            _write_beliefs(ds, study, extras)
+            _write_resemblance(ds, extras)
             for chunk in every:
                 with np.load(chunk_dir / f"{chunk.key}.npz") as npz:
                     # Read every array once: an npz member is decompressed on each access.

@@ -540,6 +540,34 @@ def _parallel(
             results.close()
 
 
+class _Beside:
+    """``fn(*args)`` run in a daemon thread of the run's process while the chunks run
+    elsewhere; :meth:`result` waits for it and re-raises what it raised. A daemon, so that a
+    run stopped early does not wait for it."""
+
+    def __init__(self, fn: Callable, *args) -> None:
+        self._value = self._error = None
+        self._thread = threading.Thread(
+            target=self._run, args=(fn, *args), name="workbench-beside", daemon=True
+        )
+        self._thread.start()
+
+    def _run(self, fn: Callable, *args) -> None:
+        from threadpoolctl import threadpool_limits
+
+        try:
+            with threadpool_limits(limits=1, user_api="blas"):  # as the chunks' placements
+                self._value = fn(*args)
+        except BaseException as err:  # handed to the waiting thread
+            self._error = err
+
+    def result(self):
+        self._thread.join()
+        if self._error is not None:
+            raise self._error
+        return self._value
+
+
 def _chunk_failures(result: dict) -> dict:
     """A chunk's failed evaluations for its manifest entry: how many of how many, and the
     first one's message (nothing when none failed)."""
@@ -621,7 +649,7 @@ def run_study(
     counts as chunks finish. Raises :class:`InputError` (one line naming the folder) for a
     folder that is busy, foreign, damaged, read-only or not a folder.
     """
-    from .gridfile import assemble
+    from .gridfile import assemble, grid_extras
 
     start = time.perf_counter()
     out = Path(out)
@@ -648,6 +676,9 @@ def run_study(
                 _save(out, manifest)
                 if progress:
                     progress(done, total)
+                # The grid's belief figures and resemblance table (replicate 0's placements)
+                # are computed here while the workers run the chunks, not after them.
+                extras = _Beside(grid_extras, study)
                 for chunk, result, seconds in _parallel(study, todo, jobs, scheduler is not None):
                     with _disk(out):
                         sha = _write_chunk(study, out, chunk, result)
@@ -659,7 +690,12 @@ def run_study(
                         progress(done, total)
                 with _disk(out):
                     lowest = assemble(
-                        study, out / CHUNKS, out / GRID, every, manifest.get("provenance")
+                        study,
+                        out / CHUNKS,
+                        out / GRID,
+                        every,
+                        manifest.get("provenance"),
+                        extras.result(),
                     )
                     manifest["grid"] = {"sha256": sha256_of(out / GRID), "lowest": lowest}
                 _save(out, manifest)
