@@ -300,21 +300,24 @@ def _driven(
     x = np.clip(x, lo, hi)
     nbd = np.full(q, 2, dtype=np.int32)  # both bounds
     m = memory
-    state = [
-        {
-            "x": x[i].copy(),
-            "f": np.array(0.0),
-            "g": np.zeros(q),
-            "wa": np.zeros(2 * m * q + 5 * q + 11 * m * m + 8 * m),
-            "iwa": np.zeros(3 * q, dtype=np.int32),
-            "task": np.zeros(2, dtype=np.int32),
-            "ln_task": np.zeros(2, dtype=np.int32),
-            "lsave": np.zeros(4, dtype=np.int32),
-            "isave": np.zeros(44, dtype=np.int32),
-            "dsave": np.zeros(29),
-        }
-        for i in range(B)
-    ]
+    # Each problem's driver arrays, bound once into setulb's argument list: the driver
+    # reads f and g and writes x, task and its saved state in place, so the same tuple
+    # serves every call (rebuilding it cost more than the driver itself at these sizes).
+    xs = [x[i].copy() for i in range(B)]
+    fs = [np.zeros(()) for _ in range(B)]
+    gs = [np.zeros(q) for _ in range(B)]
+    tasks = [np.zeros(2, dtype=np.int32) for _ in range(B)]
+
+    def bound(i: int) -> tuple:
+        return (
+            m, xs[i], lo[i], hi[i], nbd, fs[i], gs[i], factr, pgtol,
+            np.zeros(2 * m * q + 5 * q + 11 * m * m + 8 * m), np.zeros(3 * q, dtype=np.int32),
+            tasks[i], np.zeros(4, dtype=np.int32), np.zeros(44, dtype=np.int32),
+            np.zeros(29), maxls, np.zeros(2, dtype=np.int32),
+        )  # fmt: skip
+
+    calls = [bound(i) for i in range(B)]
+    setulb = _lbfgsb.setulb
     nit = np.zeros(B, dtype=int)
     nfev = np.zeros(B, dtype=int)
     best_x, best_f = x.copy(), np.full(B, np.inf)
@@ -326,20 +329,17 @@ def _driven(
         # Step every pending problem's driver until it asks for a value or stops.
         asks = []
         for i in pending:
-            s = state[i]
+            call, task = calls[i], tasks[i]
             while True:
-                _lbfgsb.setulb(
-                    m, s["x"], lo[i], hi[i], nbd, s["f"], s["g"], factr, pgtol, s["wa"],
-                    s["iwa"], s["task"], s["lsave"], s["isave"], s["dsave"], maxls, s["ln_task"],
-                )  # fmt: skip
-                task = s["task"][0]
-                if task == 3:  # wants f and g at x
-                    if last_x[i] is not None and last_x[i] == s["x"].tobytes():
-                        s["f"], s["g"] = last_fg[i][0], last_fg[i][1].copy()
+                setulb(*call)
+                code = task[0]
+                if code == 3:  # wants f and g at x
+                    if last_x[i] is not None and last_x[i] == xs[i].tobytes():
+                        fs[i][()], gs[i][:] = last_fg[i]
                         continue
                     asks.append(i)
                     break
-                if task == 1:  # a new iteration
+                if code == 1:  # a new iteration
                     nit[i] += 1
                     if nit[i] >= maxiter[i] or nfev[i] > maxfun[i]:
                         break
@@ -348,7 +348,7 @@ def _driven(
         if not asks:
             break
         idx = np.array(asks)
-        X = np.stack([state[i]["x"] for i in asks])
+        X = np.stack([xs[i] for i in asks])
         fv, gv = fun(X, idx)
         nfev[idx] += 1
         finite = np.isfinite(fv) & np.isfinite(gv).all(axis=1)
@@ -357,9 +357,8 @@ def _driven(
         best_x[idx[better]], best_f[idx[better]] = X[better], fv[better]
         for j in np.flatnonzero(finite):
             i = asks[j]
-            s = state[i]
-            s["f"], s["g"] = np.array(float(fv[j])), np.array(gv[j], dtype=float)
-            last_x[i], last_fg[i] = X[j].tobytes(), (s["f"], s["g"].copy())
+            fs[i][()], gs[i][:] = float(fv[j]), gv[j]
+            last_x[i], last_fg[i] = X[j].tobytes(), (float(fv[j]), gv[j].copy())
         pending = [i for i in asks if not failed[i]]
     best_f[failed] = np.inf
     return BatchResult(best_x, best_f, nit, nfev)
