@@ -27,7 +27,7 @@ ROOT = Path(__file__).resolve().parents[1]
 BASELINE_ROWS = 25
 GOAL_SECONDS = 30.0
 
-STUDY = """title = "A bakery's long log of bakes (invented)"
+HEAD = """title = "A bakery's long log of bakes (invented)"
 budget = 8
 replicates = 2
 seed = 7
@@ -37,24 +37,8 @@ baselines = ["random"]
 design = "belief"
 size = 3
 
-[space.temperature]
-lower = 180
-upper = 260
-
-[space.proving]
-lower = 20
-upper = 240
-scale = "log"
-
-[belief.temperature]
-centre = 220
-within = 15
-
-[belief.proving]
-centre = 75
-factor = 2
-
-[[landscape]]
+"""
+LANDSCAPES = """[[landscape]]
 data = "{data}"
 response = "crumb_score"
 goal = "maximise"
@@ -70,6 +54,15 @@ label = "like-history"
 decay = ["hyperbolic:6"]
 quantile = [0.25]
 """
+
+
+def study_text(data: str) -> str:
+    """The benchmark study reading ``data``: the demo's space and belief (the tables of
+    ``studies/demo.toml`` from the first ``[space.`` to its first landscape, as written there)
+    between this study's own settings and landscapes."""
+    demo = (ROOT / "studies/demo.toml").read_text(encoding="utf-8")
+    start = demo.index("[space.")
+    return HEAD + demo[start : demo.index("[[landscape]]", start)] + LANDSCAPES.format(data=data)
 
 
 def crumb_score():
@@ -135,7 +128,7 @@ def main() -> None:
         sys.path.insert(0, str(ROOT))
         for rows, data in ((BASELINE_ROWS, small), (options.rows, big)):
             study = folder / f"rows-{rows}.toml"
-            study.write_text(STUDY.format(data=data.name), encoding="utf-8")
+            study.write_text(study_text(data.name), encoding="utf-8")
             for name, args in commands(study, data, folder / f"out-{rows}").items():
                 if name in chosen:
                     seconds, code = wall_time(args, ROOT)

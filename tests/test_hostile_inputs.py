@@ -6,34 +6,24 @@ import re
 import textwrap
 
 import pytest
+from helpers import oven
 
 from workbench import cli
 from workbench.report.markup import md_text, mpl_text
 from workbench.seeding import MAX_SEED
 from workbench.world import history
 
-STUDY = """
+STUDY = (
+    """
 title = "hostile"
 budget = 6
 replicates = 2
 baselines = ["no-belief"]
 [initial]
 size = 3
-[space.temperature]
-lower = 180
-upper = 260
-unit = "C"
-[space.proving]
-lower = 20
-upper = 240
-unit = "min"
-[belief.temperature]
-centre = 220
-within = 15
-[belief.proving]
-centre = 75
-within = 30
-[[landscape]]
+"""
+    + oven(units=True)
+    + """[[landscape]]
 name = "branin"
 [distortion]
 shifted = { shift = 0.25 }
@@ -41,6 +31,7 @@ shifted = { shift = 0.25 }
 decay = ["hyperbolic:2"]
 quantile = [0.25]
 """
+)
 FITTED = '[[landscape]]\nname = "branin"'
 CSV_HEAD = "temperature,proving,crumb\n"
 CSV_ROWS = "200,50,1.0\n210,60,0.5\n220,70,0.2\n230,80,0.4\n240,90,0.9\n"
@@ -75,7 +66,8 @@ CHECK_CASES = [
     ("huge features", _edit(FITTED, "[[landscape]]\ndrawn = { features = 100000000 }"), {}, [],
      r"'landscape\[0\]\.drawn\.features' must be an integer in \[16, 65536\] \(the limit"),
     ("integer with a billion values",
-     _edit("lower = 20\nupper = 240", 'lower = 0\nupper = 1000000000\ntype = "integer"'), {}, [],
+     _edit('lower = 20\nupper = 240\nscale = "log"',
+           'lower = 0\nupper = 1000000000\ntype = "integer"'), {}, [],
      r"'space\.proving\.upper' must be at most 9999 above lower"),
     ("negative seed", _edit("budget = 6", "budget = 6\nseed = -1"), {}, [],
      rf"'seed' must be an integer in \[0, {MAX_SEED}\] \(the seeding helper's range\)"),

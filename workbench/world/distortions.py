@@ -3,7 +3,7 @@
 Starting from a belief whose mode sits on the landscape's global minimiser:
 
 - **misplace** puts the mode on the landscape's worst point or on a decoy local optimum
-  (the searches are stated in :mod:`workbench.world.landscapes`);
+  (the searches are stated in :mod:`workbench.world.placement`);
 - **shift** moves the mode by a distance (Euclidean, cube units, i.e. fractions of the range)
   along a direction that is given or drawn from the distortion stream;
 - **scale** multiplies the spread (below 1: narrower, overconfident; above 1: wider).
