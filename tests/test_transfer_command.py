@@ -12,6 +12,7 @@ from workbench.analysis import campaign_metric, open_grid
 from workbench.analysis.dataset import guided_only
 from workbench.analysis.transfer_check import TRANSFER_FILE, TRUTH_FOLDER, spearman
 from workbench.cli import main
+from workbench.study.spec import load
 
 STUDY = """
 title = "A coating line: oven speed and primer layers (invented)"
@@ -137,3 +138,19 @@ def test_a_malformed_truth_table_is_one_line_naming_file_and_line(tmp_path, caps
     assert main(["check", str(study)]) == 2
     err = capsys.readouterr().err.strip().splitlines()
     assert len(err) == 1 and message in err[0] and "line.csv" in err[0]
+
+
+def test_a_tables_bytes_are_part_of_the_digest_of_every_grid_that_reads_it(tmp_path):
+    # A changed measurement must not be resumed over: the table's SHA-256 enters the digest of
+    # the truth grid, and of the study's own grid when a landscape reads the table.
+    table = tmp_path / "line.csv"
+    study = tmp_path / "line.toml"
+    landscape = '[[landscape]]\ntable = "line.csv"\nresponse = "defects"\n\n[distortion]'
+    study.write_text(textwrap.dedent(STUDY).replace("[distortion]", landscape, 1))
+    table.write_text(_table())
+    before = load(study)
+    assert load(study).digest == before.digest  # the same bytes, the same digest
+    table.write_text(_table().replace("\n1,2,9.100\n", "\n1,2,9.000\n", 1))
+    after = load(study)
+    assert after.digest != before.digest
+    assert after.truth_study().digest != before.truth_study().digest
