@@ -621,8 +621,10 @@ def run_study(
     counts as chunks finish. Raises :class:`InputError` (one line naming the folder) for a
     folder that is busy, foreign, damaged, read-only or not a folder.
     """
+    from .cost import check_grid_size
     from .gridfile import assemble
 
+    check_grid_size(study)  # before the folder is touched: a grid too large to load
     start = time.perf_counter()
     out = Path(out)
     with _backend(scheduler):
