@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import json
+import re
 import textwrap
 
 import numpy as np
@@ -101,6 +102,25 @@ def test_transfer_runs_both_grids_and_writes_the_check(transferred):
     rho = spearman(np.array(check["simulated_score"]), np.array(check["real_score"]))
     assert check["overall"]["spearman"]["estimate"] == pytest.approx(float(rho))
     assert check["overall"]["pick"] == check["settings"][int(np.argmin(check["simulated_score"]))]
+
+
+def test_json_prints_one_object_and_a_rerun_computes_nothing_again(transferred, capsys):
+    _, out = transferred
+    first = json.loads((out / TRANSFER_FILE).read_text())
+    argv = ["transfer", str(out.parent / "line.toml"), "--out", str(out), "--jobs", "1"]
+    capsys.readouterr()
+    assert main([*argv, "--quiet", "--draws", "50", "--json"]) == 0
+    captured = capsys.readouterr()
+    # Standard output is the one JSON object (the same check: same grids, same bootstrap
+    # seed); what was run goes to standard error, and both grids were already complete.
+    assert json.loads(captured.out) == first
+    ran = [
+        re.match(r"(\w+): (\d+) campaigns \((\d+) already done\)", line)
+        for line in captured.err.splitlines()
+    ]
+    ran = [m.groups() for m in ran if m]
+    assert [what for what, *_ in ran] == ["study", "truth"]
+    assert all(total == done != "0" for _, total, done in ran)
 
 
 def test_the_report_shows_the_transfer_check(transferred):
