@@ -4,13 +4,16 @@ written; user text that looks like markup stays text in every output, and figure
 import math
 import re
 import textwrap
+from dataclasses import replace
 
 import pytest
-from helpers import oven
+from helpers import make_study, oven
 
 from workbench import cli
 from workbench.report.markup import md_text, mpl_text
 from workbench.seeding import MAX_SEED
+from workbench.study.cost import MAX_GRID_BYTES, check_grid_size
+from workbench.validation import InputError
 from workbench.world import history
 
 STUDY = (
@@ -61,6 +64,10 @@ CHECK_CASES = [
      r"'replicates' must be an integer in \[1, 100000\] \(the limit on replicates\)"),
     ("huge random multiple", _edit("budget = 6", "budget = 6\nrandom_multiple = 100000"), {}, [],
      r"'random_multiple' must be an integer in \[1, 10000\] \(the limit on the random"),
+    ("grid too large to load",
+     _edit("budget = 6\nreplicates = 2", "budget = 999\nreplicates = 99999"),
+     {}, [], r"'replicates' must be at most [\d,]+ for a grid\.nc of at most 4\.0 GB \(the "
+     r"limit on a grid, which decide and report load into memory\); got 99,999, a grid of about"),
     ("huge block", _edit("replicates = 2", "replicates = 2\nblock = 100000"), {}, [],
      r"'block' must be an integer in \[1, 256\]"),
     ("huge features", _edit(FITTED, "[[landscape]]\ndrawn = { features = 100000000 }"), {}, [],
@@ -138,6 +145,19 @@ def test_hostile_study_is_refused_in_one_line_before_anything_is_written(
     assert re.search(pattern, lines[0]), lines[0]
     assert "SECRET" not in err and "Traceback" not in err and "Warning" not in err
     assert sorted(p.name for p in tmp_path.iterdir()) == before
+
+
+def test_the_replicates_the_grid_limit_names_fit_and_one_more_does_not():
+    study = make_study(
+        _edit("budget = 6\nreplicates = 2", "budget = 999\nreplicates = 99999")(STUDY)
+    )
+    with pytest.raises(InputError) as refused:
+        check_grid_size(study)
+    fit = int(re.search(r"at most ([\d,]+) for", str(refused.value)).group(1).replace(",", ""))
+    assert 0 < fit < study.replicates
+    assert check_grid_size(replace(study, replicates=fit)) <= MAX_GRID_BYTES
+    with pytest.raises(InputError, match="'replicates' must be at most"):
+        check_grid_size(replace(study, replicates=fit + 1))
 
 
 @pytest.mark.parametrize(

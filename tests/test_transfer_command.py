@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import json
+import re
 import textwrap
 
 import numpy as np
@@ -12,6 +13,7 @@ from workbench.analysis import campaign_metric, open_grid
 from workbench.analysis.dataset import guided_only
 from workbench.analysis.transfer_check import TRANSFER_FILE, TRUTH_FOLDER, spearman
 from workbench.cli import main
+from workbench.study.spec import load
 
 STUDY = """
 title = "A coating line: oven speed and primer layers (invented)"
@@ -102,6 +104,25 @@ def test_transfer_runs_both_grids_and_writes_the_check(transferred):
     assert check["overall"]["pick"] == check["settings"][int(np.argmin(check["simulated_score"]))]
 
 
+def test_json_prints_one_object_and_a_rerun_computes_nothing_again(transferred, capsys):
+    _, out = transferred
+    first = json.loads((out / TRANSFER_FILE).read_text())
+    argv = ["transfer", str(out.parent / "line.toml"), "--out", str(out), "--jobs", "1"]
+    capsys.readouterr()
+    assert main([*argv, "--quiet", "--draws", "50", "--json"]) == 0
+    captured = capsys.readouterr()
+    # Standard output is the one JSON object (the same check: same grids, same bootstrap
+    # seed); what was run goes to standard error, and both grids were already complete.
+    assert json.loads(captured.out) == first
+    ran = [
+        re.match(r"(\w+): (\d+) campaigns \((\d+) already done\)", line)
+        for line in captured.err.splitlines()
+    ]
+    ran = [m.groups() for m in ran if m]
+    assert [what for what, *_ in ran] == ["study", "truth"]
+    assert all(total == done != "0" for _, total, done in ran)
+
+
 def test_the_report_shows_the_transfer_check(transferred):
     _, out = transferred
     assert main(["report", str(out), "--draws", "50"]) == 0
@@ -137,3 +158,19 @@ def test_a_malformed_truth_table_is_one_line_naming_file_and_line(tmp_path, caps
     assert main(["check", str(study)]) == 2
     err = capsys.readouterr().err.strip().splitlines()
     assert len(err) == 1 and message in err[0] and "line.csv" in err[0]
+
+
+def test_a_tables_bytes_are_part_of_the_digest_of_every_grid_that_reads_it(tmp_path):
+    # A changed measurement must not be resumed over: the table's SHA-256 enters the digest of
+    # the truth grid, and of the study's own grid when a landscape reads the table.
+    table = tmp_path / "line.csv"
+    study = tmp_path / "line.toml"
+    landscape = '[[landscape]]\ntable = "line.csv"\nresponse = "defects"\n\n[distortion]'
+    study.write_text(textwrap.dedent(STUDY).replace("[distortion]", landscape, 1))
+    table.write_text(_table())
+    before = load(study)
+    assert load(study).digest == before.digest  # the same bytes, the same digest
+    table.write_text(_table().replace("\n1,2,9.100\n", "\n1,2,9.000\n", 1))
+    after = load(study)
+    assert after.digest != before.digest
+    assert after.truth_study().digest != before.truth_study().digest

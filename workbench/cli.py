@@ -215,14 +215,22 @@ def cmd_check(args) -> int:
 
     s = load(args.study)  # the study checked before the engine and the plan load
     from .plan import check_lines
+    from .study.cost import MAX_GRID_BYTES, check_grid_size, size
     from .study.resemblance import resemblance_table, table_lines
 
+    grid = check_grid_size(s)  # a grid too large to load is refused before anything runs
     # The user's functions first: one call each at the belief's mode, in a child process.
     timed = [(e.label, e.spec.probe(s.belief.mode())) for e in s.landscapes if e.kind == "function"]
-    lines = check_lines(s, args.jobs)  # the plan's pilot, smaller, and the plan's estimate
     print(f"study '{s.name}': {s.title}")
     for label, seconds in timed:
         print(f"{label}: {seconds * 1e3:.1f} ms per call at the belief's mode")
+    # Before the pilot, which runs campaigns at the full budget: what the grid will hold.
+    print(
+        f"grid.nc: about {size(grid)}, which decide and report load into memory "
+        f"(limit {size(MAX_GRID_BYTES)})",
+        flush=True,
+    )
+    lines = check_lines(s, args.jobs)  # the plan's pilot, smaller, and the plan's estimate
     print("\n".join(lines))
     if s.without_belief:
         print(f"without a belief (uniform over the range): {', '.join(s.without_belief)}")

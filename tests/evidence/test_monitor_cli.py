@@ -88,3 +88,23 @@ def test_a_grid_of_another_study_is_refused(grid, tmp_path, capsys):
     err = capsys.readouterr().err.strip()
     assert code == 2 and len(err.splitlines()) == 1 and "'--grid'" in err
     assert not out.exists()
+
+
+@pytest.mark.parametrize("command", ["audit", "monitor"])
+@pytest.mark.parametrize(
+    "damage", [b"", bytes(4000), b"CDF\x01 truncated"], ids=["empty", "zero-filled", "truncated"]
+)
+def test_a_damaged_grid_is_one_line_naming_the_grid_option(command, damage, tmp_path, capsys):
+    study, data, folder = tmp_path / "s.toml", tmp_path / "live.csv", tmp_path / "g"
+    study.write_text(textwrap.dedent(STUDY.format(seed=1)))
+    data.write_text(GOOD)
+    folder.mkdir()
+    (folder / "grid.nc").write_bytes(damage)
+    option = "--data" if command == "audit" else "--observations"
+    argv = [command, str(study), option, str(data), "--grid", str(folder)]
+    argv += ["--response", "y", "--goal", "minimise", "--out", str(tmp_path / "out")]
+    assert main(argv) == 2
+    err = capsys.readouterr().err.strip().splitlines()
+    assert len(err) == 1 and "command line: '--grid' must be a folder holding a grid.nc" in err[0]
+    assert str(folder / "grid.nc") in err[0] and "Traceback" not in err[0]
+    assert not (tmp_path / "out").exists()

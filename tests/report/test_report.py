@@ -12,6 +12,7 @@ import textwrap
 import matplotlib
 import numpy as np
 import pytest
+import xarray as xr
 from helpers import oven
 
 from workbench import analysis as an
@@ -252,6 +253,18 @@ def test_sensitivity_heatmap_hatches_the_cells_tied_with_the_best(data):
         assert ax.get_xlabel() == "threshold quantile γ"
         assert [t.get_text() for t in ax.get_yticklabels()] == ["hyperbolic:2", "hyperbolic:8"]
     plt.close(fig)
+
+
+def test_sensitivity_shows_the_quantiles_user_whatever_the_order_of_the_grids_strategies(data):
+    # The default strategy comes from the registry (uses_quantile), not from a name: with
+    # prior-weighted first in the grid, the grid still shows the pseudo-posterior's
+    # decay × quantile (two quantile columns), not prior-weighted's single NaN column.
+    ds, rule, rs = data
+    swapped = ds.isel(strategy=slice(None, None, -1))
+    assert str(swapped["strategy"].values[0]) == "prior-weighted"
+    s = an.sensitivity(swapped, rule, rs)
+    assert s.sizes["quantile"] == 2
+    xr.testing.assert_identical(s, an.sensitivity(ds, rule, rs, "pseudo-posterior"))
 
 
 def test_regret_curves_draw_one_log_panel_per_distortion(data):

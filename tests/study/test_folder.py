@@ -395,6 +395,35 @@ def test_a_read_only_folder_with_work_left_is_one_line_and_exit_2(folder, studie
     assert _files(folder) == before
 
 
+def test_a_full_disk_while_the_grid_is_written_is_one_line_and_exit_2(clean, studies, tmp_path):
+    # A real full disk: a tmpfs (in a private mount namespace, as root) just large enough for
+    # the finished chunks and the manifest, so only the grid file cannot be written; netCDF4
+    # reports that as 'NetCDF: HDF error', without the errno.
+    if os.geteuid() != 0 or shutil.which("unshare") is None:
+        pytest.skip("needs root and unshare to mount a small tmpfs")
+    kept = [p for p in clean[0].rglob("*") if p.is_file() and p.name != "grid.nc"]
+    pages = sum(-(-p.stat().st_size // 4096) for p in kept) + 2  # tmpfs counts whole pages
+    disk = tmp_path / "disk"
+    disk.mkdir()
+    out = disk / "out"
+    run = [sys.executable, "-m", "workbench.cli", "run", str(studies["tiny"]), "--out", str(out)]
+    script = (
+        f"mount -t tmpfs -o size={4 * pages}k tmpfs '{disk}' && mkdir '{out}' && "
+        f"cp -r '{clean[0]}/chunks' '{clean[0]}/manifest.json' '{out}' && "
+        f"{' '.join(repr(a) for a in run)} --jobs 1 --quiet; "
+        f"code=$?; ls -A '{out}'; exit $code"
+    )
+    done = subprocess.run(["unshare", "-m", "sh", "-c", script], capture_output=True, text=True)
+    if "mount" in done.stderr and done.returncode != 2:
+        pytest.skip(f"no tmpfs mount here: {done.stderr.strip()}")
+    lines = done.stderr.strip().splitlines()
+    assert done.returncode == 2 and len(lines) == 1, done.stderr
+    assert "'--out' must be a folder on a disk with free space" in lines[0]
+    assert f"{out} (No space left on device)" in lines[0]
+    left = done.stdout.split()
+    assert "grid.nc" not in left and not [n for n in left if n.endswith(".part")]
+
+
 # --------------------------------------------------------------------------- processes
 
 

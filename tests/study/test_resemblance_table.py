@@ -7,6 +7,7 @@ mode), so the textbook branin landscape is the data's generator, and a function 
 the same branin with goal = "maximise" is that generator reversed.
 """
 
+import json
 import shutil
 import textwrap
 
@@ -242,3 +243,23 @@ def test_check_prints_the_table_before_anything_runs(kiln, capsys):
     assert "1: orders the data as measured; 0: no better than chance" in lines[1]
     for line in lines:
         assert line in out
+
+
+def test_audit_shows_the_studys_table_with_its_intervals(kiln, tmp_path, capsys):
+    # The audit reads the study's earlier evaluations (the fitted landscape's kiln.csv), so it
+    # shows the very table `check` prints and the grid stores, intervals included.
+    folder, *_, table = kiln
+    out = tmp_path / "audit"
+    argv = ["audit", str(folder / "study.toml"), "--data", str(folder / "kiln.csv")]
+    argv += ["--response", "y", "--goal", "minimise", "--out", str(out)]
+    capsys.readouterr()
+    assert main([*argv, "--json"]) == 0
+    shown = json.loads(capsys.readouterr().out)["resemblance"]
+    assert shown["data"] == table.source and shown["level"] == table.level
+    for row, expected in zip(shown["landscapes"], table.rows, strict=True):
+        assert row["landscape"] == expected.landscape and row["measure"] == expected.measure
+        for field in ("estimate", "low", "high", "likelihood"):
+            assert row[field] == pytest.approx(getattr(expected, field), rel=1e-9)
+    page = (out / "audit.md").read_text(encoding="utf-8")
+    assert "How well each landscape explains the earlier evaluations" in page
+    assert "leave-one-out" in page

@@ -7,6 +7,7 @@ from collections.abc import Mapping, Sequence
 import numpy as np
 import xarray as xr
 
+from ..engine.strategies import uses_quantile
 from ..validation import InputError
 from .dataset import POOLED, coordinate_names, guided_only, series
 from .grid_metrics import belief_cost, campaign_metric
@@ -18,7 +19,7 @@ def sensitivity(
     ds: xr.Dataset,
     rule: Rule,
     resampling: Resampling | None = None,
-    strategy: str = "pseudo-posterior",
+    strategy: str | None = None,
     fixed: Mapping[str, object] | None = None,
 ) -> xr.Dataset:
     """The metric of one strategy over decay × quantile, per distortion and under the rule.
@@ -29,9 +30,13 @@ def sensitivity(
     difference with that best includes 0 (they cannot be told apart from it). ``fixed`` gives
     the exploration and initial levels when those vary (default: the first). A strategy
     that does not use the quantile (prior-weighted) has one quantile column, NaN: a row per
-    decay.
+    decay. ``strategy`` defaults to the grid's first strategy that uses the quantile (the
+    registry says which), else its first.
     """
     rs = resampling or Resampling()
+    if strategy is None:
+        guided = [str(s) for s in ds["strategy"].values]
+        strategy = next((s for s in guided if uses_quantile(s)), guided[0])
     values = guided_only(campaign_metric(ds, rule.metric))
     fixed = dict(fixed or {})
     keep = values["strategy"].values == strategy

@@ -11,7 +11,7 @@ import numpy as np
 import xarray as xr
 
 from ..engine.strategies import reference
-from ..study.spec import EQUAL, RESEMBLANCE, SCORES
+from ..study.spec import EQUAL, RESEMBLANCE, SCORES, Decision
 from ..validation import InputError, check_choice, check_number, raw
 from .dataset import (
     METRIC_NAMES,
@@ -112,14 +112,14 @@ def parse_weights(text: str, names: Sequence[str] | None, key: str = "--weights"
 def stored_decision(ds: xr.Dataset) -> dict:
     """The study's [decision] table as the grid file stores it (attributes written at run time;
     a grid without them gives the defaults: expected evaluations to target, equal weights)."""
-    a = ds.attrs
+    a, default = ds.attrs, Decision()
     return {
-        "rule": str(a.get("decision_rule", "expected")),
+        "rule": str(a.get("decision_rule", default.rule)),
         "weights": json.loads(a.get("decision_weights", "{}")),
-        "level": float(a.get("decision_level", 0.25)),
-        "metric": str(a.get("decision_metric", "evaluations_to_target")),
+        "level": float(a.get("decision_level", default.level)),
+        "metric": str(a.get("decision_metric", default.metric)),
         "landscapes": json.loads(a.get("decision_landscapes", "{}")),
-        "score": str(a.get("decision_score", "raw")),
+        "score": str(a.get("decision_score", default.score)),
     }
 
 

@@ -32,7 +32,10 @@ def _study_grid(study, folder: str):
     """The grid of ``folder``, refused unless it was run from this very study."""
     from ..analysis import open_grid
 
-    ds = open_grid(folder)
+    try:
+        ds = open_grid(folder)
+    except InputError as err:  # a missing or damaged grid: named by the option that gave it
+        raise InputError("--grid", err.expected, err.got, "command line") from None
     if ds.attrs.get("study") != study.text:
         raise InputError(
             "--grid",

@@ -12,7 +12,7 @@ from ..analysis.edges import Edge, study_edges
 from ..analysis.edges import edge_lines as _edge_lines
 from ..engine.strategies import reference, uses_quantile
 from ..seeding import derive
-from ..study.cost import Estimate, cell_counts, duration
+from ..study.cost import Estimate, cell_counts, duration, grid_bytes
 from ..study.grid import chunks, settings
 from ..study.spec import Study
 from . import sample_size
@@ -226,13 +226,6 @@ def pilot_edges(study: Study, pilot: Pilot) -> tuple[Edge, ...]:
 TIME_RESAMPLES = 200
 TIME_LEVEL = 0.9
 
-# The grid file's per-evaluation series (gridfile._SERIES): seven 8-byte ones and 'failed' (1).
-_GRID_SERIES_BYTES = 7 * 8 + 1
-# The grid file's per-cell and per-placement variables, and a margin for its header.
-_GRID_CELL_VALUES = 3
-_GRID_PLACEMENT_VALUES = 2
-_GRID_HEADER_BYTES = 64 * 1024
-
 
 @dataclass(frozen=True)
 class Compute:
@@ -406,26 +399,6 @@ def compute_estimate(
         chunk_bytes=int(chunk_bytes),
         grid_bytes=grid_bytes(full),
     )
-
-
-def grid_bytes(study: Study) -> int:
-    """Bytes of grid.nc: its dense arrays as :mod:`workbench.study.gridfile` lays them out."""
-    guided, baseline = settings(study)
-    coords = study.space.dim if study.space is not None else max(e.dim for e in study.landscapes)
-    per_campaign = study.budget * (_GRID_SERIES_BYTES + 2 * coords * 8)
-    n_l, n_d, n_r = len(study.landscapes), len(study.distortions), study.replicates
-    positions = 0
-    if guided:
-        positions = (
-            len({s.strategy for s in guided})
-            * len(study.decay_levels)
-            * len(study.quantile_levels)
-            * len(study.exploration_levels)
-            * len(study.initial)
-        )
-    positions = (positions + len(baseline)) * n_l * n_d * n_r
-    cells = (_GRID_CELL_VALUES * n_d + _GRID_PLACEMENT_VALUES) * n_l * n_r * 8
-    return int(positions * per_campaign + cells + _GRID_HEADER_BYTES)
 
 
 def check_lines(study: Study, jobs: int | None = None) -> list[str]:

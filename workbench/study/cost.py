@@ -6,12 +6,31 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 from ..engine.strategies import uses_model
+from ..validation import InputError, raw
 from .spec import Study
 
-__all__ = ["Estimate", "cell_counts", "chunk_cost", "duration", "size"]
+__all__ = [
+    "MAX_GRID_BYTES",
+    "Estimate",
+    "cell_counts",
+    "check_grid_size",
+    "chunk_cost",
+    "duration",
+    "grid_bytes",
+    "size",
+]
 
 # A step's work that does not grow with the dimension, in units of one dimension's (chunk_cost).
 _PER_STEP = 20
+# The grid file's per-evaluation series (gridfile._SERIES): seven 8-byte ones and 'failed' (1).
+_GRID_SERIES_BYTES = 7 * 8 + 1
+# The grid file's per-cell and per-placement variables, and a margin for its header.
+_GRID_CELL_VALUES = 3
+_GRID_PLACEMENT_VALUES = 2
+_GRID_HEADER_BYTES = 64 * 1024
+# `decide`, `report`, `audit` and `monitor` load grid.nc whole into memory (analysis.open_grid):
+# a study whose grid would be larger is refused before anything runs.
+MAX_GRID_BYTES = 4 * 10**9
 
 
 @dataclass(frozen=True)
@@ -98,3 +117,45 @@ def size(n: float) -> str:
         if n >= scale:
             return f"{n / scale:.1f} {unit}"
     return f"{n:.0f} B"
+
+
+def grid_bytes(study: Study) -> int:
+    """Bytes of grid.nc: its dense arrays as :mod:`workbench.study.gridfile` lays them out."""
+    from .grid import settings
+
+    guided, baseline = settings(study)
+    coords = study.space.dim if study.space is not None else max(e.dim for e in study.landscapes)
+    per_campaign = study.budget * (_GRID_SERIES_BYTES + 2 * coords * 8)
+    n_l, n_d, n_r = len(study.landscapes), len(study.distortions), study.replicates
+    positions = 0
+    if guided:
+        positions = (
+            len({s.strategy for s in guided})
+            * len(study.decay_levels)
+            * len(study.quantile_levels)
+            * len(study.exploration_levels)
+            * len(study.initial)
+        )
+    positions = (positions + len(baseline)) * n_l * n_d * n_r
+    cells = (_GRID_CELL_VALUES * n_d + _GRID_PLACEMENT_VALUES) * n_l * n_r * 8
+    return int(positions * per_campaign + cells + _GRID_HEADER_BYTES)
+
+
+def check_grid_size(study: Study) -> int:
+    """The grid file's estimated bytes (:func:`grid_bytes`); above :data:`MAX_GRID_BYTES` an
+    :class:`InputError` naming the replicates that would fit (the grid grows with them), or the
+    budget when not even one replicate fits."""
+    n = grid_bytes(study)
+    if n <= MAX_GRID_BYTES:
+        return n
+    limit = (
+        f"a grid.nc of at most {size(MAX_GRID_BYTES)} (the limit on a grid, which decide and "
+        "report load into memory)"
+    )
+    per_replicate = (n - _GRID_HEADER_BYTES) / study.replicates
+    fit = int((MAX_GRID_BYTES - _GRID_HEADER_BYTES) // per_replicate)
+    if fit >= 1:
+        got = raw(f"{study.replicates:,}, a grid of about {size(n)}")
+        raise InputError("replicates", f"at most {fit:,} for {limit}", got, study.path)
+    got = raw(f"{study.budget:,}, a grid of about {size(n)} at one replicate")
+    raise InputError("budget", f"smaller for {limit}", got, study.path)

@@ -58,6 +58,7 @@ large the grid; it is written to a temporary name and renamed at the end.
 
 from __future__ import annotations
 
+import errno
 import json
 import os
 from dataclasses import dataclass
@@ -423,17 +424,34 @@ def assemble(
 
     lowest: dict[str, float] = {}
     with atomic_path(path) as tmp:
-        with netCDF4.Dataset(tmp, "w", format="NETCDF4") as ds:
-            _define(ds, study)
-            ds.setncatts(run_attributes(study, path, provenance))
-            extras = grid_extras(study) if extras is None else extras
-            _write_beliefs(ds, study, extras)
-            _write_resemblance(ds, extras)
-            for chunk in every:
-                with np.load(chunk_dir / f"{chunk.key}.npz") as npz:
-                    # Read every array once: an npz member is decompressed on each access.
-                    data = {name: npz[name] for name in npz.files}
-                label = study.landscapes[chunk.landscape].label
-                low = _write_chunk(ds, study, chunk, data)
-                lowest[label] = min(lowest.get(label, np.inf), low)
+        try:
+            with netCDF4.Dataset(tmp, "w", format="NETCDF4") as ds:
+                _define(ds, study)
+                ds.setncatts(run_attributes(study, path, provenance))
+                extras = grid_extras(study) if extras is None else extras
+                _write_beliefs(ds, study, extras)
+                _write_resemblance(ds, extras)
+                for chunk in every:
+                    with np.load(chunk_dir / f"{chunk.key}.npz") as npz:
+                        # Read every array once: an npz member is decompressed on each access.
+                        data = {name: npz[name] for name in npz.files}
+                    label = study.landscapes[chunk.landscape].label
+                    low = _write_chunk(ds, study, chunk, data)
+                    lowest[label] = min(lowest.get(label, np.inf), low)
+        except RuntimeError:
+            if _disk_full(tmp):
+                raise OSError(errno.ENOSPC, os.strerror(errno.ENOSPC), str(tmp)) from None
+            raise
     return lowest
+
+
+# Below this many free bytes beside the grid file, a failed write is taken for a full disk.
+FULL_DISK_BYTES = 2**20
+
+
+def _disk_full(tmp: Path) -> bool:
+    """Whether the disk of ``tmp`` is (nearly) full: netCDF4 reports a full disk as
+    ``RuntimeError('NetCDF: HDF error')``, without the errno, so the free space beside the
+    file tells it from other failures (which are raised as they are)."""
+    free = os.statvfs(tmp.parent)
+    return free.f_bavail * free.f_frsize < FULL_DISK_BYTES

@@ -510,6 +510,13 @@ def execute(
         yield from _parallel(study, todo, jobs, scheduler is not None)
 
 
+def _workers(groups: list, jobs: int | None, distributed: bool) -> int:
+    """joblib's ``n_jobs`` for ``groups``: -1 on a cluster; here no more local workers than
+    tasks, so that each one gets a task at once, and with it the watch on the run's process
+    (an idle worker ends after loky's idle timeout). 1 runs the tasks in this process."""
+    return -1 if distributed else min(jobs or os.cpu_count() or 1, len(groups))
+
+
 def _parallel(
     study: Study, todo: list[Chunk], jobs: int | None, distributed: bool
 ) -> Iterator[tuple[Chunk, dict, float]]:
@@ -518,9 +525,7 @@ def _parallel(
     if not todo:
         return
     groups = _groups(study, todo)
-    # No more local workers than tasks: each one gets a task at once, and with it the watch
-    # on the run's process (an idle worker ends after loky's idle timeout).
-    n_jobs = -1 if distributed else min(jobs or os.cpu_count() or 1, len(groups))
+    n_jobs = _workers(groups, jobs, distributed)
     parallel = joblib.Parallel(
         n_jobs=n_jobs, return_as="generator_unordered", batch_size=1, pre_dispatch="2*n_jobs"
     )
@@ -541,16 +546,19 @@ def _parallel(
 
 
 class _Beside:
-    """``fn(*args)`` run in a daemon thread of the run's process while the chunks run
-    elsewhere; :meth:`result` waits for it and re-raises what it raised. A daemon, so that a
-    run stopped early does not wait for it."""
+    """``fn(*args)`` run in a daemon thread of the run's process while the chunks run in
+    worker processes (``thread``), else when :meth:`result` is called; :meth:`result` waits
+    for it and re-raises what it raised. A daemon, so that a run stopped early does not wait
+    for it. Never beside chunks of this process: a user's function is evaluated through one
+    child process, which two threads must not share."""
 
-    def __init__(self, fn: Callable, *args) -> None:
+    def __init__(self, fn: Callable, *args, thread: bool) -> None:
         self._value = self._error = None
         self._thread = threading.Thread(
             target=self._run, args=(fn, *args), name="workbench-beside", daemon=True
         )
-        self._thread.start()
+        if thread:
+            self._thread.start()
 
     def _run(self, fn: Callable, *args) -> None:
         from threadpoolctl import threadpool_limits
@@ -562,7 +570,10 @@ class _Beside:
             self._error = err
 
     def result(self):
-        self._thread.join()
+        if self._thread.ident is None:
+            self._thread.run()  # never started: run here
+        else:
+            self._thread.join()
         if self._error is not None:
             raise self._error
         return self._value
@@ -649,8 +660,10 @@ def run_study(
     counts as chunks finish. Raises :class:`InputError` (one line naming the folder) for a
     folder that is busy, foreign, damaged, read-only or not a folder.
     """
+    from .cost import check_grid_size
     from .gridfile import assemble, grid_extras
 
+    check_grid_size(study)  # before the folder is touched: a grid too large to load
     start = time.perf_counter()
     out = Path(out)
     with _backend(scheduler):
@@ -678,7 +691,8 @@ def run_study(
                     progress(done, total)
                 # The grid's belief figures and resemblance table (replicate 0's placements)
                 # are computed here while the workers run the chunks, not after them.
-                extras = _Beside(grid_extras, study)
+                local = _workers(_groups(study, todo), jobs, scheduler is not None) == 1
+                extras = _Beside(grid_extras, study, thread=not local)
                 for chunk, result, seconds in _parallel(study, todo, jobs, scheduler is not None):
                     with _disk(out):
                         sha = _write_chunk(study, out, chunk, result)

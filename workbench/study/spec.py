@@ -601,7 +601,8 @@ def _one_strategy(table) -> tuple[tuple[StrategyFactors, ...], tuple[str, ...]]:
 def _decision(table, distortions, landscapes) -> Decision:
     table = check_table(table, "decision")
     check_keys(table, "decision", ("rule", "weights", "level", "metric", "landscapes", "score"))
-    rule = check_choice(table.get("rule", "expected"), "decision.rule", _RULES)
+    default = Decision()  # the defaults live in one place: the dataclass
+    rule = check_choice(table.get("rule", default.rule), "decision.rule", _RULES)
     names = [d.name for d in distortions]
     weights = dict(check_table(table.get("weights", {}), "decision.weights"))
     for k, v in weights.items():
@@ -610,14 +611,14 @@ def _decision(table, distortions, landscapes) -> Decision:
     if weights and sum(float(v) for v in weights.values()) <= 0:
         raise InputError("decision.weights", "weights that are not all 0", raw(str(weights)))
     level = check_number(
-        table.get("level", 0.25), "decision.level", low=0.0, high=1.0, closed="right"
+        table.get("level", default.level), "decision.level", low=0.0, high=1.0, closed="right"
     )
     metric = check_choice(
-        table.get("metric", "evaluations_to_target"),
+        table.get("metric", default.metric),
         "decision.metric",
         ("evaluations_to_target", "final_normalized_regret", "log_regret_area"),
     )
-    score = check_choice(table.get("score", "raw"), "decision.score", SCORES)
+    score = check_choice(table.get("score", default.score), "decision.score", SCORES)
     return Decision(rule, weights, level, metric, _landscape_weights(table, landscapes), score)
 
 
