@@ -88,9 +88,15 @@ class Cell:
         e = self.entry
         if e.kind == "textbook":
             return ls.get(e.name, e.dim)
+        return _built(*self._built_key)
+
+    @property
+    def _built_key(self) -> tuple:
+        """What a built landscape (drawn, fitted, table, function) of this cell depends on."""
+        e = self.entry
         replicate = 0 if e.kind == "function" else self.replicate
         at = self._at if e.placed_at_belief else None
-        return _built(e.spec, e.label, e.dim, self.study.seed, replicate, at)
+        return e.spec, e.label, e.dim, self.study.seed, replicate, at
 
     @cached_property
     def _at(self) -> tuple[float, ...] | None:
@@ -107,11 +113,10 @@ class Cell:
 
     @cached_property
     def placement(self):
-        land = self.land
         if self.entry.kind != "textbook":
             # Fitted, table and function: the truth is where the data or function put it; a
             # drawn surface already comes cut around its placement.
-            return land.placed()
+            return _built_placed(*self._built_key)
         return _placed(self.entry.name, self.entry.dim, self._at)
 
     @cached_property
@@ -165,6 +170,13 @@ def _placed(name: str, dim: int, at: tuple[float, ...] | None) -> ls.Placement:
     """A textbook landscape placed at ``at`` (cached: every distortion of a replicate shares
     its placement, so its optimum search and reference gap are computed once per process)."""
     return ls.get(name, dim).placed(at=at)
+
+
+@lru_cache(maxsize=64)
+def _built_placed(spec, label: str, dim: int, seed: int, replicate: int, at) -> ls.Placement:
+    """A built landscape on its own domain (cached as :func:`_built` is: every distortion of a
+    replicate shares its reference set and optimum search)."""
+    return _built(spec, label, dim, seed, replicate, at).placed()
 
 
 @lru_cache(maxsize=64)
