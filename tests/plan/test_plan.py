@@ -106,7 +106,7 @@ def test_pilot_campaigns_are_the_studys_first_replicates(tiny):
 
 def test_compute_estimate_counts_the_campaigns_and_bytes_of_a_real_run(demo_pilot, tmp_path):
     study, pilot = demo_pilot
-    # One replicate keeps the suite fast: 8 chunks, 108 campaigns, run for real. Its seconds
+    # One replicate keeps the suite fast: 216 campaigns, run for real. Its seconds
     # are compared with the estimate in benchmarks/estimate.py (medians of several runs), not
     # here: a suite shares the machine.
     small = dataclasses.replace(study, replicates=1)
