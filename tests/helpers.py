@@ -40,3 +40,48 @@ spread = 0.2
 centre = 3
 spread = 0.2
 """
+
+
+# The shared grid's study (the `shared_grid` session fixture of tests/conftest.py): two
+# landscapes and three distortions, both belief-guided strategies (five settings), the
+# no-belief baseline, 4 replicates of 8 evaluations; its report uses SHARED_DRAWS resamples.
+SHARED_TITLE = "Oven <b>decision</b> page (invented)"
+SHARED_DRAWS = 200
+SHARED_STUDY = (
+    textwrap.dedent(
+        f"""
+    title = "{SHARED_TITLE}"
+    budget = 8
+    replicates = 4
+    seed = 11
+    baselines = ["no-belief"]
+
+    [initial]
+    size = 3
+    """
+    )
+    + oven(units=True)
+    + textwrap.dedent(
+        """
+    [[landscape]]
+    name = "branin"
+
+    [[landscape]]
+    name = "six-hump-camel"
+
+    [distortion]
+    shifted = { shift = 0.25 }
+    misplaced = { misplace = "worst" }
+
+    [strategy.pseudo-posterior]
+    decay = ["hyperbolic:2", "hyperbolic:8"]
+    quantile = [0.1, 0.5]
+
+    [strategy.prior-weighted]
+    decay = ["hyperbolic:2"]
+
+    [decision]
+    weights = { exact = 0.6, shifted = 0.3, misplaced = 0.1 }
+    """
+    )
+)
