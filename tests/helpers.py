@@ -85,3 +85,35 @@ SHARED_STUDY = (
     """
     )
 )
+
+
+# The monitor tests' small study (tests/evidence/conftest.py: `monitor_grid`, seed 1): one
+# landscape on the square [0, 10]², one misplaced distortion, the prior-weighted strategy with
+# two decays, 4 replicates of 9 evaluations (a classifier at evaluations 4, 8 and 9).
+MONITOR_STUDY = """
+title = "monitor"
+budget = 9
+replicates = 4
+seed = {seed}
+baselines = ["no-belief"]
+[initial]
+size = 3
+[space.x1]
+lower = 0
+upper = 10
+[space.x2]
+lower = 0
+upper = 10
+[belief.x1]
+centre = 5
+spread = 0.15
+[belief.x2]
+centre = 5
+spread = 0.15
+[[landscape]]
+name = "branin"
+[distortion]
+misplaced = {{ misplace = "worst" }}
+[strategy.prior-weighted]
+decay = ["hyperbolic:2", "hyperbolic:8"]
+"""

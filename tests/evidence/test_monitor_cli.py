@@ -1,49 +1,28 @@
 """`workbench monitor` from the command line: it prints its validation with the answer, and bad
 observation files or a grid of another study end in one line, exit code 2, nothing written."""
 
+import shutil
 import textwrap
 
 import pytest
+from helpers import MONITOR_STUDY as STUDY
 
 from workbench.cli import main
 
-STUDY = """
-title = "monitor"
-budget = 9
-replicates = 4
-seed = {seed}
-baselines = ["no-belief"]
-[initial]
-size = 3
-[space.x1]
-lower = 0
-upper = 10
-[space.x2]
-lower = 0
-upper = 10
-[belief.x1]
-centre = 5
-spread = 0.15
-[belief.x2]
-centre = 5
-spread = 0.15
-[[landscape]]
-name = "branin"
-[distortion]
-misplaced = {{ misplace = "worst" }}
-[strategy.prior-weighted]
-decay = ["hyperbolic:2", "hyperbolic:8"]
-"""
 GOOD = "x1,x2,y\n5,5,3.1\n4,6,2.0\n6,4,2.5\n5.5,5.2,1.1\n4.8,5.1,0.9\n"
 
 
 @pytest.fixture(scope="module")
-def grid(tmp_path_factory):
+def grid(monitor_grid, tmp_path_factory):
+    """s1.toml and g1: a copy of the monitor tests' grid (the monitor writes its cache beside
+    the grid); s2.toml and g2: the same study with another seed, run here (a grid of another
+    study that differs from s1.toml in nothing else)."""
     root = tmp_path_factory.mktemp("monitor")
-    for seed in (1, 2):
-        (root / f"s{seed}.toml").write_text(textwrap.dedent(STUDY.format(seed=seed)))
-    assert main(["run", str(root / "s1.toml"), "--out", str(root / "g1"), "--quiet"]) == 0
-    assert main(["run", str(root / "s2.toml"), "--out", str(root / "g2"), "--quiet"]) == 0
+    shutil.copy(monitor_grid / "s.toml", root / "s1.toml")
+    shutil.copytree(monitor_grid / "g", root / "g1")
+    (root / "s2.toml").write_text(textwrap.dedent(STUDY.format(seed=2)))
+    argv = ["run", str(root / "s2.toml"), "--out", str(root / "g2"), "--quiet", "--jobs", "1"]
+    assert main(argv) == 0
     return root
 
 
