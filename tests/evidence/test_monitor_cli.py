@@ -15,14 +15,12 @@ GOOD = "x1,x2,y\n5,5,3.1\n4,6,2.0\n6,4,2.5\n5.5,5.2,1.1\n4.8,5.1,0.9\n"
 @pytest.fixture(scope="module")
 def grid(monitor_grid, tmp_path_factory):
     """s1.toml and g1: a copy of the monitor tests' grid (the monitor writes its cache beside
-    the grid); s2.toml and g2: the same study with another seed, run here (a grid of another
-    study that differs from s1.toml in nothing else)."""
+    the grid); s2.toml: the same study with another seed, whose grid g1 is not (another study
+    that differs from the grid's in nothing else)."""
     root = tmp_path_factory.mktemp("monitor")
     shutil.copy(monitor_grid / "s.toml", root / "s1.toml")
     shutil.copytree(monitor_grid / "g", root / "g1")
     (root / "s2.toml").write_text(textwrap.dedent(STUDY.format(seed=2)))
-    argv = ["run", str(root / "s2.toml"), "--out", str(root / "g2"), "--quiet", "--jobs", "1"]
-    assert main(argv) == 0
     return root
 
 
@@ -63,9 +61,10 @@ def test_a_bad_observations_file_is_one_line_and_writes_nothing(
 
 @pytest.mark.slow
 def test_a_grid_of_another_study_is_refused(grid, tmp_path, capsys):
-    code, out = _monitor(grid, tmp_path / "out", GOOD, grid="g2")
+    code, out = _monitor(grid, tmp_path / "out", GOOD, study="s2.toml")
     err = capsys.readouterr().err.strip()
     assert code == 2 and len(err.splitlines()) == 1 and "'--grid'" in err
+    assert "run from another study" in err
     assert not out.exists()
 
 
