@@ -65,3 +65,32 @@ def demo_grid_folder():
     log = (_DEMO["folder"] / "log.txt").read_text(errors="replace")
     assert code == 0, f"the demo run failed ({code}):\n{log}"
     return _DEMO["folder"] / "demo"
+
+
+# --------------------------------------------------------------------------- the shared grid
+# One tiny study (tests/helpers.py: SHARED_STUDY), run once per session through the command
+# line with its report: the grid of every test that needs a real run but not a study of its
+# own (the report's pages and decision box, the grid's stored study and belief). Two
+# landscapes and three distortions (the weights have something to move), both belief-guided
+# strategies, the no-belief baseline, 4 replicates of 8 evaluations. The folder is read-only
+# to the tests: a test that writes into it (a report for another rule, an altered attribute)
+# copies it first (shutil.copytree into its tmp_path). A grid that stays separate says why
+# beside its fixture.
+
+
+@pytest.fixture(scope="session")
+def shared_grid(tmp_path_factory):
+    """The shared results folder of ``helpers.SHARED_STUDY`` (grid.nc; report.html, figures
+    and summary.md of ``helpers.SHARED_DRAWS`` resamples); its study file is
+    ``shared_grid.parent / "study.toml"``."""
+    from helpers import SHARED_DRAWS, SHARED_STUDY
+
+    from workbench import cli
+
+    root = tmp_path_factory.mktemp("shared")
+    study = root / "study.toml"
+    study.write_text(SHARED_STUDY, encoding="utf-8")
+    out = root / "out"
+    assert cli.main(["run", str(study), "--out", str(out), "--quiet", "--jobs", "1"]) == 0
+    assert cli.main(["report", str(out), "--draws", str(SHARED_DRAWS)]) == 0
+    return out

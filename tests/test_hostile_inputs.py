@@ -222,6 +222,7 @@ EVIL_CSV = (
 )
 
 
+# Not the shared grid (tests/conftest.py): the study's own names and text are the hostile input.
 @pytest.fixture(scope="session")
 def hostile_outputs(tmp_path_factory):
     """The hostile study run tiny (budget 6, 2 replicates), its report, plan, audit and

@@ -70,6 +70,7 @@ def _table() -> str:
     return "\n".join(lines) + "\n"
 
 
+# Not the shared grid (tests/conftest.py): `transfer` runs its two grids itself, from a table.
 @pytest.fixture(scope="session")
 def transferred(tmp_path_factory):
     folder = tmp_path_factory.mktemp("transfer")

@@ -150,13 +150,22 @@ def test_audit_with_json_and_out_prints_the_json_and_writes_the_page(tmp_path, c
     assert (tmp_path / "audit" / "audit.html").exists()
 
 
-def test_a_grid_of_another_study_is_refused(tmp_path, capsys):
-    study, other = _files(tmp_path, 1), _files(tmp_path, 2)
-    assert main(["run", str(other), "--out", str(tmp_path / "g"), "--quiet", "--jobs", "1"]) == 0
-    capsys.readouterr()
-    code = _audit(tmp_path, study, "--grid", str(tmp_path / "g"))
+def test_a_grid_of_another_study_is_refused(shared_grid, tmp_path, capsys):
+    # The shared grid (tests/conftest.py) against its own study with another seed: a study
+    # that differs from the grid's in nothing else. Read-only: a refused audit writes nothing.
+    text = (shared_grid.parent / "study.toml").read_text(encoding="utf-8")
+    assert "seed = 11\n" in text
+    study = tmp_path / "s2.toml"
+    study.write_text(text.replace("seed = 11\n", "seed = 12\n"), encoding="utf-8")
+    rng = np.random.default_rng(0)
+    X = rng.random((12, 2)) * [80, 220] + [180, 20]  # inside the shared study's oven space
+    y = (X[:, 0] - 210) ** 2 / 100 + (X[:, 1] - 70) ** 2 / 1000
+    rows = "\n".join(f"{a:.2f},{b:.2f},{v:.4f}" for (a, b), v in zip(X, y, strict=True))
+    (tmp_path / "h.csv").write_text("temperature,proving,f\n" + rows + "\n")
+    code = _audit(tmp_path, study, "--grid", str(shared_grid))
     err = capsys.readouterr().err.strip()
     assert code == 2 and len(err.splitlines()) == 1 and "'--grid'" in err
+    assert "run from another study" in err
     assert not (tmp_path / "audit").exists()
 
 

@@ -56,6 +56,8 @@ def _run(tmp, name: str, seed: int, replicates: int):
     return study, open_grid(run_study(study, tmp / name, jobs=2).grid)
 
 
+# Not the shared grid (tests/conftest.py): a classifier worth checking needs 10 replicates of
+# 14 evaluations from a belief design, and a second grid of fresh seeds.
 @pytest.fixture(scope="module")
 def trained(tmp_path_factory):
     """A monitor trained on a 10-replicate grid, and a 6-replicate grid of fresh seeds."""

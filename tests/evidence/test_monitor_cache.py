@@ -4,11 +4,10 @@ before any training."""
 
 import json
 import re
-import textwrap
+import shutil
 
 import numpy as np
 import pytest
-from test_monitor_cli import STUDY as CLI_STUDY
 
 from workbench.analysis import open_grid
 from workbench.cli import main
@@ -18,19 +17,16 @@ from workbench.evidence.commands import monitor_steps
 from workbench.study.spec import load
 from workbench.world.history import read_history
 
-# The monitor command tests' small study (branin, one misplaced distortion, 4 replicates).
-STUDY = CLI_STUDY.format(seed=5)
 ROWS = ["5,5,3.1", "4,6,2.0", "6,4,2.5", "5.5,5.2,1.1", "4.8,5.1,0.9", "5.1,4.7,0.7"]
 SETTING = "prior-weighted, decay hyperbolic:2"
 
 
-@pytest.fixture(scope="session")
-def small_grid(tmp_path_factory):
-    """A 4-replicate grid of one landscape, two distortions and two decays."""
-    root = tmp_path_factory.mktemp("monitor-cache")
-    (root / "s.toml").write_text(textwrap.dedent(STUDY))
-    argv = ["run", str(root / "s.toml"), "--out", str(root / "g"), "--quiet", "--jobs", "1"]
-    assert main(argv) == 0
+@pytest.fixture(scope="module")
+def small_grid(monitor_grid, tmp_path_factory):
+    """A copy of the monitor tests' grid (s.toml, g: tests/helpers.py, MONITOR_STUDY): these
+    tests write the monitor's cache beside the grid and their observation files beside it."""
+    root = tmp_path_factory.mktemp("monitor-cache") / "copy"
+    shutil.copytree(monitor_grid, root)
     return root
 
 

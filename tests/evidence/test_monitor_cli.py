@@ -1,49 +1,26 @@
 """`workbench monitor` from the command line: it prints its validation with the answer, and bad
 observation files or a grid of another study end in one line, exit code 2, nothing written."""
 
+import shutil
 import textwrap
 
 import pytest
+from helpers import MONITOR_STUDY as STUDY
 
 from workbench.cli import main
 
-STUDY = """
-title = "monitor"
-budget = 9
-replicates = 4
-seed = {seed}
-baselines = ["no-belief"]
-[initial]
-size = 3
-[space.x1]
-lower = 0
-upper = 10
-[space.x2]
-lower = 0
-upper = 10
-[belief.x1]
-centre = 5
-spread = 0.15
-[belief.x2]
-centre = 5
-spread = 0.15
-[[landscape]]
-name = "branin"
-[distortion]
-misplaced = {{ misplace = "worst" }}
-[strategy.prior-weighted]
-decay = ["hyperbolic:2", "hyperbolic:8"]
-"""
 GOOD = "x1,x2,y\n5,5,3.1\n4,6,2.0\n6,4,2.5\n5.5,5.2,1.1\n4.8,5.1,0.9\n"
 
 
 @pytest.fixture(scope="module")
-def grid(tmp_path_factory):
+def grid(monitor_grid, tmp_path_factory):
+    """s1.toml and g1: a copy of the monitor tests' grid (the monitor writes its cache beside
+    the grid); s2.toml: the same study with another seed, whose grid g1 is not (another study
+    that differs from the grid's in nothing else)."""
     root = tmp_path_factory.mktemp("monitor")
-    for seed in (1, 2):
-        (root / f"s{seed}.toml").write_text(textwrap.dedent(STUDY.format(seed=seed)))
-    assert main(["run", str(root / "s1.toml"), "--out", str(root / "g1"), "--quiet"]) == 0
-    assert main(["run", str(root / "s2.toml"), "--out", str(root / "g2"), "--quiet"]) == 0
+    shutil.copy(monitor_grid / "s.toml", root / "s1.toml")
+    shutil.copytree(monitor_grid / "g", root / "g1")
+    (root / "s2.toml").write_text(textwrap.dedent(STUDY.format(seed=2)))
     return root
 
 
@@ -84,9 +61,10 @@ def test_a_bad_observations_file_is_one_line_and_writes_nothing(
 
 @pytest.mark.slow
 def test_a_grid_of_another_study_is_refused(grid, tmp_path, capsys):
-    code, out = _monitor(grid, tmp_path / "out", GOOD, grid="g2")
+    code, out = _monitor(grid, tmp_path / "out", GOOD, study="s2.toml")
     err = capsys.readouterr().err.strip()
     assert code == 2 and len(err.splitlines()) == 1 and "'--grid'" in err
+    assert "run from another study" in err
     assert not out.exists()
 
 

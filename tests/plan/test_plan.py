@@ -51,6 +51,9 @@ def demo_pilot():
     return study, pl.run_pilot(study, pl.PlanOptions(pilot_replicates=2))
 
 
+# Not the shared grid (tests/conftest.py): the plan runs a pilot of this study, and one test
+# runs it, edits its file and runs it again; one landscape, one distortion and one strategy
+# keep those runs small.
 @pytest.fixture(scope="module")
 def tiny(tmp_path_factory):
     folder = tmp_path_factory.mktemp("tiny")

@@ -9,6 +9,7 @@ import shlex
 import shutil
 
 import pytest
+from helpers import SHARED_DRAWS as DRAWS  # the shared grid's report.html
 
 from workbench import analysis as an
 from workbench import cli
@@ -16,7 +17,6 @@ from workbench import cli
 # The command line's name for a decision on this branch; the page prints `workbench decide`
 # (the name issue 25 gives it). After the rename, this becomes "decide".
 DECIDE = "decide"
-DRAWS = 200  # as the decision_grid fixture's report
 
 
 @pytest.fixture(scope="module")
@@ -73,12 +73,12 @@ def _set(element, value: str) -> None:
     element.send_keys(value)
 
 
-def test_moving_a_weight_in_the_browser_gives_the_command_lines_decision(decision_grid, browser):
+def test_moving_a_weight_in_the_browser_gives_the_command_lines_decision(shared_grid, browser):
     b = browser
-    b.get((decision_grid / "report.html").as_uri())
+    b.get((shared_grid / "report.html").as_uri())
     # Loaded: the study's rule, as Python computed it for the page.
     first = _page_answer(b)
-    rec = an.recommend(an.open_grid(decision_grid), resampling=an.Resampling(draws=DRAWS))
+    rec = an.recommend(an.open_grid(shared_grid), resampling=an.Resampling(draws=DRAWS))
     _same(first, rec.to_dict())
     assert "--weights exact=0.6,shifted=0.3,misplaced=0.1" in first["command"]
 
@@ -109,8 +109,8 @@ def test_moving_a_weight_in_the_browser_gives_the_command_lines_decision(decisio
     assert not [e for e in b.get_log("browser") if e["level"] == "SEVERE"]
 
 
-def test_the_page_says_which_numbers_are_recomputed_in_the_browser(decision_grid):
-    page = (decision_grid / "report.html").read_text(encoding="utf-8")
+def test_the_page_says_which_numbers_are_recomputed_in_the_browser(shared_grid):
+    page = (shared_grid / "report.html").read_text(encoding="utf-8")
     box = page[page.index('<section id="explore"') : page.index("</section>")]
     assert "computed by Python" in box and "recomputed by the script of this page" in box
     # The only scripts are inline: the data and our own code, nothing fetched.

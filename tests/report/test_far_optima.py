@@ -46,6 +46,8 @@ decay = ["hyperbolic:4"]
 """
 
 
+# Not the shared grid (tests/conftest.py): the optima far from the data need a landscape fitted
+# to data crowded in one corner of the space.
 @pytest.fixture(scope="module")
 def grid(tmp_path_factory):
     """Eight proofs crowded in the cool, dry corner, the rise still climbing towards its edge:

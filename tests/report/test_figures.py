@@ -80,6 +80,8 @@ def study():
     return parse_text(STUDY, name="training", where="training.toml")
 
 
+# Not the shared grid (tests/conftest.py): the figures are checked on this study's log-scale,
+# integer and categorical space and its drawn landscape.
 @pytest.fixture(scope="module")
 def content(study, tmp_path_factory):
     out = tmp_path_factory.mktemp("training")

@@ -21,8 +21,8 @@ def _csv_links(text: str) -> dict[str, list[list[str]]]:
     return {name: list(csv.reader(io.StringIO(unquote(data)))) for name, data in found}
 
 
-def test_every_table_of_the_report_downloads_as_csv(decision_grid):
-    text = (decision_grid / "report.html").read_text(encoding="utf-8")
+def test_every_table_of_the_report_downloads_as_csv(shared_grid):
+    text = (shared_grid / "report.html").read_text(encoding="utf-8")
     links = _csv_links(text)
     # One download beneath every table Python wrote (the decision box's table is the
     # browser's own, filled by its script).
@@ -58,10 +58,10 @@ def _style(text: str) -> str:
     return re.search(r"<style>(.*?)</style>", text, re.S).group(1)
 
 
-def test_pages_share_one_stylesheet_and_link_to_each_other(decision_grid, tmp_path):
+def test_pages_share_one_stylesheet_and_link_to_each_other(shared_grid, tmp_path):
     folder = tmp_path / "results"
     folder.mkdir()
-    shutil.copy(decision_grid / "report.html", folder / "report.html")
+    shutil.copy(shared_grid / "report.html", folder / "report.html")
     table = PageTable("Readings", "How to read it.", ("t", "p"), ((1, "0.50"),), "readings")
     lines = ["what was read", "verdict: consistent", "finding: value"]
     # The audit first (the report was written before it: its links line is rewritten).
@@ -85,11 +85,11 @@ def test_pages_share_one_stylesheet_and_link_to_each_other(decision_grid, tmp_pa
     assert "Audit &lt;i&gt;" in text
 
 
-def test_a_report_for_another_rule_is_linked_beside_the_studys(decision_grid, tmp_path):
+def test_a_report_for_another_rule_is_linked_beside_the_studys(shared_grid, tmp_path):
     from workbench import cli
 
-    shutil.copy(decision_grid / "grid.nc", tmp_path / "grid.nc")
-    shutil.copy(decision_grid / "report.html", tmp_path / "report.html")
+    shutil.copy(shared_grid / "grid.nc", tmp_path / "grid.nc")
+    shutil.copy(shared_grid / "report.html", tmp_path / "report.html")
     before = (tmp_path / "report.html").read_text(encoding="utf-8")
     assert cli.main(["report", str(tmp_path), "--rule", "cvar", "--draws", "50"]) == 0
     other = (tmp_path / "report-cvar.html").read_text(encoding="utf-8")

@@ -60,6 +60,8 @@ STUDY = (
 )
 
 
+# Not the shared grid (tests/conftest.py): these tests check `workbench demo` itself, on a study
+# whose title and distortion name carry markup to escape, with units and a random baseline.
 @pytest.fixture(scope="module")
 def demo(tmp_path_factory):
     """`workbench demo` on the tiny study: run, assemble, report; returns (folder, stdout)."""

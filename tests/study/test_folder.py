@@ -73,6 +73,8 @@ def studies(tmp_path_factory):
     return paths
 
 
+# Not the shared grid (tests/conftest.py): these tests run, kill, change and resume their study
+# (block = 1, a slow and a changed variant) and name its chunk files.
 @pytest.fixture(scope="session")
 def clean(studies, tmp_path_factory):
     """A finished folder of the tiny study and its grid."""

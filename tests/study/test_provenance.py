@@ -38,6 +38,8 @@ decay = ["hyperbolic:3"]
 RECORDED = ("version", *LIBRARIES, "blas", "kernels", "lbfgsb")
 
 
+# Not the shared grid (tests/conftest.py): the study file lies in a sibling folder (the stored
+# path is relative), and the copies below are run again (with --fresh: the whole study).
 @pytest.fixture(scope="module")
 def finished(tmp_path_factory):
     """A finished folder of the tiny study, the study file in a sibling folder."""

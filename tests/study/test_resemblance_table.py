@@ -109,6 +109,8 @@ def kiln(tmp_path_factory):
     return folder, X, y, study, resemblance_table(study)
 
 
+# Not the shared grid (tests/conftest.py): the study reads its data file and a function beside
+# it, which this grid's tests move away after the run.
 @pytest.fixture(scope="session")
 def grid(kiln, tmp_path_factory):
     """A tiny run of a copy of the study; then its data file and function are moved away."""

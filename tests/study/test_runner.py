@@ -1,6 +1,7 @@
 """The grid runner: identical results whatever the workers, resume after a hard kill, storage."""
 
 import os
+import shutil
 import signal
 import subprocess
 import sys
@@ -36,6 +37,11 @@ decay = ["hyperbolic:3"]
 """
 
 
+# Not the shared grid (tests/conftest.py): these tests run their study again and again (two
+# workers, another block size, a dask cluster, a killed run), so it is the smallest that still
+# has many chunks (block = 1), a constant decay and a baseline that reads the belief.
+
+
 @pytest.fixture
 def study_file(tmp_path):
     path = tmp_path / "check.toml"
@@ -43,14 +49,24 @@ def study_file(tmp_path):
     return path
 
 
+@pytest.fixture(scope="module")
+def reference(tmp_path_factory):
+    """The study's folder run once in process with one worker, and its grid: the reference
+    of every comparison below (read-only; copy the folder to change it). As in each test,
+    the study file lies beside the folder (the grid stores its path relative to the folder)."""
+    root = tmp_path_factory.mktemp("runner")
+    (root / "check.toml").write_text(textwrap.dedent(STUDY), encoding="utf-8")
+    summary = run_study(load(root / "check.toml"), root / "out", jobs=1)
+    return root / "out", _grid(summary.grid)
+
+
 def _grid(path):
     with xr.open_dataset(path) as ds:
         return ds.load()
 
 
-def test_grid_has_the_named_dimensions_and_attributes(study_file, tmp_path):
-    summary = run_study(load(study_file), tmp_path / "out", jobs=1)
-    ds = _grid(summary.grid)
+def test_grid_has_the_named_dimensions_and_attributes(reference):
+    ds = reference[1]
     for dim in (
         "landscape",
         "distortion",
@@ -77,37 +93,34 @@ def test_grid_has_the_named_dimensions_and_attributes(study_file, tmp_path):
     np.testing.assert_array_equal(nb.sel(distortion="exact"), nb.sel(distortion="shifted"))
 
 
-def test_one_and_two_workers_give_identical_grids(study_file, tmp_path):
-    one = _grid(run_study(load(study_file), tmp_path / "one", jobs=1).grid)
+def test_one_and_two_workers_give_identical_grids(study_file, reference, tmp_path):
+    one = reference[1]
     two = _grid(run_study(load(study_file), tmp_path / "two", jobs=2).grid)
     xr.testing.assert_identical(one, two)
 
 
-def test_the_block_size_changes_the_chunks_but_not_the_grid(study_file, tmp_path):
+def test_the_block_size_changes_the_chunks_but_not_the_grid(study_file, reference, tmp_path):
     import dataclasses
 
     study = load(study_file)
     blocked = dataclasses.replace(study, block=2)
     assert [c.replicates for c in grid.chunks(blocked)][:2] == [(0, 1), (2,)]
-    one = _grid(run_study(study, tmp_path / "one", jobs=1).grid)
     two = _grid(run_study(blocked, tmp_path / "two", jobs=1).grid)
-    xr.testing.assert_identical(one, two)
+    xr.testing.assert_identical(reference[1], two)
 
 
-def test_a_dask_cluster_gives_the_same_grid(study_file, tmp_path):
+def test_a_dask_cluster_gives_the_same_grid(study_file, reference, tmp_path):
     distributed = pytest.importorskip("dask.distributed")
-    one = _grid(run_study(load(study_file), tmp_path / "one", jobs=1).grid)
     with distributed.LocalCluster(
         n_workers=2, threads_per_worker=1, processes=True, dashboard_address=None
     ) as cluster:
         dask = _grid(
             run_study(load(study_file), tmp_path / "dask", scheduler=cluster.scheduler_address).grid
         )
-    xr.testing.assert_identical(one, dask)
+    xr.testing.assert_identical(reference[1], dask)
 
 
-def test_a_killed_run_resumes_and_ends_with_the_same_grid(study_file, tmp_path):
-    reference = _grid(run_study(load(study_file), tmp_path / "ref", jobs=1).grid)
+def test_a_killed_run_resumes_and_ends_with_the_same_grid(study_file, reference, tmp_path):
     out = tmp_path / "killed"
     cmd = [
         sys.executable,
@@ -132,13 +145,13 @@ def test_a_killed_run_resumes_and_ends_with_the_same_grid(study_file, tmp_path):
     assert not (out / "grid.nc").exists()
     summary = run_study(load(study_file), out, jobs=2)
     assert summary.resumed > 0
-    xr.testing.assert_identical(_grid(summary.grid), reference)
+    xr.testing.assert_identical(_grid(summary.grid), reference[1])
 
 
-def test_a_changed_study_is_refused_unless_fresh(study_file, tmp_path):
+def test_a_changed_study_is_refused_unless_fresh(study_file, reference, tmp_path):
     from workbench.validation import InputError
 
-    run_study(load(study_file), tmp_path / "out", jobs=1)
+    shutil.copytree(reference[0], tmp_path / "out")  # the finished folder of seed 7
     study_file.write_text(textwrap.dedent(STUDY).replace("seed = 7", "seed = 8"), encoding="utf-8")
     with pytest.raises(InputError, match="--fresh"):
         run_study(load(study_file), tmp_path / "out", jobs=1)
