@@ -9,7 +9,8 @@ cluster have). Prints both wall times, their ratio (the goal is 1.8 with 2 worke
 the runner's cost model predicts for its largest-first order (the sum of the chunk costs over
 the longest worker's share when each task goes to the first free worker). On a machine whose
 cores other work shares, the measured ratio stays below the prediction: a second worker only
-helps as far as a second core is free.
+helps as far as a second core is free, so each repeat also measures the machine's own ceiling,
+a fixed job run by two processes at once against one alone.
 
     python benchmarks/cluster.py [--replicates 8] [--repeats 3]
 """
@@ -20,12 +21,15 @@ import argparse
 import dataclasses
 import heapq
 import json
+import multiprocessing
 import statistics
 import subprocess
 import sys
 import tempfile
 import time
 from pathlib import Path
+
+import numpy as np
 
 ROOT = Path(__file__).resolve().parents[1]
 STUDY = ROOT / "studies" / "reference.toml"
@@ -89,10 +93,11 @@ def main() -> None:
     if args.child:
         child(args.replicates, args.child, args.out)
         return
-    ones, twos = [], []
+    ones, twos, ceilings = [], [], []
     for _ in range(args.repeats):  # alternating, so that both see the same hours
         ones.append(measure(args.replicates, 1))
         twos.append(measure(args.replicates, 2))
+        ceilings.append(ceiling())
     one = statistics.median(r["seconds"] for r in ones)
     two = statistics.median(r["seconds"] for r in twos)
     print(
@@ -105,6 +110,39 @@ def main() -> None:
         f"speed-up {one / two:.2f} (goal {GOAL}); the cost model predicts "
         f"{predicted(args.replicates, 2):.2f} for the largest-first order"
     )
+    print(
+        f"the machine's own ceiling in the same runs (a fixed job, two processes at once "
+        f"against one): {statistics.median(ceilings):.2f} "
+        f"({', '.join(f'{c:.2f}' for c in ceilings)})"
+    )
+
+
+def _busy(_: object = None) -> float:
+    """A fixed piece of work of about a second, half Python, half numpy: its seconds."""
+    start = time.perf_counter()
+    total = 0
+    for i in range(3_000_000):
+        total += i * i % 7
+    a = np.random.default_rng(0).random((256, 1024))
+    for _ in range(150):
+        np.cos(a) @ np.ones(1024)
+    return time.perf_counter() - start
+
+
+def _wall(processes: int) -> float:
+    """Wall seconds of the fixed work on each of ``processes`` processes at once, after a
+    first round that pays their start-up."""
+    with multiprocessing.get_context("spawn").Pool(processes) as pool:
+        pool.map(_busy, range(processes))
+        start = time.perf_counter()
+        pool.map(_busy, range(processes))
+        return time.perf_counter() - start
+
+
+def ceiling() -> float:
+    """What two processes get from this machine's two cores right now: the fixed work's
+    throughput two at once over one alone (2.0 when both cores are whole)."""
+    return 2 * _wall(1) / _wall(2)
 
 
 def _runs(results: list[dict]) -> str:
