@@ -428,11 +428,14 @@ def _watch_parent(parent: int) -> None:
 
 
 def _work(
-    study: Study, group: list[Chunk], parent: int | None = None
-) -> tuple[list[tuple[Chunk, dict, float]], Exception | None]:
+    study: Study, group: list[Chunk], parent: int | None = None, extras: bool = False
+) -> tuple[list[tuple[Chunk | None, object, float]], Exception | None]:
     """Run a group's chunks in turn: what finished, and the error that stopped the rest (so
     that the chunks finished before it are still written). ``parent`` is the pid of the run's
-    process, which a worker on this machine watches (None on a Dask cluster)."""
+    process, which a worker on this machine watches (None on a Dask cluster). ``extras``:
+    the task that computes the grid file's extras (:func:`~workbench.study.gridfile.grid_extras`,
+    replicate 0's placements, which this worker may hold already), finished as
+    ``(None, extras, seconds)``."""
     from threadpoolctl import threadpool_limits
 
     if parent is not None:
@@ -442,6 +445,14 @@ def _work(
     # surface draws) run here too, and on a busy machine threaded BLAS makes them many times
     # slower.
     with threadpool_limits(limits=1, user_api="blas"):
+        if extras:
+            from .gridfile import grid_extras
+
+            start = time.perf_counter()
+            try:
+                return [(None, grid_extras(study), time.perf_counter() - start)], None
+            except Exception as err:
+                return [], err
         for chunk in group:
             start = time.perf_counter()
             try:
@@ -518,19 +529,23 @@ def _workers(groups: list, jobs: int | None, distributed: bool) -> int:
 
 
 def _parallel(
-    study: Study, todo: list[Chunk], jobs: int | None, distributed: bool
-) -> Iterator[tuple[Chunk, dict, float]]:
+    study: Study, todo: list[Chunk], jobs: int | None, distributed: bool, extras: bool = False
+) -> Iterator[tuple[Chunk | None, object, float]]:
+    """Yield (chunk, arrays, seconds) as tasks finish; with ``extras``, one more task, last
+    (the smallest: it fills a worker's idle end), yields ``(None, extras, seconds)``."""
     import joblib
 
     if not todo:
         return
     groups = _groups(study, todo)
-    n_jobs = _workers(groups, jobs, distributed)
+    n_jobs = _workers([*groups, *([None] if extras else [])], jobs, distributed)
     parallel = joblib.Parallel(
         n_jobs=n_jobs, return_as="generator_unordered", batch_size=1, pre_dispatch="2*n_jobs"
     )
     parent = None if distributed else os.getpid()
-    tasks = (joblib.delayed(_work)(study, g, parent) for g in groups)
+    tasks = [joblib.delayed(_work)(study, g, parent) for g in groups]
+    if extras:
+        tasks.append(joblib.delayed(_work)(study, [], parent, True))
     results = parallel(tasks)
     try:
         for finished, err in results:
@@ -543,40 +558,6 @@ def _parallel(
         with warnings.catch_warnings():
             warnings.filterwarnings("ignore", _CANCELLED, UserWarning)
             results.close()
-
-
-class _Beside:
-    """``fn(*args)`` run in a daemon thread of the run's process while the chunks run in
-    worker processes (``thread``), else when :meth:`result` is called; :meth:`result` waits
-    for it and re-raises what it raised. A daemon, so that a run stopped early does not wait
-    for it. Never beside chunks of this process: a user's function is evaluated through one
-    child process, which two threads must not share."""
-
-    def __init__(self, fn: Callable, *args, thread: bool) -> None:
-        self._value = self._error = None
-        self._thread = threading.Thread(
-            target=self._run, args=(fn, *args), name="workbench-beside", daemon=True
-        )
-        if thread:
-            self._thread.start()
-
-    def _run(self, fn: Callable, *args) -> None:
-        from threadpoolctl import threadpool_limits
-
-        try:
-            with threadpool_limits(limits=1, user_api="blas"):  # as the chunks' placements
-                self._value = fn(*args)
-        except BaseException as err:  # handed to the waiting thread
-            self._error = err
-
-    def result(self):
-        if self._thread.ident is None:
-            self._thread.run()  # never started: run here
-        else:
-            self._thread.join()
-        if self._error is not None:
-            raise self._error
-        return self._value
 
 
 def _chunk_failures(result: dict) -> dict:
@@ -661,7 +642,7 @@ def run_study(
     folder that is busy, foreign, damaged, read-only or not a folder.
     """
     from .cost import check_grid_size
-    from .gridfile import assemble, grid_extras
+    from .gridfile import assemble
 
     check_grid_size(study)  # before the folder is touched: a grid too large to load
     start = time.perf_counter()
@@ -689,11 +670,13 @@ def run_study(
                 _save(out, manifest)
                 if progress:
                     progress(done, total)
-                # The grid's belief figures and resemblance table (replicate 0's placements)
-                # are computed here while the workers run the chunks, not after them.
-                local = _workers(_groups(study, todo), jobs, scheduler is not None) == 1
-                extras = _Beside(grid_extras, study, thread=not local)
-                for chunk, result, seconds in _parallel(study, todo, jobs, scheduler is not None):
+                extras = None  # the grid's belief figures and resemblance table
+                for chunk, result, seconds in _parallel(
+                    study, todo, jobs, scheduler is not None, extras=True
+                ):
+                    if chunk is None:
+                        extras = result
+                        continue
                     with _disk(out):
                         sha = _write_chunk(study, out, chunk, result)
                     manifest["chunks"][chunk.key] = {"sha256": sha, "seconds": round(seconds, 4)}
@@ -709,7 +692,7 @@ def run_study(
                         out / GRID,
                         every,
                         manifest.get("provenance"),
-                        extras.result(),
+                        extras,
                     )
                     manifest["grid"] = {"sha256": sha256_of(out / GRID), "lowest": lowest}
                 _save(out, manifest)
