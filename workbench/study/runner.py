@@ -431,19 +431,16 @@ def _work(
     study: Study, group: list[Chunk], parent: int | None = None, extras: bool = False
 ) -> tuple[list[tuple[Chunk | None, object, float]], Exception | None]:
     """Run a group's chunks in turn: what finished, and the error that stopped the rest (so
-    that the chunks finished before it are still written). ``parent`` is the pid of the run's
-    process, which a worker on this machine watches (None on a Dask cluster). ``extras``:
-    the task that computes the grid file's extras (:func:`~workbench.study.gridfile.grid_extras`,
-    replicate 0's placements, which this worker may hold already), finished as
-    ``(None, extras, seconds)``."""
+    that the chunks finished before it are still written). ``parent``: the run's pid, which a
+    local worker watches (None on Dask). ``extras``: compute the grid file's extras instead
+    (:func:`~workbench.study.gridfile.grid_extras`), finished as ``(None, extras, seconds)``."""
     from threadpoolctl import threadpool_limits
 
     if parent is not None:
         _watch_parent(parent)
     out = []
-    # One BLAS thread, as the engine's batch has: the placements (a fitted landscape's GP,
-    # surface draws) run here too, and on a busy machine threaded BLAS makes them many times
-    # slower.
+    # One BLAS thread, as the engine's batch has: the placements run here too, and on a busy
+    # machine threaded BLAS makes them many times slower.
     with threadpool_limits(limits=1, user_api="blas"):
         if extras:
             from .gridfile import grid_extras
@@ -531,8 +528,8 @@ def _workers(groups: list, jobs: int | None, distributed: bool) -> int:
 def _parallel(
     study: Study, todo: list[Chunk], jobs: int | None, distributed: bool, extras: bool = False
 ) -> Iterator[tuple[Chunk | None, object, float]]:
-    """Yield (chunk, arrays, seconds) as tasks finish; with ``extras``, one more task, last
-    (the smallest: it fills a worker's idle end), yields ``(None, extras, seconds)``."""
+    """Yield (chunk, arrays, seconds) as tasks finish; ``extras`` adds a last task (small: it
+    fills a worker's idle end; it may find replicate 0's placements cached there)."""
     import joblib
 
     if not todo:
