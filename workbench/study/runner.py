@@ -38,7 +38,6 @@ import json
 import logging
 import os
 import re
-import threading
 import time
 import warnings
 from collections.abc import Callable, Iterator
@@ -54,6 +53,7 @@ from .cost import chunk_cost
 from .grid import Chunk, chunks, run_chunk
 from .provenance import differences, provenance
 from .spec import Study
+from .workers import tune_allocator, watch_parent
 
 __all__ = ["RunSummary", "execute", "run_study"]
 
@@ -72,8 +72,6 @@ RECORD = ("chunk_study", "chunk_key", "chunk_landscape", "chunk_distortion", "ch
 CHUNK_NAME = re.compile(r"L\d{3}-D\d{3}-R\d{4}-\d{4}\.npz")
 # Normalized regret below minus this means a campaign beat the computed minimum.
 BELOW_MINIMUM = 1e-9
-# How often a worker looks whether the run's process is still its parent (seconds).
-WATCH_INTERVAL = 0.25
 # joblib's warning when a stopped run cancels the tasks still running.
 _CANCELLED = r".*tasks (which were still being processed|have been successfully executed)"
 
@@ -404,29 +402,6 @@ def _chunk_path(out: Path, chunk: Chunk) -> Path:
     return out / CHUNKS / f"{chunk.key}.npz"
 
 
-_WATCHING = False
-
-
-def _watch_parent(parent: int) -> None:
-    """In a worker process the run's process (pid ``parent``) started, start (once) a daemon
-    thread that ends the worker when that process dies: the worker's parent pid then
-    changes. A worker that finds its parent gone already (it died while the worker was
-    starting) ends at once. Nothing happens in the run's own process (one job)."""
-    global _WATCHING
-    if _WATCHING or os.getpid() == parent:
-        return
-    if os.getppid() != parent:
-        os._exit(1)
-    _WATCHING = True
-
-    def watch() -> None:
-        while os.getppid() == parent:
-            time.sleep(WATCH_INTERVAL)
-        os._exit(1)
-
-    threading.Thread(target=watch, name="workbench-parent-watch", daemon=True).start()
-
-
 def _work(
     study: Study, group: list[Chunk], parent: int | None = None, extras: bool = False
 ) -> tuple[list[tuple[Chunk | None, object, float]], Exception | None]:
@@ -437,7 +412,8 @@ def _work(
     from threadpoolctl import threadpool_limits
 
     if parent is not None:
-        _watch_parent(parent)
+        watch_parent(parent)
+    tune_allocator()  # a Dask worker's environment would map every large temporary
     out = []
     # One BLAS thread, as the engine's batch has: the placements run here too, and on a busy
     # machine threaded BLAS makes them many times slower.
