@@ -15,7 +15,6 @@ Elsewhere (another C library) it does nothing.
 from __future__ import annotations
 
 import ctypes
-import ctypes.util
 import os
 import threading
 import time
@@ -37,12 +36,11 @@ def tune_allocator() -> bool:
     global _TUNED
     if _TUNED:
         return True
-    name = ctypes.util.find_library("c")
     try:
-        mallopt = ctypes.CDLL(name).mallopt if name else None
+        # The process's own symbols: glibc's mallopt where the C library is glibc (looking
+        # the library up by name would start a subprocess in every worker).
+        mallopt = ctypes.CDLL(None).mallopt
     except (OSError, AttributeError):
-        mallopt = None
-    if mallopt is None:
         return False
     _TUNED = bool(mallopt(M_MMAP_THRESHOLD, MMAP_THRESHOLD)) & bool(
         mallopt(M_TRIM_THRESHOLD, TRIM_THRESHOLD)
