@@ -107,14 +107,14 @@ def test_pilot_campaigns_are_the_studys_first_replicates(tiny):
             np.testing.assert_array_equal(small[r]["value"][k], whole[r]["value"][j])
 
 
-def test_compute_estimate_counts_the_campaigns_and_bytes_of_a_real_run(demo_pilot, tmp_path):
-    study, pilot = demo_pilot
-    # One replicate keeps the suite fast: 216 campaigns, run for real. Its seconds
-    # are compared with the estimate in benchmarks/estimate.py (medians of several runs), not
-    # here: a suite shares the machine.
-    small = dataclasses.replace(study, replicates=1)
-    estimate = pl.compute_estimate(small, pilot, 1)
-    summary = run_study(small, tmp_path / "run")
+def test_compute_estimate_counts_the_campaigns_and_bytes_of_a_real_run(tiny, tmp_path):
+    # The tiny study keeps the suite fast: its pilot and the study itself, run for real. The
+    # seconds are compared with the estimate in benchmarks/estimate.py (medians of several
+    # runs on the demo), not here: a suite shares the machine.
+    small = load(tiny)
+    pilot = pl.run_pilot(small, pl.PlanOptions(pilot_replicates=2, jobs=1))
+    estimate = pl.compute_estimate(small, pilot, small.replicates)
+    summary = run_study(small, tmp_path / "run", jobs=1)
     assert estimate.estimate.campaigns == summary.campaigns
     on_disk = sum(p.stat().st_size for p in (tmp_path / "run" / "chunks").glob("*.npz"))
     grid_file = (tmp_path / "run" / "grid.nc").stat().st_size
