@@ -42,6 +42,20 @@ spread = 0.2
 """
 
 
+# Five belief-guided settings (four pseudo-posterior, one prior-weighted): the shared grid's,
+# and those of the report tests' own study (tests/report/test_report.py).
+GUIDED_SETTINGS = textwrap.dedent(
+    """
+    [strategy.pseudo-posterior]
+    decay = ["hyperbolic:2", "hyperbolic:8"]
+    quantile = [0.1, 0.5]
+
+    [strategy.prior-weighted]
+    decay = ["hyperbolic:2"]
+    """
+)
+
+
 # The shared grid's study (the `shared_grid` session fixture of tests/conftest.py): two
 # landscapes and three distortions, both belief-guided strategies (five settings), the
 # no-belief baseline, 4 replicates of 8 evaluations; its report uses SHARED_DRAWS resamples.
@@ -72,14 +86,11 @@ SHARED_STUDY = (
     [distortion]
     shifted = { shift = 0.25 }
     misplaced = { misplace = "worst" }
-
-    [strategy.pseudo-posterior]
-    decay = ["hyperbolic:2", "hyperbolic:8"]
-    quantile = [0.1, 0.5]
-
-    [strategy.prior-weighted]
-    decay = ["hyperbolic:2"]
-
+    """
+    )
+    + GUIDED_SETTINGS
+    + textwrap.dedent(
+        """
     [decision]
     weights = { exact = 0.6, shifted = 0.3, misplaced = 0.1 }
     """

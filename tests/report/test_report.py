@@ -13,7 +13,7 @@ import matplotlib
 import numpy as np
 import pytest
 import xarray as xr
-from helpers import oven
+from helpers import GUIDED_SETTINGS, oven
 
 from workbench import analysis as an
 from workbench import cli
@@ -45,14 +45,11 @@ STUDY = (
 
     [distortion]
     "misplaced <b>" = { misplace = "worst" }
-
-    [strategy.pseudo-posterior]
-    decay = ["hyperbolic:2", "hyperbolic:8"]
-    quantile = [0.1, 0.5]
-
-    [strategy.prior-weighted]
-    decay = ["hyperbolic:2"]
-
+    """
+    )
+    + GUIDED_SETTINGS
+    + textwrap.dedent(
+        """
     [decision]
     weights = { exact = 0.7, "misplaced <b>" = 0.3 }
     """

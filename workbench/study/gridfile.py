@@ -312,7 +312,7 @@ def _point_text(space, u: np.ndarray) -> str:
     return ", ".join(parts)
 
 
-def _write_chunk(ds, study: Study, chunk: Chunk, data) -> float:
+def _fill_from_chunk(ds, study: Study, chunk: Chunk, data) -> float:
     """Write every replicate of one chunk (its arrays as
     :func:`~workbench.study.grid.run_chunk` gives them, stacked over (replicate, setting)),
     each variable in one call over the chunk's consecutive replicates; returns the lowest
@@ -436,7 +436,7 @@ def assemble(
                         # Read every array once: an npz member is decompressed on each access.
                         data = {name: npz[name] for name in npz.files}
                     label = study.landscapes[chunk.landscape].label
-                    low = _write_chunk(ds, study, chunk, data)
+                    low = _fill_from_chunk(ds, study, chunk, data)
                     lowest[label] = min(lowest.get(label, np.inf), low)
         except RuntimeError:
             if _disk_full(tmp):
